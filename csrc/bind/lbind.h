@@ -1,0 +1,48 @@
+/* lbind.h -- helpers shared by the binding files (never installed). */
+#ifndef LVS_LBIND_H
+#define LVS_LBIND_H
+
+#include <lauxlib.h>
+#include <lua.h>
+#include "levelshift.h"
+
+#define LVS_MATRIX_MT "levelshift.matrix"
+#define LVS_COMPLEX_MT "levelshift.complex"
+#define LVS_BASIS_MT "levelshift.basis"
+#define LVS_SITE_MT "levelshift.site"
+
+/* Every binding function has the context userdata as upvalue 1. */
+#define lvsL_ctx(L) (*(lvs_ctx **)lua_touserdata((L), lua_upvalueindex(1)))
+
+/* Raise "fname: message" for a failed core status (no-op on LVS_OK). */
+int lvsL_check(lua_State *L, lvs_ctx *ctx, int st, const char *fname);
+
+/* matrices */
+lvs_matrix **lvsL_newmatrix(lua_State *L);           /* pushes empty userdata */
+lvs_matrix *lvsL_checkmatrix(lua_State *L, int idx); /* type + closed check */
+lvs_matrix *lvsL_testmatrix(lua_State *L, int idx);  /* NULL if not a matrix */
+/* a number or a levelshift.complex at idx: 1 and z set, else 0 */
+int lvsL_toscalar(lua_State *L, int idx, double z[2]);
+void lvsL_pushcomplex(lua_State *L, double re, double im);
+/* read an integer option field of table at idx (default when nil) */
+lua_Integer lvsL_optfield_int(lua_State *L, int idx, const char *key, lua_Integer def,
+                              const char *fname, int argn);
+double lvsL_optfield_num(lua_State *L, int idx, const char *key, double def, const char *fname,
+                         int argn);
+/* raise unless every key of options table at idx is in the NULL-ended list */
+void lvsL_checkoptions(lua_State *L, int idx, const char *const *known, const char *fname, int argn);
+
+/* bases */
+lvs_basis *lvsL_checkbasis(lua_State *L, int idx);
+
+/* per-object openers: each registers its functions into the module table on
+ * top of the stack, with the context userdata as upvalue (at ctxidx) */
+void lvsL_open_matrix(lua_State *L, int ctxidx);
+void lvsL_open_basis(lua_State *L, int ctxidx);
+void lvsL_open_eigen(lua_State *L, int ctxidx);
+/* @@FEATURE-OPENERS@@ */
+
+/* register funcs with the ctx userdata as upvalue into table at -1 */
+void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx);
+
+#endif

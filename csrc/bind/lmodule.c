@@ -1,0 +1,143 @@
+/* lmodule.c -- luaopen_levelshift_core: the context, and each object's
+ * functions. The context uses the Lua state's own allocator, so a memory cap
+ * set on the state (embedding hosts) also bounds the core's allocations. */
+#include <string.h>
+#include "bind/lbind.h"
+
+static int ctx_gc(lua_State *L) {
+  lvs_ctx **p = lua_touserdata(L, 1);
+  if (*p) {
+    lvs_ctx_free(*p);
+    *p = NULL;
+  }
+  return 0;
+}
+
+int lvsL_check(lua_State *L, lvs_ctx *ctx, int st, const char *fname) {
+  if (st == LVS_OK) return 0;
+  lua_pushfstring(L, "%s: %s", fname, lvs_errmsg(ctx));
+  lvs_clear_error(ctx);
+  return lua_error(L);
+}
+
+void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx) {
+  for (; l->name; l++) {
+    lua_pushvalue(L, ctxidx);
+    lua_pushcclosure(L, l->func, 1);
+    lua_setfield(L, -2, l->name);
+  }
+}
+
+lua_Integer lvsL_optfield_int(lua_State *L, int idx, const char *key, lua_Integer def,
+                              const char *fname, int argn) {
+  if (lua_isnoneornil(L, idx)) return def;
+  lua_getfield(L, idx, key);
+  lua_Integer v = def;
+  if (!lua_isnil(L, -1)) {
+    int ok;
+    v = lua_tointegerx(L, -1, &ok);
+    if (!ok) {
+      lua_pushfstring(L, "option '%s' must be an integer", key);
+      luaL_argerror(L, argn, lua_tostring(L, -1));
+    }
+  }
+  lua_pop(L, 1);
+  (void)fname;
+  return v;
+}
+
+double lvsL_optfield_num(lua_State *L, int idx, const char *key, double def, const char *fname,
+                         int argn) {
+  if (lua_isnoneornil(L, idx)) return def;
+  lua_getfield(L, idx, key);
+  double v = def;
+  if (!lua_isnil(L, -1)) {
+    if (!lua_isnumber(L, -1)) {
+      lua_pushfstring(L, "option '%s' must be a number", key);
+      luaL_argerror(L, argn, lua_tostring(L, -1));
+    }
+    v = lua_tonumber(L, -1);
+  }
+  lua_pop(L, 1);
+  (void)fname;
+  return v;
+}
+
+void lvsL_checkoptions(lua_State *L, int idx, const char *const *known, const char *fname,
+                       int argn) {
+  if (lua_isnoneornil(L, idx)) return;
+  luaL_checktype(L, idx, LUA_TTABLE);
+  lua_pushnil(L);
+  while (lua_next(L, idx)) {
+    lua_pop(L, 1);
+    int ok = 0;
+    if (lua_type(L, -1) == LUA_TSTRING) {
+      const char *k = lua_tostring(L, -1);
+      for (const char *const *p = known; *p; p++)
+        if (strcmp(*p, k) == 0) ok = 1;
+    }
+    if (!ok) {
+      luaL_Buffer b;
+      luaL_buffinit(L, &b);
+      lua_pushfstring(L, "unknown option '%s' (accepted:", luaL_tolstring(L, -1, NULL));
+      lua_remove(L, -2);
+      luaL_addvalue(&b);
+      for (const char *const *p = known; *p; p++) {
+        luaL_addchar(&b, ' ');
+        luaL_addstring(&b, *p);
+      }
+      luaL_addchar(&b, ')');
+      luaL_pushresult(&b);
+      (void)fname;
+      luaL_argerror(L, argn, lua_tostring(L, -1));
+    }
+  }
+}
+
+static int l_version(lua_State *L) {
+  lua_pushstring(L, lvs_version());
+  return 1;
+}
+
+static int l_config(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  static const char *const known[] = {"dense_cap", NULL};
+  lvsL_checkoptions(L, 1, known, "config", 1);
+  if (!lua_isnoneornil(L, 1)) {
+    lua_getfield(L, 1, "dense_cap");
+    if (!lua_isnil(L, -1)) {
+      lua_Number v = lua_tonumber(L, -1);
+      luaL_argcheck(L, lua_isnumber(L, -1) && v > 0, 1, "dense_cap must be a positive number of bytes");
+      lvs_ctx_set_dense_cap(ctx, (size_t)v);
+    }
+    lua_pop(L, 1);
+  }
+  lua_createtable(L, 0, 1);
+  lua_pushnumber(L, (lua_Number)lvs_ctx_dense_cap(ctx));
+  lua_setfield(L, -2, "dense_cap");
+  return 1;
+}
+
+LUALIB_API int luaopen_levelshift_core(lua_State *L) {
+  void *ud;
+  lua_Alloc f = lua_getallocf(L, &ud);
+  lvs_ctx **p = lua_newuserdatauv(L, sizeof *p, 0);
+  *p = NULL;
+  lua_createtable(L, 0, 1);
+  lua_pushcfunction(L, ctx_gc);
+  lua_setfield(L, -2, "__gc");
+  lua_setmetatable(L, -2);
+  *p = lvs_ctx_new((lvs_alloc_fn)f, ud);
+  if (!*p) return luaL_error(L, "levelshift: cannot allocate a context");
+  int ctxidx = lua_gettop(L);
+  lua_newtable(L);
+  static const luaL_Reg fns[] = {{"version", l_version}, {"config", l_config}, {NULL, NULL}};
+  lvsL_setfuncs(L, fns, ctxidx);
+  lvsL_open_matrix(L, ctxidx);
+  lvsL_open_basis(L, ctxidx);
+  lvsL_open_eigen(L, ctxidx);
+  /* @@FEATURE-OPEN-CALLS@@ */
+  lua_pushvalue(L, ctxidx);
+  lua_setfield(L, -2, "_ctx"); /* keeps the context alive with the module */
+  return 1;
+}

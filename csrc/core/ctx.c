@@ -1,0 +1,107 @@
+/* ctx.c -- contexts, allocation through the user's allocator, errors. */
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include "internal.h"
+
+static void *default_alloc(void *ud, void *ptr, size_t osize, size_t nsize) {
+  (void)ud;
+  (void)osize;
+  if (nsize == 0) {
+    free(ptr);
+    return NULL;
+  }
+  return realloc(ptr, nsize);
+}
+
+const char *lvs_version(void) { return LVS_VERSION; }
+
+lvs_ctx *lvs_ctx_new(lvs_alloc_fn alloc, void *ud) {
+  if (!alloc) alloc = default_alloc;
+  lvs_ctx *c = alloc(ud, NULL, 0, sizeof *c);
+  if (!c) return NULL;
+  memset(c, 0, sizeof *c);
+  c->alloc = alloc;
+  c->ud = ud;
+  c->dense_cap = LVS_DEFAULT_DENSE_CAP;
+  return c;
+}
+
+void lvs_ctx_free(lvs_ctx *ctx) {
+  if (ctx) ctx->alloc(ctx->ud, ctx, sizeof *ctx, 0);
+}
+
+int lvs_errcode(const lvs_ctx *ctx) { return ctx ? ctx->code : LVS_EINVAL; }
+const char *lvs_errmsg(const lvs_ctx *ctx) { return ctx ? ctx->msg : "no context"; }
+void lvs_clear_error(lvs_ctx *ctx) {
+  if (ctx) {
+    ctx->code = LVS_OK;
+    ctx->msg[0] = 0;
+  }
+}
+
+const char *lvs_strerror(int code) {
+  switch (code) {
+    case LVS_OK: return "success";
+    case LVS_ENOMEM: return "out of memory";
+    case LVS_EINVAL: return "invalid argument";
+    case LVS_EDIM: return "dimension mismatch";
+    case LVS_ERANGE: return "out of range";
+    case LVS_ENOCONV: return "no convergence";
+    case LVS_ELAPACK: return "LAPACK failure";
+    case LVS_ECAP: return "dense size cap exceeded";
+    case LVS_ENOTHERM: return "matrix is not Hermitian";
+    default: return "unknown error";
+  }
+}
+
+void lvs_ctx_set_dense_cap(lvs_ctx *ctx, size_t bytes) { ctx->dense_cap = bytes; }
+size_t lvs_ctx_dense_cap(const lvs_ctx *ctx) { return ctx->dense_cap; }
+
+/* The one place every failure passes: set a breakpoint here. */
+int lvsi_fail(lvs_ctx *ctx, int code, const char *fmt, ...) {
+  if (!ctx) return code;
+  va_list ap;
+  va_start(ap, fmt);
+  vsnprintf(ctx->msg, sizeof ctx->msg, fmt, ap);
+  va_end(ap);
+  ctx->code = code;
+  return code;
+}
+
+/* Blocks carry their size in a 16-byte header so that frees can report
+ * osize to the user allocator (a memory cap needs it). */
+#define HDR 16
+void *lvsi_malloc(lvs_ctx *ctx, size_t size) {
+  if (size > SIZE_MAX - HDR) return NULL;
+  unsigned char *p = ctx->alloc(ctx->ud, NULL, 0, size + HDR);
+  if (!p) return NULL;
+  memcpy(p, &size, sizeof size);
+  return p + HDR;
+}
+void *lvsi_calloc(lvs_ctx *ctx, size_t n, size_t size) {
+  if (size && n > SIZE_MAX / size) return NULL;
+  void *p = lvsi_malloc(ctx, n * size);
+  if (p) memset(p, 0, n * size);
+  return p;
+}
+void lvsi_free(lvs_ctx *ctx, void *p) {
+  if (!p) return;
+  unsigned char *q = (unsigned char *)p - HDR;
+  size_t size;
+  memcpy(&size, q, sizeof size);
+  ctx->alloc(ctx->ud, q, size + HDR, 0);
+}
+
+int lvsi_dense_ok(lvs_ctx *ctx, size_t n, size_t m, size_t elem, const char *what) {
+  if ((m != 0 && n > SIZE_MAX / m) || (n != 0 && m != 0 && elem > SIZE_MAX / (n * m)))
+    return lvsi_fail(ctx, LVS_ECAP, "%s: %zux%zu dense storage overflows size_t", what, n, m);
+  size_t bytes = n * m * elem;
+  if (bytes > ctx->dense_cap)
+    return lvsi_fail(ctx, LVS_ECAP,
+                     "%s: %zux%zu dense storage needs %.3g GB, above the dense cap of %.3g GB"
+                     " (raise it with ls.config{dense_cap = bytes} if the machine has the memory)",
+                     what, n, m, bytes / 1e9, ctx->dense_cap / 1e9);
+  return LVS_OK;
+}

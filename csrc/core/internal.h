@@ -1,0 +1,63 @@
+/* internal.h -- definitions shared by the core's files; never installed. */
+#ifndef LVS_INTERNAL_H
+#define LVS_INTERNAL_H
+
+#include <complex.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include "levelshift.h"
+
+#define LVSI __attribute__((visibility("hidden")))
+#define LVS_INF_SLACK 1000000000L
+
+struct lvs_ctx {
+  lvs_alloc_fn alloc;
+  void *ud;
+  int code;
+  char msg[512];
+  size_t dense_cap;
+};
+
+/* Matrix storage. Stored size rows x cols; for a padded square operator the
+ * visible block is the n indices in vis (ascending). Sparse storage is CSC:
+ * column j holds entries cp[j] .. cp[j+1]-1 with row ri[k] and value a[k]
+ * (a[2k], a[2k+1] when complex). slack/band track how many padded levels of
+ * the stored matrix are still exact and its bandwidth (see matrix.c). */
+struct lvs_matrix {
+  lvs_ctx *ctx;
+  size_t rows, cols;
+  size_t n;     /* visible dimension when vis != NULL */
+  size_t *vis;  /* NULL: plain matrix */
+  int cplx;
+  int sparse;
+  double *a;
+  size_t *cp, *ri;
+  size_t nnz, cap;
+  long slack, band;
+};
+
+LVSI int lvsi_fail(lvs_ctx *ctx, int code, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+LVSI void *lvsi_malloc(lvs_ctx *ctx, size_t size);
+LVSI void *lvsi_calloc(lvs_ctx *ctx, size_t n, size_t size);
+LVSI void lvsi_free(lvs_ctx *ctx, void *p);
+/* checks n*m*elem against overflow and the dense cap; what names the request */
+LVSI int lvsi_dense_ok(lvs_ctx *ctx, size_t n, size_t m, size_t elem,
+                       const char *what);
+
+/* matrix internals */
+LVSI int lvsi_mat_alloc(lvs_ctx *ctx, size_t rows, size_t cols, int cplx,
+                        int sparse, size_t nnzcap, lvs_matrix **out);
+LVSI int lvsi_mat_reserve(lvs_matrix *m, size_t nnzcap);
+LVSI double complex lvsi_mat_at(const lvs_matrix *m, size_t i, size_t j);
+LVSI int lvsi_set_vis(lvs_matrix *m, size_t n, const size_t *vis);
+/* build a CSC matrix from column-sorted triplets helper: append entry to
+ * column being built (caller closes columns) */
+LVSI int lvsi_csc_push(lvs_matrix *m, size_t row, double complex v);
+LVSI int lvsi_mat_compact(lvs_matrix *m); /* dense if fill is high */
+LVSI int lvsi_to_dense(const lvs_matrix *a, lvs_matrix **out);
+
+LVSI int lvsi_check_hermitian(const lvs_matrix *h, double tol, const char *what);
+LVSI int lvsi_basis_twoS(const lvs_basis *b);
+
+#endif

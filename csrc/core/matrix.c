@@ -1,0 +1,991 @@
+/* matrix.c -- operators: dense column-major or sparse (CSC), real or
+ * complex, with padding bookkeeping for truncated bases.
+ *
+ * Padding. A truncated basis (oscillator, N states) hands out operators
+ * stored on N + pad states; the visible block is the first N (for products
+ * of bases, the states whose every site index is visible). A product of
+ * padded operators is exact inside the visible block as long as the sum over
+ * intermediate states never needs a state beyond the stored ones. We track
+ * it with two numbers per operator: band b (the true operator connects
+ * stored indices at most b apart) and slack s (every stored element between
+ * indices below N + s is exact). For C = A B,
+ *     s_C = min(s_A, s_B) - min(b_A, b_B),  b_C = b_A + b_B,
+ * and C is refused when s_C < 0 (its edge would be wrong). Sums keep the
+ * smaller slack and the larger band. Plain matrices given by the user are
+ * exact by definition (slack infinite). Source for the truncation rule:
+ * common practice (an entry (m, n) of x^k is wrong exactly when
+ * (m + n + k)/2 exceeds the highest kept level).
+ */
+#include <cblas.h>
+#include <math.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+#include "internal.h"
+
+#define SP_DENSIFY_FILL 0.25 /* a sparse result fuller than this goes dense */
+
+static int cmp_size(const void *x, const void *y);
+static size_t elem(int cplx) { return cplx ? 2 * sizeof(double) : sizeof(double); }
+
+int lvsi_mat_alloc(lvs_ctx *ctx, size_t rows, size_t cols, int cplx, int sparse,
+                   size_t nnzcap, lvs_matrix **out) {
+  *out = NULL;
+  if (!sparse) {
+    int st = lvsi_dense_ok(ctx, rows, cols, elem(cplx), "matrix");
+    if (st) return st;
+  }
+  lvs_matrix *m = lvsi_calloc(ctx, 1, sizeof *m);
+  if (!m) return lvsi_fail(ctx, LVS_ENOMEM, "out of memory allocating a matrix");
+  m->ctx = ctx;
+  m->rows = rows;
+  m->cols = cols;
+  m->n = rows;
+  m->cplx = cplx ? 1 : 0;
+  m->sparse = sparse ? 1 : 0;
+  m->slack = LVS_INF_SLACK;
+  m->band = (long)(rows > cols ? rows : cols);
+  if (!sparse) {
+    size_t cnt = rows * cols * (cplx ? 2 : 1);
+    m->a = lvsi_calloc(ctx, cnt ? cnt : 1, sizeof(double));
+    if (!m->a) {
+      lvsi_free(ctx, m);
+      return lvsi_fail(ctx, LVS_ENOMEM, "out of memory allocating a %zux%zu matrix", rows, cols);
+    }
+  } else {
+    m->cp = lvsi_calloc(ctx, cols + 1, sizeof(size_t));
+    if (!m->cp || lvsi_mat_reserve(m, nnzcap ? nnzcap : 4)) {
+      lvs_matrix_free(m);
+      return lvsi_fail(ctx, LVS_ENOMEM, "out of memory allocating a sparse %zux%zu matrix", rows,
+                       cols);
+    }
+  }
+  *out = m;
+  return LVS_OK;
+}
+
+int lvsi_mat_reserve(lvs_matrix *m, size_t cap) {
+  if (cap <= m->cap) return LVS_OK;
+  lvs_ctx *ctx = m->ctx;
+  size_t *ri = lvsi_malloc(ctx, cap * sizeof(size_t));
+  double *a = lvsi_malloc(ctx, cap * elem(m->cplx));
+  if (!ri || !a) {
+    lvsi_free(ctx, ri);
+    lvsi_free(ctx, a);
+    return lvsi_fail(ctx, LVS_ENOMEM, "out of memory growing a sparse matrix");
+  }
+  if (m->nnz) {
+    memcpy(ri, m->ri, m->nnz * sizeof(size_t));
+    memcpy(a, m->a, m->nnz * elem(m->cplx));
+  }
+  lvsi_free(ctx, m->ri);
+  lvsi_free(ctx, m->a);
+  m->ri = ri;
+  m->a = a;
+  m->cap = cap;
+  return LVS_OK;
+}
+
+int lvsi_csc_push(lvs_matrix *m, size_t row, double complex v) {
+  if (m->nnz == m->cap) {
+    int st = lvsi_mat_reserve(m, m->cap * 2 + 16);
+    if (st) return st;
+  }
+  m->ri[m->nnz] = row;
+  if (m->cplx) {
+    m->a[2 * m->nnz] = creal(v);
+    m->a[2 * m->nnz + 1] = cimag(v);
+  } else {
+    m->a[m->nnz] = creal(v);
+  }
+  m->nnz++;
+  return LVS_OK;
+}
+
+int lvsi_set_vis(lvs_matrix *m, size_t n, const size_t *vis) {
+  lvsi_free(m->ctx, m->vis);
+  m->vis = NULL;
+  m->n = m->rows;
+  if (!vis) return LVS_OK;
+  m->vis = lvsi_malloc(m->ctx, (n ? n : 1) * sizeof(size_t));
+  if (!m->vis) return lvsi_fail(m->ctx, LVS_ENOMEM, "out of memory");
+  memcpy(m->vis, vis, n * sizeof(size_t));
+  m->n = n;
+  return LVS_OK;
+}
+
+int lvs_matrix_new(lvs_ctx *ctx, size_t rows, size_t cols, int cplx, lvs_matrix **out) {
+  if (rows == 0 || cols == 0) {
+    *out = NULL;
+    return lvsi_fail(ctx, LVS_EINVAL, "matrix size must be positive, got %zux%zu", rows, cols);
+  }
+  return lvsi_mat_alloc(ctx, rows, cols, cplx, 0, 0, out);
+}
+
+int lvs_matrix_new_sparse(lvs_ctx *ctx, size_t rows, size_t cols, int cplx, lvs_matrix **out) {
+  if (rows == 0 || cols == 0) {
+    *out = NULL;
+    return lvsi_fail(ctx, LVS_EINVAL, "matrix size must be positive, got %zux%zu", rows, cols);
+  }
+  return lvsi_mat_alloc(ctx, rows, cols, cplx, 1, 4, out);
+}
+
+void lvs_matrix_free(lvs_matrix *m) {
+  if (!m) return;
+  lvs_ctx *ctx = m->ctx;
+  lvsi_free(ctx, m->a);
+  lvsi_free(ctx, m->cp);
+  lvsi_free(ctx, m->ri);
+  lvsi_free(ctx, m->vis);
+  lvsi_free(ctx, m);
+}
+
+size_t lvs_matrix_rows(const lvs_matrix *m) { return m->vis ? m->n : m->rows; }
+size_t lvs_matrix_cols(const lvs_matrix *m) { return m->vis ? m->n : m->cols; }
+int lvs_matrix_is_complex(const lvs_matrix *m) { return m->cplx; }
+int lvs_matrix_is_sparse(const lvs_matrix *m) { return m->sparse; }
+size_t lvs_matrix_nnz(const lvs_matrix *m) {
+  return m->sparse ? m->nnz : m->rows * m->cols;
+}
+
+static double complex sval(const lvs_matrix *m, size_t k) {
+  return m->cplx ? CMPLX(m->a[2 * k], m->a[2 * k + 1]) : m->a[k];
+}
+
+/* position of stored (i, j) in a sparse matrix, or SIZE_MAX */
+static size_t sp_find(const lvs_matrix *m, size_t i, size_t j) {
+  size_t lo = m->cp[j], hi = m->cp[j + 1];
+  while (lo < hi) {
+    size_t mid = lo + (hi - lo) / 2;
+    if (m->ri[mid] < i)
+      lo = mid + 1;
+    else
+      hi = mid;
+  }
+  return (lo < m->cp[j + 1] && m->ri[lo] == i) ? lo : SIZE_MAX;
+}
+
+double complex lvsi_mat_at(const lvs_matrix *m, size_t i, size_t j) {
+  if (!m->sparse) {
+    size_t k = i + j * m->rows;
+    return m->cplx ? CMPLX(m->a[2 * k], m->a[2 * k + 1]) : m->a[k];
+  }
+  size_t k = sp_find(m, i, j);
+  return k == SIZE_MAX ? 0.0 : sval(m, k);
+}
+
+static size_t vmap(const lvs_matrix *m, size_t i) { return m->vis ? m->vis[i] : i; }
+
+int lvs_matrix_get(const lvs_matrix *m, size_t i, size_t j, double *re, double *im) {
+  if (i >= lvs_matrix_rows(m) || j >= lvs_matrix_cols(m))
+    return lvsi_fail(m->ctx, LVS_ERANGE, "index (%zu, %zu) out of range for a %zux%zu matrix",
+                     i + 1, j + 1, lvs_matrix_rows(m), lvs_matrix_cols(m));
+  double complex v = lvsi_mat_at(m, vmap(m, i), vmap(m, j));
+  *re = creal(v);
+  *im = cimag(v);
+  return LVS_OK;
+}
+
+static int promote_complex(lvs_matrix *m) {
+  if (m->cplx) return LVS_OK;
+  size_t cnt = m->sparse ? m->cap : m->rows * m->cols;
+  if (!m->sparse) {
+    int st = lvsi_dense_ok(m->ctx, m->rows, m->cols, 2 * sizeof(double), "matrix");
+    if (st) return st;
+  }
+  double *a = lvsi_calloc(m->ctx, cnt ? 2 * cnt : 2, sizeof(double));
+  if (!a) return lvsi_fail(m->ctx, LVS_ENOMEM, "out of memory");
+  size_t used = m->sparse ? m->nnz : cnt;
+  for (size_t k = 0; k < used; k++) a[2 * k] = m->a[k];
+  lvsi_free(m->ctx, m->a);
+  m->a = a;
+  m->cplx = 1;
+  return LVS_OK;
+}
+
+static int mat_set_stored(lvs_matrix *m, size_t i, size_t j, double re, double im) {
+  if (im != 0.0 && !m->cplx) {
+    int st = promote_complex(m);
+    if (st) return st;
+  }
+  if (!m->sparse) {
+    size_t k = i + j * m->rows;
+    if (m->cplx) {
+      m->a[2 * k] = re;
+      m->a[2 * k + 1] = im;
+    } else {
+      m->a[k] = re;
+    }
+    return LVS_OK;
+  }
+  size_t k = sp_find(m, i, j);
+  if (k == SIZE_MAX) {
+    if (re == 0.0 && im == 0.0) return LVS_OK;
+    if (m->nnz == m->cap) {
+      int st = lvsi_mat_reserve(m, m->cap * 2 + 16);
+      if (st) return st;
+    }
+    /* insert keeping rows sorted */
+    size_t pos = m->cp[j];
+    while (pos < m->cp[j + 1] && m->ri[pos] < i) pos++;
+    size_t e = m->cplx ? 2 : 1;
+    memmove(m->ri + pos + 1, m->ri + pos, (m->nnz - pos) * sizeof(size_t));
+    memmove(m->a + e * (pos + 1), m->a + e * pos, (m->nnz - pos) * e * sizeof(double));
+    m->ri[pos] = i;
+    for (size_t c = j + 1; c <= m->cols; c++) m->cp[c]++;
+    m->nnz++;
+    k = pos;
+  }
+  if (m->cplx) {
+    m->a[2 * k] = re;
+    m->a[2 * k + 1] = im;
+  } else {
+    m->a[k] = re;
+  }
+  return LVS_OK;
+}
+
+int lvs_matrix_set(lvs_matrix *m, size_t i, size_t j, double re, double im) {
+  if (i >= lvs_matrix_rows(m) || j >= lvs_matrix_cols(m))
+    return lvsi_fail(m->ctx, LVS_ERANGE, "index (%zu, %zu) out of range for a %zux%zu matrix",
+                     i + 1, j + 1, lvs_matrix_rows(m), lvs_matrix_cols(m));
+  if (!isfinite(re) || !isfinite(im))
+    return lvsi_fail(m->ctx, LVS_EINVAL, "entry (%zu, %zu) is not finite", i + 1, j + 1);
+  /* a user-set element makes the padded edge no longer a true operator */
+  return mat_set_stored(m, vmap(m, i), vmap(m, j), re, im);
+}
+
+int lvs_matrix_copy(const lvs_matrix *a, lvs_matrix **out) {
+  lvs_matrix *c;
+  int st = lvsi_mat_alloc(a->ctx, a->rows, a->cols, a->cplx, a->sparse, a->sparse ? a->nnz : 0, &c);
+  if (st) return st;
+  if (a->sparse) {
+    memcpy(c->cp, a->cp, (a->cols + 1) * sizeof(size_t));
+    memcpy(c->ri, a->ri, a->nnz * sizeof(size_t));
+    memcpy(c->a, a->a, a->nnz * elem(a->cplx));
+    c->nnz = a->nnz;
+  } else {
+    memcpy(c->a, a->a, a->rows * a->cols * elem(a->cplx));
+  }
+  c->slack = a->slack;
+  c->band = a->band;
+  if (a->vis && lvsi_set_vis(c, a->n, a->vis)) {
+    lvs_matrix_free(c);
+    return LVS_ENOMEM;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+int lvsi_to_dense(const lvs_matrix *a, lvs_matrix **out) {
+  if (!a->sparse) return lvs_matrix_copy(a, out);
+  lvs_matrix *c;
+  int st = lvsi_mat_alloc(a->ctx, a->rows, a->cols, a->cplx, 0, 0, &c);
+  if (st) return st;
+  for (size_t j = 0; j < a->cols; j++)
+    for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
+      size_t p = a->ri[k] + j * a->rows;
+      if (a->cplx) {
+        c->a[2 * p] = a->a[2 * k];
+        c->a[2 * p + 1] = a->a[2 * k + 1];
+      } else {
+        c->a[p] = a->a[k];
+      }
+    }
+  c->slack = a->slack;
+  c->band = a->band;
+  if (a->vis && lvsi_set_vis(c, a->n, a->vis)) {
+    lvs_matrix_free(c);
+    return LVS_ENOMEM;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+/* Sparse results that filled in go dense (when the cap allows). */
+int lvsi_mat_compact(lvs_matrix *m) {
+  if (!m->sparse) return LVS_OK;
+  double total = (double)m->rows * (double)m->cols;
+  if ((double)m->nnz <= SP_DENSIFY_FILL * total) return LVS_OK;
+  if (lvsi_dense_ok(m->ctx, m->rows, m->cols, elem(m->cplx), "matrix")) {
+    lvs_clear_error(m->ctx);
+    return LVS_OK; /* stays sparse */
+  }
+  lvs_matrix *d;
+  int st = lvsi_to_dense(m, &d);
+  if (st) return st;
+  /* swap contents */
+  lvs_matrix tmp = *m;
+  *m = *d;
+  *d = tmp;
+  lvs_matrix_free(d);
+  return LVS_OK;
+}
+
+/* ---- making two operands compatible ----------------------------------- */
+
+static int same_vis(const lvs_matrix *a, const lvs_matrix *b) {
+  if (!a->vis || !b->vis) return a->vis == b->vis;
+  return a->n == b->n && a->rows == b->rows &&
+         memcmp(a->vis, b->vis, a->n * sizeof(size_t)) == 0;
+}
+
+/* Embed plain q (n x n) into the padded space of p (zeros outside). */
+static int embed_like(const lvs_matrix *p, const lvs_matrix *q, lvs_matrix **out) {
+  lvs_matrix *c;
+  int st = lvsi_mat_alloc(p->ctx, p->rows, p->cols, q->cplx, 1, q->sparse ? q->nnz : q->rows * q->cols, &c);
+  if (st) return st;
+  /* columns of q map to ascending stored columns vis[j] */
+  size_t qj = 0;
+  for (size_t j = 0; j < p->cols; j++) {
+    c->cp[j] = c->nnz;
+    if (qj < q->cols && p->vis[qj] == j) {
+      for (size_t i = 0; i < q->rows; i++) {
+        double complex v = lvsi_mat_at(q, i, qj);
+        if (v != 0.0 && (st = lvsi_csc_push(c, p->vis[i], v))) goto fail;
+      }
+      qj++;
+    }
+  }
+  c->cp[p->cols] = c->nnz;
+  c->slack = LVS_INF_SLACK;
+  c->band = (long)p->rows;
+  if ((st = lvsi_set_vis(c, p->n, p->vis))) goto fail;
+  *out = c;
+  return LVS_OK;
+fail:
+  lvs_matrix_free(c);
+  return st;
+}
+
+/* Bring a, b to one storage space; *ta, *tb are owned temporaries or NULL. */
+static int coerce(const lvs_matrix *a, const lvs_matrix *b, const lvs_matrix **ra,
+                  const lvs_matrix **rb, lvs_matrix **ta, lvs_matrix **tb, const char *op) {
+  *ta = *tb = NULL;
+  *ra = a;
+  *rb = b;
+  if (a->vis && b->vis) {
+    if (!same_vis(a, b))
+      return lvsi_fail(a->ctx, LVS_EDIM, "%s: operators belong to different bases (%zu vs %zu states)",
+                       op, a->n, b->n);
+    return LVS_OK;
+  }
+  if (a->vis && !b->vis && b->rows == a->n && b->cols == a->n) return embed_like(a, b, tb) ? a->ctx->code : (*rb = *tb, LVS_OK);
+  if (b->vis && !a->vis && a->rows == b->n && a->cols == b->n) return embed_like(b, a, ta) ? a->ctx->code : (*ra = *ta, LVS_OK);
+  return LVS_OK;
+}
+
+static long band_sum(long a, long b) { return a + b; }
+
+int lvs_matrix_add(const double alpha[2], const lvs_matrix *a0, const double beta[2],
+                   const lvs_matrix *b0, lvs_matrix **out) {
+  lvs_ctx *ctx = a0->ctx;
+  *out = NULL;
+  if (lvs_matrix_rows(a0) != lvs_matrix_rows(b0) || lvs_matrix_cols(a0) != lvs_matrix_cols(b0))
+    return lvsi_fail(ctx, LVS_EDIM, "dimension mismatch: %zux%zu vs %zux%zu", lvs_matrix_rows(a0),
+                     lvs_matrix_cols(a0), lvs_matrix_rows(b0), lvs_matrix_cols(b0));
+  const lvs_matrix *a, *b;
+  lvs_matrix *ta, *tb, *c = NULL;
+  int st = coerce(a0, b0, &a, &b, &ta, &tb, "add");
+  if (st) return st;
+  double complex al = CMPLX(alpha[0], alpha[1]), be = CMPLX(beta[0], beta[1]);
+  int cplx = a->cplx || b->cplx || alpha[1] != 0.0 || beta[1] != 0.0;
+  if (a->sparse && b->sparse) {
+    st = lvsi_mat_alloc(ctx, a->rows, a->cols, cplx, 1, a->nnz + b->nnz, &c);
+    if (st) goto done;
+    for (size_t j = 0; j < a->cols; j++) {
+      c->cp[j] = c->nnz;
+      size_t p = a->cp[j], q = b->cp[j];
+      while (p < a->cp[j + 1] || q < b->cp[j + 1]) {
+        size_t ia = p < a->cp[j + 1] ? a->ri[p] : SIZE_MAX;
+        size_t ib = q < b->cp[j + 1] ? b->ri[q] : SIZE_MAX;
+        double complex v;
+        size_t row;
+        if (ia == ib) {
+          v = al * sval(a, p++) + be * sval(b, q++);
+          row = ia;
+        } else if (ia < ib) {
+          v = al * sval(a, p++);
+          row = ia;
+        } else {
+          v = be * sval(b, q++);
+          row = ib;
+        }
+        if (v != 0.0 && (st = lvsi_csc_push(c, row, v))) goto done;
+      }
+    }
+    c->cp[a->cols] = c->nnz;
+  } else {
+    st = lvsi_mat_alloc(ctx, a->rows, a->cols, cplx, 0, 0, &c);
+    if (st) goto done;
+    for (size_t j = 0; j < a->cols; j++)
+      for (size_t i = 0; i < a->rows; i++) {
+        double complex v = al * lvsi_mat_at(a, i, j) + be * lvsi_mat_at(b, i, j);
+        size_t k = i + j * a->rows;
+        if (cplx) {
+          c->a[2 * k] = creal(v);
+          c->a[2 * k + 1] = cimag(v);
+        } else {
+          c->a[k] = creal(v);
+        }
+      }
+  }
+  c->slack = a->slack < b->slack ? a->slack : b->slack;
+  c->band = a->band > b->band ? a->band : b->band;
+  if (a->vis && (st = lvsi_set_vis(c, a->n, a->vis))) goto done;
+  st = lvsi_mat_compact(c);
+done:
+  lvs_matrix_free(ta);
+  lvs_matrix_free(tb);
+  if (st) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+int lvs_matrix_scale(const lvs_matrix *a, const double z[2], lvs_matrix **out) {
+  int st = lvs_matrix_copy(a, out);
+  if (st) return st;
+  lvs_matrix *c = *out;
+  if (z[1] != 0.0 && (st = promote_complex(c))) {
+    lvs_matrix_free(c);
+    *out = NULL;
+    return st;
+  }
+  size_t cnt = c->sparse ? c->nnz : c->rows * c->cols;
+  if (c->cplx) {
+    double complex zz = CMPLX(z[0], z[1]);
+    double complex *v = (double complex *)c->a;
+    for (size_t k = 0; k < cnt; k++) v[k] *= zz;
+  } else {
+    for (size_t k = 0; k < cnt; k++) c->a[k] *= z[0];
+  }
+  return LVS_OK;
+}
+
+/* identity on the storage space of a (square) */
+static int identity_like(const lvs_matrix *a, lvs_matrix **out) {
+  lvs_matrix *c;
+  int st = lvsi_mat_alloc(a->ctx, a->rows, a->cols, 0, 1, a->rows, &c);
+  if (st) return st;
+  for (size_t j = 0; j < a->cols; j++) {
+    c->cp[j] = j;
+    c->ri[j] = j;
+    c->a[j] = 1.0;
+  }
+  c->cp[a->cols] = c->nnz = a->cols;
+  c->slack = LVS_INF_SLACK;
+  c->band = 0;
+  if (a->vis && (st = lvsi_set_vis(c, a->n, a->vis))) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+int lvs_matrix_shift(const lvs_matrix *a, const double z[2], lvs_matrix **out) {
+  *out = NULL;
+  if (lvs_matrix_rows(a) != lvs_matrix_cols(a))
+    return lvsi_fail(a->ctx, LVS_EDIM, "adding a number needs a square matrix, got %zux%zu",
+                     lvs_matrix_rows(a), lvs_matrix_cols(a));
+  lvs_matrix *id;
+  int st = identity_like(a, &id);
+  if (st) return st;
+  double one[2] = {1, 0};
+  st = lvs_matrix_add(one, a, z, id, out);
+  lvs_matrix_free(id);
+  return st;
+}
+
+/* ---- products ---------------------------------------------------------- */
+
+static int sp_mul(const lvs_matrix *a, const lvs_matrix *b, lvs_matrix **out) {
+  lvs_ctx *ctx = a->ctx;
+  int cplx = a->cplx || b->cplx;
+  lvs_matrix *c;
+  int st = lvsi_mat_alloc(ctx, a->rows, b->cols, cplx, 1, a->nnz + b->nnz, &c);
+  if (st) return st;
+  double complex *acc = lvsi_calloc(ctx, a->rows, sizeof(double complex));
+  size_t *mark = lvsi_malloc(ctx, a->rows * sizeof(size_t));
+  size_t *list = lvsi_malloc(ctx, a->rows * sizeof(size_t));
+  if (!acc || !mark || !list) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in a sparse product");
+    goto done;
+  }
+  for (size_t i = 0; i < a->rows; i++) mark[i] = SIZE_MAX;
+  for (size_t j = 0; j < b->cols; j++) {
+    size_t cnt = 0;
+    c->cp[j] = c->nnz;
+    for (size_t q = b->cp[j]; q < b->cp[j + 1]; q++) {
+      size_t k = b->ri[q];
+      double complex bv = sval(b, q);
+      for (size_t p = a->cp[k]; p < a->cp[k + 1]; p++) {
+        size_t i = a->ri[p];
+        if (mark[i] != j) {
+          mark[i] = j;
+          acc[i] = 0;
+          list[cnt++] = i;
+        }
+        acc[i] += sval(a, p) * bv;
+      }
+    }
+    /* sort the row list (insertion sort for short columns) */
+    if (cnt > 32) {
+      qsort(list, cnt, sizeof(size_t), cmp_size);
+    } else {
+      for (size_t s = 1; s < cnt; s++) {
+        size_t v = list[s], t = s;
+        while (t > 0 && list[t - 1] > v) {
+          list[t] = list[t - 1];
+          t--;
+        }
+        list[t] = v;
+      }
+    }
+    for (size_t s = 0; s < cnt; s++)
+      if (acc[list[s]] != 0.0 && (st = lvsi_csc_push(c, list[s], acc[list[s]]))) goto done;
+  }
+  c->cp[b->cols] = c->nnz;
+done:
+  lvsi_free(ctx, acc);
+  lvsi_free(ctx, mark);
+  lvsi_free(ctx, list);
+  if (st) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+static int cmp_size(const void *x, const void *y) {
+  size_t a = *(const size_t *)x, b = *(const size_t *)y;
+  return a < b ? -1 : a > b;
+}
+
+static int dense_mul(const lvs_matrix *a0, const lvs_matrix *b0, lvs_matrix **out) {
+  lvs_ctx *ctx = a0->ctx;
+  int cplx = a0->cplx || b0->cplx;
+  lvs_matrix *c, *ta = NULL, *tb = NULL;
+  int st = lvsi_mat_alloc(ctx, a0->rows, b0->cols, cplx, 0, 0, &c);
+  if (st) return st;
+  if (a0->sparse && !b0->sparse) {
+    /* C(:, j) += A(:, k) B(k, j) over A's entries */
+    for (size_t j = 0; j < b0->cols; j++)
+      for (size_t k = 0; k < a0->cols; k++) {
+        double complex bv = lvsi_mat_at(b0, k, j);
+        if (bv == 0.0) continue;
+        for (size_t p = a0->cp[k]; p < a0->cp[k + 1]; p++) {
+          size_t idx = a0->ri[p] + j * c->rows;
+          double complex v = sval(a0, p) * bv;
+          if (cplx) {
+            c->a[2 * idx] += creal(v);
+            c->a[2 * idx + 1] += cimag(v);
+          } else {
+            c->a[idx] += creal(v);
+          }
+        }
+      }
+    goto done;
+  }
+  if (!a0->sparse && b0->sparse) {
+    for (size_t j = 0; j < b0->cols; j++)
+      for (size_t q = b0->cp[j]; q < b0->cp[j + 1]; q++) {
+        size_t k = b0->ri[q];
+        double complex bv = sval(b0, q);
+        for (size_t i = 0; i < a0->rows; i++) {
+          double complex v = lvsi_mat_at(a0, i, k) * bv;
+          size_t idx = i + j * c->rows;
+          if (cplx) {
+            c->a[2 * idx] += creal(v);
+            c->a[2 * idx + 1] += cimag(v);
+          } else {
+            c->a[idx] += creal(v);
+          }
+        }
+      }
+    goto done;
+  }
+  /* both dense: BLAS */
+  const lvs_matrix *a = a0, *b = b0;
+  if (cplx) {
+    if (!a->cplx) {
+      if ((st = lvs_matrix_copy(a0, &ta)) || (st = promote_complex(ta))) goto done;
+      a = ta;
+    }
+    if (!b->cplx) {
+      if ((st = lvs_matrix_copy(b0, &tb)) || (st = promote_complex(tb))) goto done;
+      b = tb;
+    }
+    double complex one = 1.0, zero = 0.0;
+    cblas_zgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, (int)a->rows, (int)b->cols,
+                (int)a->cols, &one, a->a, (int)a->rows, b->a, (int)b->rows, &zero, c->a,
+                (int)c->rows);
+  } else {
+    cblas_dgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, (int)a->rows, (int)b->cols,
+                (int)a->cols, 1.0, a->a, (int)a->rows, b->a, (int)b->rows, 0.0, c->a,
+                (int)c->rows);
+  }
+done:
+  lvs_matrix_free(ta);
+  lvs_matrix_free(tb);
+  if (st) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+static int raw_mul(const lvs_matrix *a, const lvs_matrix *b, lvs_matrix **out) {
+  int st = (a->sparse && b->sparse) ? sp_mul(a, b, out) : dense_mul(a, b, out);
+  if (st) return st;
+  return lvsi_mat_compact(*out);
+}
+
+int lvs_matrix_mul(const lvs_matrix *a0, const lvs_matrix *b0, lvs_matrix **out) {
+  lvs_ctx *ctx = a0->ctx;
+  *out = NULL;
+  if (lvs_matrix_cols(a0) != lvs_matrix_rows(b0))
+    return lvsi_fail(ctx, LVS_EDIM, "dimension mismatch in product: %zux%zu times %zux%zu",
+                     lvs_matrix_rows(a0), lvs_matrix_cols(a0), lvs_matrix_rows(b0),
+                     lvs_matrix_cols(b0));
+  const lvs_matrix *a, *b;
+  lvs_matrix *ta, *tb, *c = NULL;
+  int st;
+  /* padded times a plain non-square block (vectors): use the visible block */
+  if ((a0->vis && !b0->vis && b0->cols != a0->n) || (b0->vis && !a0->vis && a0->rows != b0->n)) {
+    lvs_matrix *va = NULL, *vb = NULL;
+    if (a0->vis && (st = lvs_matrix_visible(a0, 0, &va))) return st;
+    if (b0->vis && (st = lvs_matrix_visible(b0, 0, &vb))) {
+      lvs_matrix_free(va);
+      return st;
+    }
+    st = raw_mul(va ? va : a0, vb ? vb : b0, out);
+    lvs_matrix_free(va);
+    lvs_matrix_free(vb);
+    return st;
+  }
+  if ((st = coerce(a0, b0, &a, &b, &ta, &tb, "product"))) return st;
+  if (a->vis) {
+    long ms = a->slack < b->slack ? a->slack : b->slack;
+    long mb = a->band < b->band ? a->band : b->band;
+    long slack = ms >= LVS_INF_SLACK ? LVS_INF_SLACK : ms - mb;
+    if (slack < 0) {
+      st = lvsi_fail(ctx, LVS_ERANGE,
+                     "operator product reaches beyond the padding of the truncated basis, so its "
+                     "edge would be wrong; build the basis with a larger pad");
+      goto done;
+    }
+    if ((st = raw_mul(a, b, &c))) goto done;
+    c->slack = slack;
+    c->band = band_sum(a->band, b->band);
+    if (c->band > (long)c->rows) c->band = (long)c->rows;
+    if ((st = lvsi_set_vis(c, a->n, a->vis))) goto done;
+  } else {
+    if ((st = raw_mul(a, b, &c))) goto done;
+  }
+done:
+  lvs_matrix_free(ta);
+  lvs_matrix_free(tb);
+  if (st) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+int lvs_matrix_pow(const lvs_matrix *a, int k, lvs_matrix **out) {
+  *out = NULL;
+  if (lvs_matrix_rows(a) != lvs_matrix_cols(a))
+    return lvsi_fail(a->ctx, LVS_EDIM, "power of a non-square %zux%zu matrix", lvs_matrix_rows(a),
+                     lvs_matrix_cols(a));
+  if (k < 0) return lvsi_fail(a->ctx, LVS_ERANGE, "negative power %d", k);
+  if (k == 0) return identity_like(a, out);
+  lvs_matrix *acc;
+  int st = lvs_matrix_copy(a, &acc);
+  if (st) return st;
+  for (int i = 1; i < k; i++) {
+    lvs_matrix *n;
+    if ((st = lvs_matrix_mul(acc, a, &n))) {
+      lvs_matrix_free(acc);
+      return st;
+    }
+    lvs_matrix_free(acc);
+    acc = n;
+  }
+  *out = acc;
+  return LVS_OK;
+}
+
+int lvs_matrix_adj(const lvs_matrix *a, lvs_matrix **out) {
+  lvs_ctx *ctx = a->ctx;
+  lvs_matrix *c;
+  int st;
+  *out = NULL;
+  if (!a->sparse) {
+    if ((st = lvsi_mat_alloc(ctx, a->cols, a->rows, a->cplx, 0, 0, &c))) return st;
+    for (size_t j = 0; j < a->cols; j++)
+      for (size_t i = 0; i < a->rows; i++) {
+        size_t s = i + j * a->rows, d = j + i * a->cols;
+        if (a->cplx) {
+          c->a[2 * d] = a->a[2 * s];
+          c->a[2 * d + 1] = -a->a[2 * s + 1];
+        } else {
+          c->a[d] = a->a[s];
+        }
+      }
+  } else {
+    if ((st = lvsi_mat_alloc(ctx, a->cols, a->rows, a->cplx, 1, a->nnz, &c))) return st;
+    for (size_t k = 0; k < a->nnz; k++) c->cp[a->ri[k] + 1]++;
+    for (size_t i = 0; i < a->rows; i++) c->cp[i + 1] += c->cp[i];
+    size_t *next = lvsi_malloc(ctx, (a->rows ? a->rows : 1) * sizeof(size_t));
+    if (!next) {
+      lvs_matrix_free(c);
+      return lvsi_fail(ctx, LVS_ENOMEM, "out of memory");
+    }
+    memcpy(next, c->cp, a->rows * sizeof(size_t));
+    for (size_t j = 0; j < a->cols; j++)
+      for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
+        size_t d = next[a->ri[k]]++;
+        c->ri[d] = j;
+        if (a->cplx) {
+          c->a[2 * d] = a->a[2 * k];
+          c->a[2 * d + 1] = -a->a[2 * k + 1];
+        } else {
+          c->a[d] = a->a[k];
+        }
+      }
+    c->nnz = a->nnz;
+    lvsi_free(ctx, next);
+  }
+  c->slack = a->slack;
+  c->band = a->band;
+  if (a->vis && (st = lvsi_set_vis(c, a->n, a->vis))) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) {
+  double worst = 0.0;
+  size_t wi = 0, wj = 0;
+  size_t n = lvs_matrix_rows(a);
+  if (n != lvs_matrix_cols(a)) {
+    if (pi) *pi = 0;
+    if (pj) *pj = 0;
+    return INFINITY;
+  }
+  if (a->sparse && !a->vis) {
+    for (size_t j = 0; j < a->cols; j++)
+      for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
+        size_t i = a->ri[k];
+        double d = cabs(sval(a, k) - conj(lvsi_mat_at(a, j, i)));
+        if (d > worst || isnan(d)) {
+          worst = isnan(d) ? INFINITY : d;
+          wi = i;
+          wj = j;
+        }
+      }
+  } else {
+    for (size_t j = 0; j < n; j++)
+      for (size_t i = 0; i <= j; i++) {
+        double d = cabs(lvsi_mat_at(a, vmap(a, i), vmap(a, j)) -
+                        conj(lvsi_mat_at(a, vmap(a, j), vmap(a, i))));
+        if (d > worst || isnan(d)) {
+          worst = isnan(d) ? INFINITY : d;
+          wi = i;
+          wj = j;
+        }
+      }
+  }
+  if (pi) *pi = wi;
+  if (pj) *pj = wj;
+  return worst;
+}
+
+int lvs_matrix_visible(const lvs_matrix *a, int want_dense, lvs_matrix **out) {
+  lvs_ctx *ctx = a->ctx;
+  *out = NULL;
+  int st;
+  if (!a->vis) {
+    if (want_dense && a->sparse) return lvsi_to_dense(a, out);
+    return lvs_matrix_copy(a, out);
+  }
+  size_t n = a->n;
+  lvs_matrix *c;
+  if (want_dense || !a->sparse) {
+    if ((st = lvsi_mat_alloc(ctx, n, n, a->cplx, 0, 0, &c))) return st;
+    for (size_t j = 0; j < n; j++)
+      for (size_t i = 0; i < n; i++) {
+        double complex v = lvsi_mat_at(a, a->vis[i], a->vis[j]);
+        size_t k = i + j * n;
+        if (a->cplx) {
+          c->a[2 * k] = creal(v);
+          c->a[2 * k + 1] = cimag(v);
+        } else {
+          c->a[k] = creal(v);
+        }
+      }
+  } else {
+    size_t *map = lvsi_malloc(ctx, a->rows * sizeof(size_t));
+    if (!map) return lvsi_fail(ctx, LVS_ENOMEM, "out of memory");
+    for (size_t i = 0; i < a->rows; i++) map[i] = SIZE_MAX;
+    for (size_t i = 0; i < n; i++) map[a->vis[i]] = i;
+    if ((st = lvsi_mat_alloc(ctx, n, n, a->cplx, 1, a->nnz, &c))) {
+      lvsi_free(ctx, map);
+      return st;
+    }
+    for (size_t j = 0; j < n; j++) {
+      size_t sj = a->vis[j];
+      c->cp[j] = c->nnz;
+      for (size_t k = a->cp[sj]; k < a->cp[sj + 1]; k++)
+        if (map[a->ri[k]] != SIZE_MAX && (st = lvsi_csc_push(c, map[a->ri[k]], sval(a, k)))) {
+          lvsi_free(ctx, map);
+          lvs_matrix_free(c);
+          return st;
+        }
+    }
+    c->cp[n] = c->nnz;
+    lvsi_free(ctx, map);
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+double *lvs_matrix_data(lvs_matrix *m) { return (m->sparse || m->vis) ? NULL : m->a; }
+
+int lvs_matrix_kron(const lvs_matrix *a, const lvs_matrix *b, lvs_matrix **out) {
+  lvs_ctx *ctx = a->ctx;
+  *out = NULL;
+  if (a->vis || b->vis)
+    return lvsi_fail(ctx, LVS_EINVAL, "kron: operands must be plain matrices");
+  size_t rows = a->rows * b->rows, cols = a->cols * b->cols;
+  if (a->rows && rows / a->rows != b->rows)
+    return lvsi_fail(ctx, LVS_ECAP, "kron: size overflows");
+  lvs_matrix *c;
+  int st = lvsi_mat_alloc(ctx, rows, cols, a->cplx || b->cplx, 1,
+                          lvs_matrix_nnz(a) * lvs_matrix_nnz(b), &c);
+  if (st) return st;
+  for (size_t ja = 0; ja < a->cols; ja++)
+    for (size_t jb = 0; jb < b->cols; jb++) {
+      c->cp[ja * b->cols + jb] = c->nnz;
+      for (size_t ia = 0; ia < a->rows; ia++) {
+        double complex av = lvsi_mat_at(a, ia, ja);
+        if (av == 0.0) continue;
+        for (size_t ib = 0; ib < b->rows; ib++) {
+          double complex bv = lvsi_mat_at(b, ib, jb);
+          if (bv != 0.0 && (st = lvsi_csc_push(c, ia * b->rows + ib, av * bv))) {
+            lvs_matrix_free(c);
+            return st;
+          }
+        }
+      }
+    }
+  c->cp[cols] = c->nnz;
+  *out = c;
+  return LVS_OK;
+}
+
+int lvs_matrix_apply(const lvs_matrix *a, int cplx, const double *x, double *y) {
+  if (a->cplx && !cplx)
+    return lvsi_fail(a->ctx, LVS_EINVAL, "apply: complex matrix needs complex vectors");
+  if (a->vis) return lvsi_fail(a->ctx, LVS_EINVAL, "apply: take the visible block first");
+  size_t r = a->rows, c = a->cols;
+  if (!cplx) {
+    memset(y, 0, r * sizeof(double));
+    if (a->sparse) {
+      for (size_t j = 0; j < c; j++) {
+        double xj = x[j];
+        if (xj == 0.0) continue;
+        for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) y[a->ri[k]] += a->a[k] * xj;
+      }
+    } else {
+      cblas_dgemv(CblasColMajor, CblasNoTrans, (int)r, (int)c, 1.0, a->a, (int)r, x, 1, 0.0, y, 1);
+    }
+    return LVS_OK;
+  }
+  const double complex *xc = (const double complex *)x;
+  double complex *yc = (double complex *)y;
+  memset(y, 0, 2 * r * sizeof(double));
+  if (a->sparse) {
+    for (size_t j = 0; j < c; j++) {
+      double complex xj = xc[j];
+      if (xj == 0.0) continue;
+      for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) yc[a->ri[k]] += sval(a, k) * xj;
+    }
+  } else if (a->cplx) {
+    double complex one = 1.0, zero = 0.0;
+    cblas_zgemv(CblasColMajor, CblasNoTrans, (int)r, (int)c, &one, a->a, (int)r, x, 1, &zero, y, 1);
+  } else {
+    for (size_t j = 0; j < c; j++)
+      for (size_t i = 0; i < r; i++) yc[i] += a->a[i + j * r] * xc[j];
+  }
+  return LVS_OK;
+}
+
+/* Build from triplets (0-based, any order; duplicates are summed). */
+static const size_t *g_sort_i, *g_sort_j;
+static int cmp_trip(const void *x, const void *y) {
+  size_t a = *(const size_t *)x, b = *(const size_t *)y;
+  if (g_sort_j[a] != g_sort_j[b]) return g_sort_j[a] < g_sort_j[b] ? -1 : 1;
+  if (g_sort_i[a] != g_sort_i[b]) return g_sort_i[a] < g_sort_i[b] ? -1 : 1;
+  return 0;
+}
+
+int lvs_matrix_from_triplets(lvs_ctx *ctx, size_t rows, size_t cols, size_t nnz, const size_t *ii,
+                             const size_t *jj, const double *re, const double *im,
+                             lvs_matrix **out) {
+  *out = NULL;
+  if (rows == 0 || cols == 0)
+    return lvsi_fail(ctx, LVS_EINVAL, "matrix size must be positive, got %zux%zu", rows, cols);
+  int cplx = 0;
+  for (size_t k = 0; k < nnz; k++) {
+    if (ii[k] >= rows || jj[k] >= cols)
+      return lvsi_fail(ctx, LVS_ERANGE, "entry (%zu, %zu) outside a %zux%zu matrix", ii[k] + 1,
+                       jj[k] + 1, rows, cols);
+    if (!isfinite(re[k]) || (im && !isfinite(im[k])))
+      return lvsi_fail(ctx, LVS_EINVAL, "entry (%zu, %zu) is NaN or infinite", ii[k] + 1, jj[k] + 1);
+    if (im && im[k] != 0.0) cplx = 1;
+  }
+  size_t *perm = lvsi_malloc(ctx, (nnz ? nnz : 1) * sizeof(size_t));
+  if (!perm) return lvsi_fail(ctx, LVS_ENOMEM, "out of memory");
+  for (size_t k = 0; k < nnz; k++) perm[k] = k;
+  g_sort_i = ii; /* not thread-safe; the binding is single-threaded per state */
+  g_sort_j = jj;
+  qsort(perm, nnz, sizeof(size_t), cmp_trip);
+  lvs_matrix *c;
+  int st = lvsi_mat_alloc(ctx, rows, cols, cplx, 1, nnz, &c);
+  if (st) {
+    lvsi_free(ctx, perm);
+    return st;
+  }
+  size_t col = 0, k = 0;
+  for (col = 0; col < cols; col++) {
+    c->cp[col] = c->nnz;
+    while (k < nnz && jj[perm[k]] == col) {
+      size_t p = perm[k];
+      double complex v = CMPLX(re[p], im ? im[p] : 0.0);
+      k++;
+      while (k < nnz && jj[perm[k]] == col && ii[perm[k]] == ii[p]) {
+        v += CMPLX(re[perm[k]], im ? im[perm[k]] : 0.0);
+        k++;
+      }
+      if (v != 0.0) lvsi_csc_push(c, ii[p], v); /* capacity reserved */
+    }
+  }
+  c->cp[cols] = c->nnz;
+  lvsi_free(ctx, perm);
+  if ((st = lvsi_mat_compact(c))) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  *out = c;
+  return LVS_OK;
+}

@@ -1,0 +1,209 @@
+/*
+ * levelshift.h -- public C API of levelshift: perturbation theory for quantum
+ * levels (core objects, no Lua) and the embedding calls (a Lua state with the
+ * module preloaded).
+ *
+ * Conventions (see DEVELOPERS.md):
+ *   - every object lives in an lvs_ctx, which owns the allocator, the dense
+ *     size cap and the last error; there is no global state;
+ *   - functions return an lvs_status; on failure *out is NULL, nothing leaks,
+ *     and lvs_errmsg(ctx) says what went wrong;
+ *   - indices in the C API are 0-based; matrices are column-major, complex
+ *     values interleaved (re, im);
+ *   - _free(NULL) does nothing and never fails.
+ */
+#ifndef LEVELSHIFT_H
+#define LEVELSHIFT_H
+
+#include <stddef.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#if defined(_WIN32)
+#define LVS_API __declspec(dllexport)
+#else
+#define LVS_API __attribute__((visibility("default")))
+#endif
+
+#define LVS_VERSION_MAJOR 0
+#define LVS_VERSION_MINOR 1
+#define LVS_VERSION_PATCH 0
+#define LVS_VERSION "0.1.0"
+LVS_API const char *lvs_version(void); /* run-time version string */
+
+/* Status codes. Never renumbered. */
+typedef enum {
+  LVS_OK = 0,      /* success */
+  LVS_ENOMEM = 1,  /* an allocation failed */
+  LVS_EINVAL = 2,  /* an argument is invalid (NaN, wrong kind, bad option) */
+  LVS_EDIM = 3,    /* dimensions do not match */
+  LVS_ERANGE = 4,  /* an index or order is out of range */
+  LVS_ENOCONV = 5, /* an iteration did not converge */
+  LVS_ELAPACK = 6, /* LAPACK reported a failure */
+  LVS_ECAP = 7,    /* a dense allocation would exceed the configured cap */
+  LVS_ENOTHERM = 8 /* a matrix that must be Hermitian is not */
+} lvs_status;
+
+/* ---- context ---------------------------------------------------------- */
+
+/* Allocator with the contract of lua_Alloc: nsize == 0 frees ptr and returns
+ * NULL; otherwise behaves like realloc(ptr, nsize) (osize is the old size,
+ * or 0 when ptr is NULL). */
+typedef void *(*lvs_alloc_fn)(void *ud, void *ptr, size_t osize, size_t nsize);
+
+typedef struct lvs_ctx lvs_ctx;
+
+/* CONSTRUCTOR. alloc may be NULL (malloc/realloc/free). Returns NULL only
+ * when the context itself cannot be allocated. */
+LVS_API lvs_ctx *lvs_ctx_new(lvs_alloc_fn alloc, void *ud);
+/* DESTRUCTOR. Objects made in the context must be freed before it. */
+LVS_API void lvs_ctx_free(lvs_ctx *ctx);
+LVS_API int lvs_errcode(const lvs_ctx *ctx);         /* last status */
+LVS_API const char *lvs_errmsg(const lvs_ctx *ctx);  /* owned by ctx */
+LVS_API const char *lvs_strerror(int code);          /* static text */
+LVS_API void lvs_clear_error(lvs_ctx *ctx);
+/* Cap, in bytes, on any single dense allocation (default
+ * LVS_DEFAULT_DENSE_CAP). A request above it fails with LVS_ECAP. */
+#define LVS_DEFAULT_DENSE_CAP ((size_t)4 << 30)
+LVS_API void lvs_ctx_set_dense_cap(lvs_ctx *ctx, size_t bytes);
+LVS_API size_t lvs_ctx_dense_cap(const lvs_ctx *ctx);
+
+/* ---- matrices (ops) ----------------------------------------------------
+ * A matrix is real or complex, stored dense (column-major) or sparse
+ * (compressed columns); the library chooses. A square operator made by a
+ * truncated basis (an oscillator) is stored on a padded space so that
+ * products stay exact inside the visible block; rows/cols report the
+ * visible size. */
+typedef struct lvs_matrix lvs_matrix;
+
+/* CONSTRUCTOR: rows x cols zeros, dense, real or complex. */
+LVS_API int lvs_matrix_new(lvs_ctx *ctx, size_t rows, size_t cols, int cplx,
+                           lvs_matrix **out);
+/* CONSTRUCTOR: rows x cols zeros, sparse. */
+LVS_API int lvs_matrix_new_sparse(lvs_ctx *ctx, size_t rows, size_t cols,
+                                  int cplx, lvs_matrix **out);
+LVS_API void lvs_matrix_free(lvs_matrix *m);
+LVS_API size_t lvs_matrix_rows(const lvs_matrix *m);
+LVS_API size_t lvs_matrix_cols(const lvs_matrix *m);
+LVS_API int lvs_matrix_is_complex(const lvs_matrix *m);
+LVS_API int lvs_matrix_is_sparse(const lvs_matrix *m);
+LVS_API size_t lvs_matrix_nnz(const lvs_matrix *m); /* stored entries */
+/* METHOD: element (i, j) of the visible block. */
+LVS_API int lvs_matrix_get(const lvs_matrix *m, size_t i, size_t j,
+                           double *re, double *im);
+/* METHOD: set element (i, j); a nonzero im makes m complex. Refuses NaN/inf. */
+LVS_API int lvs_matrix_set(lvs_matrix *m, size_t i, size_t j, double re,
+                           double im);
+LVS_API int lvs_matrix_copy(const lvs_matrix *a, lvs_matrix **out);
+/* C = alpha*A + beta*B (complex scalars as re, im pairs). */
+LVS_API int lvs_matrix_add(const double alpha[2], const lvs_matrix *a,
+                           const double beta[2], const lvs_matrix *b,
+                           lvs_matrix **out);
+/* C = A*B (exact inside the visible block for padded operators). */
+LVS_API int lvs_matrix_mul(const lvs_matrix *a, const lvs_matrix *b,
+                           lvs_matrix **out);
+LVS_API int lvs_matrix_scale(const lvs_matrix *a, const double z[2],
+                             lvs_matrix **out);
+/* C = A + z*I. */
+LVS_API int lvs_matrix_shift(const lvs_matrix *a, const double z[2],
+                             lvs_matrix **out);
+LVS_API int lvs_matrix_pow(const lvs_matrix *a, int k, lvs_matrix **out);
+LVS_API int lvs_matrix_adj(const lvs_matrix *a, lvs_matrix **out);
+/* Largest |A_ij - conj(A_ji)| over the visible block, and where (0-based). */
+LVS_API double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *i,
+                                           size_t *j);
+/* A plain (unpadded) copy of the visible block; dense if want_dense. */
+LVS_API int lvs_matrix_visible(const lvs_matrix *a, int want_dense,
+                               lvs_matrix **out);
+/* BORROWED pointer to dense data of a plain dense matrix (NULL otherwise). */
+LVS_API double *lvs_matrix_data(lvs_matrix *m);
+/* Kronecker product A (x) B of two plain matrices. */
+LVS_API int lvs_matrix_kron(const lvs_matrix *a, const lvs_matrix *b,
+                            lvs_matrix **out);
+/* CONSTRUCTOR: from nnz triplets (0-based rows ii, columns jj, values
+ * re + i im; im may be NULL); duplicates are summed. */
+LVS_API int lvs_matrix_from_triplets(lvs_ctx *ctx, size_t rows, size_t cols, size_t nnz,
+                                     const size_t *ii, const size_t *jj, const double *re,
+                                     const double *im, lvs_matrix **out);
+/* y = A x on the visible block; x, y of length cols/rows, complex
+ * interleaved when cplx (A complex requires cplx). */
+LVS_API int lvs_matrix_apply(const lvs_matrix *a, int cplx, const double *x,
+                             double *y);
+
+/* ---- bases ------------------------------------------------------------- */
+typedef struct lvs_basis lvs_basis;
+
+typedef enum {
+  LVS_BASIS_PLAIN = 0,
+  LVS_BASIS_OSCILLATOR = 1,
+  LVS_BASIS_SPIN = 2,
+  LVS_BASIS_PRODUCT = 3,
+  LVS_BASIS_CUSTOM = 4 /* made by a recipe from its own matrices */
+} lvs_basis_kind;
+
+#define LVS_DEFAULT_PAD 16 /* extra oscillator levels kept for exact products */
+
+LVS_API int lvs_basis_plain(lvs_ctx *ctx, size_t n, lvs_basis **out);
+/* Oscillator: number states n = 0..N-1, hbar = m = omega = 1. */
+LVS_API int lvs_basis_oscillator(lvs_ctx *ctx, size_t n, size_t pad,
+                                 lvs_basis **out);
+/* Spin S given as twoS = 2S >= 1; states m = S, S-1, ..., -S. */
+LVS_API int lvs_basis_spin(lvs_ctx *ctx, int twoS, lvs_basis **out);
+/* Product of count bases (copied). */
+LVS_API int lvs_basis_product(lvs_ctx *ctx, const lvs_basis *const *sites,
+                              size_t count, lvs_basis **out);
+LVS_API void lvs_basis_free(lvs_basis *b);
+LVS_API size_t lvs_basis_dim(const lvs_basis *b);
+LVS_API lvs_basis_kind lvs_basis_kind_of(const lvs_basis *b);
+LVS_API size_t lvs_basis_sites(const lvs_basis *b);
+LVS_API const lvs_basis *lvs_basis_site(const lvs_basis *b, size_t i);
+LVS_API size_t lvs_basis_nlabels(const lvs_basis *b);
+LVS_API const char *lvs_basis_label_name(const lvs_basis *b, size_t k);
+/* label k of state s (0-based) */
+LVS_API double lvs_basis_label(const lvs_basis *b, size_t s, size_t k);
+/* The named standard operator of a basis ("x", "p", "number", "lower",
+ * "raise"; "Sx", "Sy", "Sz", "Sp", "Sm"; "identity"). site is 0 for a
+ * single basis, or 1..sites for a site of a product. */
+LVS_API int lvs_basis_op(const lvs_basis *b, size_t site, const char *name,
+                         lvs_matrix **out);
+/* An op on the basis from a plain visible-size matrix (embedded, padded
+ * space zero). */
+LVS_API int lvs_basis_embed(const lvs_basis *b, const lvs_matrix *plain,
+                            lvs_matrix **out);
+
+/* ---- exact spectra ----------------------------------------------------- */
+/* Eigenvalues (ascending) and eigenvectors of a Hermitian op (visible
+ * block). count = 0 means all; otherwise the lowest count. want_vectors = 0
+ * skips vectors. w must hold count (or n) values; *vecs (n x count, columns
+ * normalized, LAPACK's phase) is set when want_vectors. */
+LVS_API int lvs_eigen(const lvs_matrix *h, size_t count, int want_vectors,
+                      double *w, lvs_matrix **vecs);
+#define LVS_DEFAULT_HERM_TOL 1e-10 /* relative Hermiticity tolerance */
+
+/* @@FEATURE-DECLARATIONS@@ (features add their sections above this line) */
+
+/* ---- embedding --------------------------------------------------------- */
+typedef struct lvs_host lvs_host;
+/* CONSTRUCTOR: a Lua state with the standard libraries and levelshift
+ * preloaded (require "levelshift" works, and the global `ls` is set when
+ * LVS_HOST_GLOBAL is given). Returns NULL only when out of memory. */
+#define LVS_HOST_GLOBAL 1
+LVS_API lvs_host *lvs_host_new(int flags);
+LVS_API void lvs_host_free(lvs_host *h);
+/* Run a file or a string; returns 0 on success, nonzero on a Lua error
+ * (message and traceback in lvs_host_error). */
+LVS_API int lvs_host_dofile(lvs_host *h, const char *path);
+LVS_API int lvs_host_dostring(lvs_host *h, const char *code, const char *name);
+LVS_API const char *lvs_host_error(const lvs_host *h);
+/* BORROWED: the underlying lua_State* (as void* so this header needs no
+ * Lua headers). */
+LVS_API void *lvs_host_state(lvs_host *h);
+/* Add a directory to search for lua/levelshift and recipes. */
+LVS_API int lvs_host_add_path(lvs_host *h, const char *dir);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
