@@ -77,17 +77,14 @@ void lvsL_checkoptions(lua_State *L, int idx, const char *const *known, const ch
         if (strcmp(*p, k) == 0) ok = 1;
     }
     if (!ok) {
-      luaL_Buffer b;
-      luaL_buffinit(L, &b);
-      lua_pushfstring(L, "unknown option '%s' (accepted:", luaL_tolstring(L, -1, NULL));
-      lua_remove(L, -2);
-      luaL_addvalue(&b);
+      const char *key = luaL_tolstring(L, -1, NULL);
+      lua_pushfstring(L, "unknown option '%s' (accepted:", key);
       for (const char *const *p = known; *p; p++) {
-        luaL_addchar(&b, ' ');
-        luaL_addstring(&b, *p);
+        lua_pushfstring(L, " %s", *p);
+        lua_concat(L, 2);
       }
-      luaL_addchar(&b, ')');
-      luaL_pushresult(&b);
+      lua_pushliteral(L, ")");
+      lua_concat(L, 2);
       (void)fname;
       luaL_argerror(L, argn, lua_tostring(L, -1));
     }
@@ -118,7 +115,7 @@ static int l_config(lua_State *L) {
   return 1;
 }
 
-LUALIB_API int luaopen_levelshift_core(lua_State *L) {
+__attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L) {
   void *ud;
   lua_Alloc f = lua_getallocf(L, &ud);
   lvs_ctx **p = lua_newuserdatauv(L, sizeof *p, 0);
