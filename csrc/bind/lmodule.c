@@ -2,6 +2,7 @@
  * functions. The context uses the Lua state's own allocator, so a memory cap
  * set on the state (embedding hosts) also bounds the core's allocations. */
 #include <string.h>
+#include <time.h>
 #include "bind/lbind.h"
 
 static int ctx_gc(lua_State *L) {
@@ -91,6 +92,14 @@ void lvsL_checkoptions(lua_State *L, int idx, const char *const *known, const ch
   }
 }
 
+/* ls.clock() -> wall-clock seconds (monotonic), for benchmarks */
+static int l_clock(lua_State *L) {
+  struct timespec ts;
+  clock_gettime(CLOCK_MONOTONIC, &ts);
+  lua_pushnumber(L, (lua_Number)ts.tv_sec + 1e-9 * (lua_Number)ts.tv_nsec);
+  return 1;
+}
+
 static int l_version(lua_State *L) {
   lua_pushstring(L, lvs_version());
   return 1;
@@ -128,7 +137,7 @@ __attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L)
   if (!*p) return luaL_error(L, "levelshift: cannot allocate a context");
   int ctxidx = lua_gettop(L);
   lua_newtable(L);
-  static const luaL_Reg fns[] = {{"version", l_version}, {"config", l_config}, {NULL, NULL}};
+  static const luaL_Reg fns[] = {{"version", l_version}, {"config", l_config}, {"clock", l_clock}, {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);
   lvsL_open_matrix(L, ctxidx);
   lvsL_open_basis(L, ctxidx);
