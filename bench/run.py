@@ -12,7 +12,7 @@ Not part of the test suite.
 import argparse, os, statistics, subprocess, sys, time
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-PEER = os.path.join(HERE, "..", "..", "shared", "bench", "peer.py")
+PEER = os.environ.get("LVS_PEER") or os.path.join(HERE, "..", "..", "shared", "bench", "peer.py")
 
 
 def run(cmd):
@@ -39,6 +39,8 @@ def main():
     except ImportError:
         have_peer = False
         print("# baseline skipped: python3-numpy/python3-scipy not installed")
+    if not have_peer:
+        print(f"# baseline skipped: no peer.py at {PEER} (set LVS_PEER)")
     startup = [run_startup(a.bin) for _ in range(a.runs)]
     print(f"# levelshift start-up (levelshift -e ''): median {1e3 * statistics.median(startup):.2f} ms")
     print(f"{'job':16s} {'ls core s':>10s} {'peer core s':>11s} {'core ratio':>10s} "
