@@ -197,6 +197,19 @@ LVS_API void lvs_host_free(lvs_host *h);
 LVS_API int lvs_host_dofile(lvs_host *h, const char *path);
 LVS_API int lvs_host_dostring(lvs_host *h, const char *code, const char *name);
 LVS_API const char *lvs_host_error(const lvs_host *h);
+/* Fences for hosts that run untrusted scripts. */
+#define LVS_HOST_SANDBOX 2 /* no io, os, debug, no C modules, text chunks only */
+typedef struct {
+  int flags;                        /* LVS_HOST_GLOBAL | LVS_HOST_SANDBOX */
+  size_t memory_cap;                /* bytes for Lua and the core together; 0 = none */
+  unsigned long long instruction_budget; /* VM instructions per run call; 0 = none */
+} lvs_host_opts;
+/* CONSTRUCTOR with fences (opts NULL = lvs_host_new(0)). A script that
+ * passes the memory cap gets "not enough memory" (or the core's "out of
+ * memory"); one that passes the budget gets "instruction budget of N
+ * exhausted"; in both cases the run returns nonzero and the host goes on. */
+LVS_API lvs_host *lvs_host_new_ex(const lvs_host_opts *opts);
+LVS_API size_t lvs_host_memory(const lvs_host *h); /* bytes in use now */
 /* BORROWED: the underlying lua_State* (as void* so this header needs no
  * Lua headers). */
 LVS_API void *lvs_host_state(lvs_host *h);

@@ -5,6 +5,7 @@
 #include <lauxlib.h>
 #include <lua.h>
 #include <lualib.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include "levelshift.h"
@@ -14,7 +15,44 @@ LUALIB_API int luaopen_levelshift_core(lua_State *L);
 struct lvs_host {
   lua_State *L;
   char *err;
+  size_t used, cap;                /* bytes through the allocator, cap (0 = none) */
+  unsigned long long budget, spent; /* instruction budget per run (0 = none) */
 };
+
+#define HOOK_STEP 1000
+
+/* Allocator that counts bytes and refuses to pass the cap; the core's
+ * context takes the state's allocator, so the cap bounds both. */
+static void *capped_alloc(void *ud, void *ptr, size_t osize, size_t nsize) {
+  lvs_host *h = ud;
+  if (ptr == NULL) osize = 0;
+  if (nsize == 0) {
+    free(ptr);
+    h->used -= osize;
+    return NULL;
+  }
+  if (h->cap && nsize > osize && h->used + (nsize - osize) > h->cap) return NULL;
+  void *p = realloc(ptr, nsize);
+  if (p) h->used = h->used - osize + nsize;
+  return p;
+}
+
+static int panic(lua_State *L) {
+  fprintf(stderr, "levelshift: unprotected error: %s\n", lua_tostring(L, -1));
+  return 0;
+}
+
+static void count_hook(lua_State *L, lua_Debug *ar) {
+  (void)ar;
+  lvs_host *h = *(lvs_host **)lua_getextraspace(L);
+  h->spent += HOOK_STEP;
+  if (h->spent > h->budget) {
+    lua_sethook(L, count_hook, LUA_MASKCOUNT, 1); /* keep raising if caught */
+    char msg[64];
+    snprintf(msg, sizeof msg, "instruction budget of %llu exhausted", h->budget);
+    luaL_error(L, "%s", msg);
+  }
+}
 
 static void set_err(lvs_host *h, const char *msg) {
   free(h->err);
@@ -46,16 +84,48 @@ int lvs_host_add_path(lvs_host *h, const char *dir) {
   return 0;
 }
 
+static const char *const sandbox_lua =
+    "local rawload = load\n"
+    "load = function(chunk, name, mode, env) return rawload(chunk, name, 't', env) end\n"
+    "dofile, loadfile = nil, nil\n"
+    "package.loadlib, package.cpath = nil, ''\n"
+    "package.searchers[4], package.searchers[3] = nil, nil\n";
+
 lvs_host *lvs_host_new(int flags) {
+  lvs_host_opts o = {flags, 0, 0};
+  return lvs_host_new_ex(&o);
+}
+
+size_t lvs_host_memory(const lvs_host *h) { return h ? h->used : 0; }
+
+lvs_host *lvs_host_new_ex(const lvs_host_opts *opts) {
+  lvs_host_opts o = {0, 0, 0};
+  if (opts) o = *opts;
+  int flags = o.flags;
   lvs_host *h = calloc(1, sizeof *h);
   if (!h) return NULL;
-  h->L = luaL_newstate();
+  h->cap = o.memory_cap;
+  h->budget = o.instruction_budget;
+  h->L = lua_newstate(capped_alloc, h);
   if (!h->L) {
     free(h);
     return NULL;
   }
   lua_State *L = h->L;
-  luaL_openlibs(L);
+  lua_atpanic(L, panic);
+  *(lvs_host **)lua_getextraspace(L) = h;
+  if (flags & LVS_HOST_SANDBOX) {
+    static const luaL_Reg safe[] = {{LUA_GNAME, luaopen_base}, {LUA_LOADLIBNAME, luaopen_package},
+                                    {LUA_COLIBNAME, luaopen_coroutine}, {LUA_TABLIBNAME, luaopen_table},
+                                    {LUA_STRLIBNAME, luaopen_string}, {LUA_MATHLIBNAME, luaopen_math},
+                                    {LUA_UTF8LIBNAME, luaopen_utf8}, {NULL, NULL}};
+    for (const luaL_Reg *r = safe; r->func; r++) {
+      luaL_requiref(L, r->name, r->func, 1);
+      lua_pop(L, 1);
+    }
+  } else {
+    luaL_openlibs(L);
+  }
   /* installed prefix last, then the source tree, then LVS_PATH first */
   prepend_path(L, LVS_INSTALL_LUA);
   prepend_path(L, LVS_SOURCE_DIR);
@@ -65,6 +135,7 @@ lvs_host *lvs_host_new(int flags) {
   lua_pushcfunction(L, luaopen_levelshift_core);
   lua_setfield(L, -2, "levelshift.core");
   lua_pop(L, 1);
+  if ((flags & LVS_HOST_SANDBOX) && lvs_host_dostring(h, sandbox_lua, "=sandbox") != 0) return h;
   if (flags & LVS_HOST_GLOBAL) {
     if (lvs_host_dostring(h, "ls = require 'levelshift'", "=init") != 0) return h;
   }
@@ -80,11 +151,14 @@ void lvs_host_free(lvs_host *h) {
 
 static int run(lvs_host *h, int status) {
   lua_State *L = h->L;
+  h->spent = 0;
+  if (h->budget) lua_sethook(L, count_hook, LUA_MASKCOUNT, HOOK_STEP);
   if (status == LUA_OK) {
     lua_pushcfunction(L, traceback);
     lua_insert(L, -2);
     status = lua_pcall(L, 0, 0, -2);
   }
+  lua_sethook(L, NULL, 0, 0);
   if (status != LUA_OK) {
     set_err(h, lua_tostring(L, -1) ? lua_tostring(L, -1) : "(error object is not a string)");
     lua_settop(L, 0);

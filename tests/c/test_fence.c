@@ -1,0 +1,40 @@
+/* test_fence.c -- a host fences scripts: sandbox, memory cap, instruction
+ * budget; after each stop the host carries on. */
+#include <stdio.h>
+#include <string.h>
+#include "levelshift.h"
+
+static int fail = 0;
+static void expect(lvs_host *h, const char *code, int want_error, const char *text) {
+  int rc = lvs_host_dostring(h, code, "=fence");
+  if ((rc != 0) != want_error || (text && !strstr(lvs_host_error(h), text))) {
+    fprintf(stderr, "FAIL [%s]: rc=%d error=%s\n", code, rc, lvs_host_error(h));
+    fail++;
+  }
+}
+
+int main(void) {
+  lvs_host_opts o = {LVS_HOST_GLOBAL | LVS_HOST_SANDBOX, 64u << 20, 20000000ull};
+  lvs_host *h = lvs_host_new_ex(&o);
+  if (!h) return 1;
+  expect(h, "assert(#ls.eigen(ls.spin(1).Sz) == 3)", 0, NULL);
+  expect(h, "assert(io == nil and os == nil and debug == nil and dofile == nil)", 0, NULL);
+  expect(h, "require 'lfs'", 1, "module 'lfs' not found");
+  expect(h, "assert(load(string.dump(function() end)) == nil)", 0, NULL);
+  /* runaway script */
+  expect(h, "while true do end", 1, "instruction budget of 20000000 exhausted");
+  expect(h, "local ok = pcall(function() while true do end end); while true do end", 1, "budget");
+  /* greedy script in Lua */
+  expect(h, "local t = {} for i = 1, 1e9 do t[i] = i end", 1, "not enough memory");
+  /* greedy request in the core: a 6000 x 6000 dense working copy (288 MB) */
+  expect(h, "ls.eigen(ls.oscillator(6000).number)", 1, "out of memory");
+  /* and the host goes on */
+  expect(h, "assert(ls.eigen(ls.spin(0.5).Sz)[1] == -0.5)", 0, NULL);
+  if (lvs_host_memory(h) > (64u << 20)) {
+    fprintf(stderr, "FAIL memory above the cap\n");
+    fail++;
+  }
+  lvs_host_free(h);
+  if (!fail) printf("test_fence: all checks passed\n");
+  return fail ? 1 : 0;
+}
