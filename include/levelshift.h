@@ -182,6 +182,28 @@ LVS_API int lvs_eigen(const lvs_matrix *h, size_t count, int want_vectors,
                       double *w, lvs_matrix **vecs);
 #define LVS_DEFAULT_HERM_TOL 1e-10 /* relative Hermiticity tolerance */
 
+/* ---- sweeps of a coupling or a field (sweep.c) ------------------------
+ * Lowest count levels of H(p) = H0 + p V on p_k = from + (to-from) k/steps,
+ * k = 0..steps (1 <= steps <= 1e6), computed by `threads` threads (0 = 2;
+ * the numbers do not depend on it), tracked by eigenvector overlap (level
+ * a, 0-based, is the a-th lowest at `from`). Crossings are refined local
+ * minima of adjacent gaps: avoided = 1 for a finite gap, 0 for a true
+ * crossing (gap ~ 0); i < j are tracked levels, 0-based. */
+typedef struct { const lvs_matrix *h0, *v; double from, to; size_t steps, count; int threads; } lvs_sweep_spec;
+typedef struct { double at, gap; size_t i, j; int avoided; } lvs_sweep_crossing;
+typedef struct lvs_sweep lvs_sweep;
+LVS_API int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out);
+LVS_API void lvs_sweep_free(lvs_sweep *s);
+LVS_API size_t lvs_sweep_points(const lvs_sweep *s); /* steps + 1 */
+LVS_API size_t lvs_sweep_count(const lvs_sweep *s);
+LVS_API double lvs_sweep_param(const lvs_sweep *s, size_t k);
+LVS_API const double *lvs_sweep_level(const lvs_sweep *s, size_t level); /* BORROWED, points values */
+LVS_API size_t lvs_sweep_ncrossings(const lvs_sweep *s);
+LVS_API const lvs_sweep_crossing *lvs_sweep_crossing_at(const lvs_sweep *s, size_t k); /* BORROWED */
+LVS_API double lvs_sweep_min_overlap(const lvs_sweep *s); /* smallest accepted overlap */
+/* CSV (header p,E1,E2,... after a units comment), or JSON when path ends in
+ * .json; written to path.tmp, then renamed. */
+LVS_API int lvs_sweep_write(const lvs_sweep *s, const char *path);
 /* @@FEATURE-DECLARATIONS@@ (features add their sections above this line) */
 
 /* ---- embedding --------------------------------------------------------- */

@@ -1,0 +1,204 @@
+/* lsweep.c -- ls.sweep{H0=, V=, from=, to=, steps=, count=, threads=}
+ * -> userdata "levelshift.sweep": sw.p, sw.count, sw.min_overlap,
+ * sw:level(k), sw:crossings(), sw:write(path). */
+#include <string.h>
+#include "bind/lbind.h"
+
+#define LVS_SWEEP_MT "levelshift.sweep"
+
+typedef struct {
+  lvs_sweep *s;
+} lsweep;
+
+static lvs_sweep *checksweep(lua_State *L, int idx) {
+  lsweep *u = luaL_checkudata(L, idx, LVS_SWEEP_MT);
+  if (!u->s) luaL_argerror(L, idx, "sweep is closed");
+  return u->s;
+}
+
+static lvs_matrix *field_matrix(lua_State *L, const char *key) {
+  lua_getfield(L, 1, key);
+  if (lua_isnil(L, -1)) {
+    lua_pushfstring(L, "%s is required (an op)", key);
+    luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lvs_matrix *m = lvsL_testmatrix(L, -1);
+  if (!m) {
+    lua_pushfstring(L, "%s must be an op, got %s", key, luaL_typename(L, -2));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lua_pop(L, 1); /* the table still references it */
+  return m;
+}
+
+static double field_num(lua_State *L, const char *key) {
+  lua_getfield(L, 1, key);
+  if (!lua_isnumber(L, -1)) {
+    if (lua_isnil(L, -1)) lua_pushfstring(L, "'%s' is required (a number)", key);
+    else lua_pushfstring(L, "'%s' must be a number", key);
+    luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  double v = lua_tonumber(L, -1);
+  lua_pop(L, 1);
+  return v;
+}
+
+static int l_sweep(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  luaL_checktype(L, 1, LUA_TTABLE);
+  static const char *const known[] = {"H0", "V", "from", "to", "steps", "count", "threads", NULL};
+  lvsL_checkoptions(L, 1, known, "sweep", 1);
+  lvs_matrix *h0 = field_matrix(L, "H0");
+  lvs_matrix *v = field_matrix(L, "V");
+  size_t n = lvs_matrix_rows(h0);
+  if (n != lvs_matrix_cols(h0)) {
+    lua_pushfstring(L, "H0 must be square, got %dx%d", (int)n, (int)lvs_matrix_cols(h0));
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  if (lvs_matrix_rows(v) != n || lvs_matrix_cols(v) != n) {
+    lua_pushfstring(L, "size mismatch: H0 is %dx%d but V is %dx%d", (int)n, (int)n,
+                    (int)lvs_matrix_rows(v), (int)lvs_matrix_cols(v));
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  double from = field_num(L, "from"), to = field_num(L, "to");
+  if (from == to) {
+    lua_pushfstring(L, "from and to are equal (%f): nothing to sweep", from);
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lua_Integer steps = lvsL_optfield_int(L, 1, "steps", 100, "sweep", 1);
+  if (steps < 1 || steps > 1000000) {
+    lua_pushfstring(L, "steps must be from 1 to 1000000, got %I", steps);
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lua_Integer count = lvsL_optfield_int(L, 1, "count", (lua_Integer)n, "sweep", 1);
+  if (count < 1 || (size_t)count > n) {
+    lua_pushfstring(L, "count must be from 1 to %d, got %I", (int)n, count);
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lua_Integer threads = lvsL_optfield_int(L, 1, "threads", 2, "sweep", 1);
+  if (threads < 1 || threads > 64) {
+    lua_pushfstring(L, "threads must be from 1 to 64, got %I", threads);
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lsweep *u = lua_newuserdatauv(L, sizeof *u, 0);
+  u->s = NULL;
+  luaL_setmetatable(L, LVS_SWEEP_MT);
+  lvs_sweep_spec spec = {h0, v, from, to, (size_t)steps, (size_t)count, (int)threads};
+  int st = lvs_sweep_new(ctx, &spec, &u->s);
+  if (st == LVS_ENOTHERM || st == LVS_EDIM) {
+    lua_pushstring(L, lvs_errmsg(ctx));
+    lvs_clear_error(ctx);
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lvsL_check(L, ctx, st, "sweep");
+  return 1;
+}
+
+static int m_level(lua_State *L) {
+  lvs_sweep *s = checksweep(L, 1);
+  lua_Integer k = luaL_checkinteger(L, 2);
+  size_t count = lvs_sweep_count(s);
+  if (k < 1 || (size_t)k > count) {
+    lua_pushfstring(L, "level must be from 1 to %d, got %I", (int)count, k);
+    return luaL_argerror(L, 2, lua_tostring(L, -1));
+  }
+  const double *e = lvs_sweep_level(s, (size_t)k - 1);
+  size_t np = lvs_sweep_points(s);
+  lua_createtable(L, (int)np, 0);
+  for (size_t i = 0; i < np; i++) {
+    lua_pushnumber(L, e[i]);
+    lua_rawseti(L, -2, (lua_Integer)i + 1);
+  }
+  return 1;
+}
+
+static int m_crossings(lua_State *L) {
+  lvs_sweep *s = checksweep(L, 1);
+  size_t nc = lvs_sweep_ncrossings(s);
+  lua_createtable(L, (int)nc, 0);
+  for (size_t c = 0; c < nc; c++) {
+    const lvs_sweep_crossing *x = lvs_sweep_crossing_at(s, c);
+    lua_createtable(L, 0, 4);
+    lua_pushnumber(L, x->at);
+    lua_setfield(L, -2, "at");
+    lua_pushnumber(L, x->gap);
+    lua_setfield(L, -2, "gap");
+    lua_createtable(L, 2, 0);
+    lua_pushinteger(L, (lua_Integer)x->i + 1);
+    lua_rawseti(L, -2, 1);
+    lua_pushinteger(L, (lua_Integer)x->j + 1);
+    lua_rawseti(L, -2, 2);
+    lua_setfield(L, -2, "levels");
+    lua_pushstring(L, x->avoided ? "avoided" : "crossing");
+    lua_setfield(L, -2, "kind");
+    lua_rawseti(L, -2, (lua_Integer)c + 1);
+  }
+  return 1;
+}
+
+static int m_write(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_sweep *s = checksweep(L, 1);
+  const char *path = luaL_checkstring(L, 2);
+  int st = lvs_sweep_write(s, path);
+  lvsL_check(L, ctx, st, "sweep:write");
+  return 0;
+}
+
+static int m_index(lua_State *L) {
+  lvs_sweep *s = checksweep(L, 1);
+  const char *key = lua_tostring(L, 2);
+  if (key && strcmp(key, "p") == 0) {
+    size_t np = lvs_sweep_points(s);
+    lua_createtable(L, (int)np, 0);
+    for (size_t i = 0; i < np; i++) {
+      lua_pushnumber(L, lvs_sweep_param(s, i));
+      lua_rawseti(L, -2, (lua_Integer)i + 1);
+    }
+    return 1;
+  }
+  if (key && strcmp(key, "count") == 0) {
+    lua_pushinteger(L, (lua_Integer)lvs_sweep_count(s));
+    return 1;
+  }
+  if (key && strcmp(key, "min_overlap") == 0) {
+    lua_pushnumber(L, lvs_sweep_min_overlap(s));
+    return 1;
+  }
+  lua_getmetatable(L, 1);
+  lua_getfield(L, -1, "__methods");
+  lua_pushvalue(L, 2);
+  lua_rawget(L, -2);
+  return 1;
+}
+
+static int m_gc(lua_State *L) {
+  lsweep *u = luaL_checkudata(L, 1, LVS_SWEEP_MT);
+  lvs_sweep_free(u->s);
+  u->s = NULL;
+  return 0;
+}
+
+static int m_tostring(lua_State *L) {
+  lvs_sweep *s = checksweep(L, 1);
+  size_t np = lvs_sweep_points(s);
+  lua_pushfstring(L, "sweep: %d levels at %d points, p from %f to %f, %d crossings",
+                  (int)lvs_sweep_count(s), (int)np, lvs_sweep_param(s, 0), lvs_sweep_param(s, np - 1),
+                  (int)lvs_sweep_ncrossings(s));
+  return 1;
+}
+
+void lvsL_open_sweep(lua_State *L, int ctxidx) {
+  static const luaL_Reg methods[] = {
+      {"level", m_level}, {"crossings", m_crossings}, {"write", m_write}, {NULL, NULL}};
+  static const luaL_Reg meta[] = {
+      {"__index", m_index}, {"__gc", m_gc}, {"__close", m_gc}, {"__tostring", m_tostring}, {NULL, NULL}};
+  luaL_newmetatable(L, LVS_SWEEP_MT);
+  lvsL_setfuncs(L, meta, ctxidx);
+  lua_newtable(L);
+  lvsL_setfuncs(L, methods, ctxidx);
+  lua_setfield(L, -2, "__methods");
+  lua_pop(L, 1);
+  static const luaL_Reg fns[] = {{"sweep", l_sweep}, {NULL, NULL}};
+  lvsL_setfuncs(L, fns, ctxidx);
+}
