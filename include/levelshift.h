@@ -204,6 +204,21 @@ LVS_API double lvs_sweep_min_overlap(const lvs_sweep *s); /* smallest accepted o
 /* CSV (header p,E1,E2,... after a units comment), or JSON when path ends in
  * .json; written to path.tmp, then renamed. */
 LVS_API int lvs_sweep_write(const lvs_sweep *s, const char *path);
+/* ---- effective Hamiltonians (effective.c) ---------------------------
+ * Canonical Van Vleck / Schrieffer-Wolff H_eff of a group of levels of H0
+ * (0-based, ascending H0 energy) under lambda*V to order 1..50, by the Bloch
+ * wave operator and des Cloizeaux symmetrization; terms d x d in H0's
+ * eigenbasis (a diagonal H0 keeps its basis states). */
+typedef struct lvs_effective lvs_effective;
+LVS_API int lvs_effective_new(const lvs_matrix *h0, const lvs_matrix *v, const size_t *levels, size_t nlevels, int order, lvs_effective **out);
+LVS_API void lvs_effective_free(lvs_effective *e);
+LVS_API size_t lvs_effective_dim(const lvs_effective *e);
+LVS_API int lvs_effective_order(const lvs_effective *e);
+LVS_API const size_t *lvs_effective_levels(const lvs_effective *e); /* BORROWED, ascending */
+LVS_API int lvs_effective_term(const lvs_effective *e, int k, lvs_matrix **out);
+/* sum_k lambda^k term(k) through order (order < 0: all) */
+LVS_API int lvs_effective_at(const lvs_effective *e, double lambda, int order, lvs_matrix **out);
+LVS_API const char *lvs_effective_warnings(const lvs_effective *e); /* "" when none; owned */
 /* @@FEATURE-DECLARATIONS@@ (features add their sections above this line) */
 
 /* ---- embedding --------------------------------------------------------- */
