@@ -219,6 +219,26 @@ LVS_API int lvs_effective_term(const lvs_effective *e, int k, lvs_matrix **out);
 /* sum_k lambda^k term(k) through order (order < 0: all) */
 LVS_API int lvs_effective_at(const lvs_effective *e, double lambda, int order, lvs_matrix **out);
 LVS_API const char *lvs_effective_warnings(const lvs_effective *e); /* "" when none; owned */
+/* ---- perturbation series (series.c) ----------------------------------
+ * RS series of the levels of H0 under lambda*V to order K (1..1000),
+ * degenerate groups (relative tolerance degen_tol on H0's spectrum) lifted
+ * by a recursive Bloch reduction. Levels are 0-based in ascending
+ * unperturbed energy, inside a split group by ascending correction.
+ * levels/nlevels select levels to compute (nlevels = 0: all). States are
+ * in the original basis, complex interleaved, length dim; degenerate-group
+ * members have order 0 only. split_order: 0 alone, k split at order k, -1
+ * never split within the order. */
+typedef struct lvs_series lvs_series;
+LVS_API int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels, double degen_tol, int normalized, lvs_series **out);
+LVS_API void lvs_series_free(lvs_series *s);
+LVS_API size_t lvs_series_dim(const lvs_series *s);
+LVS_API int lvs_series_order(const lvs_series *s);
+LVS_API double lvs_series_vnorm(const lvs_series *s); /* max column 1-norm of V */
+LVS_API int lvs_series_has(const lvs_series *s, size_t level);
+LVS_API int lvs_series_energy(const lvs_series *s, size_t level, int k, double *e);
+LVS_API int lvs_series_at(const lvs_series *s, size_t level, double lambda, double *e);
+LVS_API int lvs_series_info(const lvs_series *s, size_t level, size_t *group, int *split_order, double *min_denominator, int *state_orders);
+LVS_API int lvs_series_state(const lvs_series *s, size_t level, int k, double *psi);
 /* @@FEATURE-DECLARATIONS@@ (features add their sections above this line) */
 
 /* ---- embedding --------------------------------------------------------- */

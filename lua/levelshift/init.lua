@@ -70,6 +70,7 @@ function matrix_methods.column(m, j)
 end
 
 -- @@FEATURE-SUGAR@@ (feature modules are required below this line)
+require("levelshift.series")(ls, core)
 
 --- Recipes by name (used by the program: levelshift RECIPE name=value ...).
 function ls._run_recipe(name, params)

@@ -1,0 +1,288 @@
+/* lseries.c -- ls.perturb(H0, V, {order=, levels=, degen_tol=, normalized=})
+ * -> series userdata "levelshift.series" (C methods here; check, pade,
+ * radius, totable and the printed report are Lua sugar in
+ * lua/levelshift/series.lua). */
+#include <math.h>
+#include <string.h>
+#include "bind/lbind.h"
+
+#define LVS_SERIES_MT "levelshift.series"
+
+static lvs_series *checkseries(lua_State *L, int idx) {
+  lvs_series **p = luaL_checkudata(L, idx, LVS_SERIES_MT);
+  if (!*p) luaL_error(L, "attempt to use a closed series");
+  return *p;
+}
+
+static int s_gc(lua_State *L) {
+  lvs_series **p = luaL_checkudata(L, 1, LVS_SERIES_MT);
+  lvs_series_free(*p);
+  *p = NULL;
+  return 0;
+}
+
+/* 1-based level argument -> 0-based, with a clear error */
+static size_t checklevel(lua_State *L, lvs_series *s, int idx, const char *fname) {
+  lua_Integer lev = luaL_checkinteger(L, idx);
+  size_t n = lvs_series_dim(s);
+  if (lev < 1 || (size_t)lev > n) {
+    lua_pushfstring(L, "level must be from 1 to %d, got %d", (int)n, (int)lev);
+    luaL_argerror(L, idx, lua_tostring(L, -1));
+  }
+  if (!lvs_series_has(s, (size_t)lev - 1)) {
+    lua_pushfstring(L, "level %d was not computed (not in the 'levels' option)", (int)lev);
+    luaL_argerror(L, idx, lua_tostring(L, -1));
+  }
+  (void)fname;
+  return (size_t)lev - 1;
+}
+
+static int checkorder(lua_State *L, lvs_series *s, int idx) {
+  lua_Integer k = luaL_checkinteger(L, idx);
+  if (k < 0 || k > lvs_series_order(s)) {
+    lua_pushfstring(L, "order must be from 0 to %d, got %d", lvs_series_order(s), (int)k);
+    luaL_argerror(L, idx, lua_tostring(L, -1));
+  }
+  return (int)k;
+}
+
+static int l_perturb(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_matrix *h0 = lvsL_checkmatrix(L, 1);
+  lvs_matrix *v = lvsL_checkmatrix(L, 2);
+  static const char *const known[] = {"order", "levels", "degen_tol", "normalized", NULL};
+  lvsL_checkoptions(L, 3, known, "perturb", 3);
+  size_t n = lvs_matrix_rows(h0);
+  if (n != lvs_matrix_cols(h0)) {
+    lua_pushfstring(L, "H0 must be square, got %dx%d", (int)n, (int)lvs_matrix_cols(h0));
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  if (lvs_matrix_rows(v) != n || lvs_matrix_cols(v) != n) {
+    lua_pushfstring(L, "V is %dx%d but H0 is %dx%d", (int)lvs_matrix_rows(v), (int)lvs_matrix_cols(v), (int)n,
+                    (int)n);
+    return luaL_argerror(L, 2, lua_tostring(L, -1));
+  }
+  lua_Integer order = lvsL_optfield_int(L, 3, "order", 4, "perturb", 3);
+  if (order < 1 || order > 1000) {
+    lua_pushfstring(L, "order must be from 1 to 1000, got %d", (int)order);
+    return luaL_argerror(L, 3, lua_tostring(L, -1));
+  }
+  double tol = lvsL_optfield_num(L, 3, "degen_tol", 1e-10, "perturb", 3);
+  if (!(tol >= 0) || tol > 0.5) {
+    lua_pushfstring(L, "degen_tol must be from 0 to 0.5, got %f", tol);
+    return luaL_argerror(L, 3, lua_tostring(L, -1));
+  }
+  int normalized = 0;
+  size_t nlev = 0;
+  size_t *levels = NULL;
+  if (lua_istable(L, 3)) {
+    lua_getfield(L, 3, "normalized");
+    normalized = lua_toboolean(L, -1);
+    lua_pop(L, 1);
+    lua_getfield(L, 3, "levels");
+    if (!lua_isnil(L, -1)) {
+      if (!lua_istable(L, -1)) return luaL_argerror(L, 3, "option 'levels' must be a list of level numbers");
+      nlev = (size_t)lua_rawlen(L, -1);
+      if (nlev == 0) return luaL_argerror(L, 3, "option 'levels' is empty");
+      levels = lua_newuserdatauv(L, nlev * sizeof *levels, 0); /* GC-owned */
+      for (size_t i = 0; i < nlev; i++) {
+        lua_rawgeti(L, -2, (lua_Integer)i + 1);
+        int ok;
+        lua_Integer lv = lua_tointegerx(L, -1, &ok);
+        lua_pop(L, 1);
+        if (!ok || lv < 1 || (size_t)lv > n) {
+          lua_pushfstring(L, "levels[%d] must be a level from 1 to %d", (int)i + 1, (int)n);
+          return luaL_argerror(L, 3, lua_tostring(L, -1));
+        }
+        levels[i] = (size_t)lv - 1;
+      }
+    }
+  }
+  lvs_series **p = lua_newuserdatauv(L, sizeof *p, 2);
+  *p = NULL;
+  luaL_setmetatable(L, LVS_SERIES_MT);
+  int st = lvs_series_new(h0, v, (int)order, levels, nlev, tol, normalized, p);
+  if (st == LVS_ENOTHERM || st == LVS_EDIM) {
+    int arg = strncmp(lvs_errmsg(ctx), "H0", 2) == 0 ? 1 : 2;
+    lua_pushstring(L, lvs_errmsg(ctx));
+    lvs_clear_error(ctx);
+    return luaL_argerror(L, arg, lua_tostring(L, -1));
+  }
+  lvsL_check(L, ctx, st, "perturb");
+  lua_pushvalue(L, 1);
+  lua_setiuservalue(L, -2, 1);
+  lua_pushvalue(L, 2);
+  lua_setiuservalue(L, -2, 2);
+  return 1;
+}
+
+static int s_energy(lua_State *L) {
+  lvs_series *s = checkseries(L, 1);
+  size_t lev = checklevel(L, s, 2, "energy");
+  int k = checkorder(L, s, 3);
+  double e;
+  lvs_series_energy(s, lev, k, &e);
+  lua_pushnumber(L, e);
+  return 1;
+}
+
+static int s_at(lua_State *L) {
+  lvs_series *s = checkseries(L, 1);
+  size_t lev = checklevel(L, s, 2, "at");
+  double lam = luaL_checknumber(L, 3);
+  if (!isfinite(lam)) return luaL_argerror(L, 3, "lambda must be finite");
+  int upto = lvs_series_order(s);
+  if (!lua_isnoneornil(L, 4)) upto = checkorder(L, s, 4);
+  double acc = 0, e;
+  for (int k = upto; k >= 0; k--) {
+    lvs_series_energy(s, lev, k, &e);
+    acc = acc * lam + e;
+  }
+  lua_pushnumber(L, acc);
+  return 1;
+}
+
+static int s_state(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_series *s = checkseries(L, 1);
+  size_t lev = checklevel(L, s, 2, "state");
+  int k = checkorder(L, s, 3);
+  size_t n = lvs_series_dim(s);
+  int sorders;
+  lvs_series_info(s, lev, NULL, NULL, NULL, &sorders);
+  if (k > sorders) {
+    lua_pushfstring(L, "level %d belongs to a degenerate group: its state is available at order 0 only",
+                    (int)lev + 1);
+    return luaL_argerror(L, 3, lua_tostring(L, -1));
+  }
+  double *psi = lua_newuserdatauv(L, 2 * n * sizeof *psi, 0);
+  lvsL_check(L, ctx, lvs_series_state(s, lev, k, psi), "state");
+  int cplx = 0;
+  for (size_t i = 0; i < n; i++)
+    if (psi[2 * i + 1] != 0) cplx = 1;
+  lvs_matrix **out = lvsL_newmatrix(L);
+  lvsL_check(L, ctx, lvs_matrix_new(ctx, n, 1, cplx, out), "state");
+  for (size_t i = 0; i < n; i++) lvs_matrix_set(*out, i, 0, psi[2 * i], cplx ? psi[2 * i + 1] : 0.0);
+  return 1;
+}
+
+static int s_info(lua_State *L) {
+  lvs_series *s = checkseries(L, 1);
+  size_t lev = checklevel(L, s, 2, "info");
+  size_t g;
+  int split, sorders;
+  double md, e0;
+  lvs_series_info(s, lev, &g, &split, &md, &sorders);
+  lvs_series_energy(s, lev, 0, &e0);
+  lua_createtable(L, 0, 5);
+  lua_pushinteger(L, (lua_Integer)g + 1);
+  lua_setfield(L, -2, "group");
+  lua_pushinteger(L, split);
+  lua_setfield(L, -2, "split_order");
+  lua_pushnumber(L, md);
+  lua_setfield(L, -2, "min_denominator");
+  lua_pushinteger(L, sorders);
+  lua_setfield(L, -2, "state_orders");
+  lua_pushnumber(L, e0);
+  lua_setfield(L, -2, "E0");
+  return 1;
+}
+
+static int s_groups(lua_State *L) {
+  lvs_series *s = checkseries(L, 1);
+  size_t n = lvs_series_dim(s);
+  lua_newtable(L);
+  size_t last = (size_t)-1;
+  int ng = 0;
+  for (size_t i = 0; i < n; i++) {
+    if (!lvs_series_has(s, i)) continue;
+    size_t g;
+    int split;
+    lvs_series_info(s, i, &g, &split, NULL, NULL);
+    if (g != last) {
+      lua_createtable(L, 0, 3);
+      lua_newtable(L);
+      lua_setfield(L, -2, "members");
+      lua_newtable(L);
+      lua_setfield(L, -2, "split_orders");
+      double e0;
+      lvs_series_energy(s, i, 0, &e0);
+      lua_pushnumber(L, e0);
+      lua_setfield(L, -2, "E0");
+      lua_pushinteger(L, 0);
+      lua_setfield(L, -2, "split_order");
+      lua_rawseti(L, -2, ++ng);
+      last = g;
+    }
+    lua_rawgeti(L, -1, ng);
+    lua_getfield(L, -1, "members");
+    lua_pushinteger(L, (lua_Integer)i + 1);
+    lua_rawseti(L, -2, (lua_Integer)lua_rawlen(L, -2) + 1);
+    lua_pop(L, 1);
+    lua_getfield(L, -1, "split_orders");
+    lua_pushinteger(L, split);
+    lua_rawseti(L, -2, (lua_Integer)lua_rawlen(L, -2) + 1);
+    lua_pop(L, 1);
+    /* group split_order: the largest member split order (-1 if any never split) */
+    lua_getfield(L, -1, "split_order");
+    lua_Integer cur = lua_tointeger(L, -1);
+    lua_pop(L, 1);
+    if (cur != -1 && (split == -1 || split > cur)) {
+      lua_pushinteger(L, split);
+      lua_setfield(L, -2, "split_order");
+    }
+    lua_pop(L, 1);
+  }
+  return 1;
+}
+
+static int s_dim(lua_State *L) {
+  lua_pushinteger(L, (lua_Integer)lvs_series_dim(checkseries(L, 1)));
+  return 1;
+}
+static int s_order(lua_State *L) {
+  lua_pushinteger(L, lvs_series_order(checkseries(L, 1)));
+  return 1;
+}
+static int s_vnorm(lua_State *L) {
+  lua_pushnumber(L, lvs_series_vnorm(checkseries(L, 1)));
+  return 1;
+}
+static int s_levels(lua_State *L) {
+  lvs_series *s = checkseries(L, 1);
+  lua_newtable(L);
+  int c = 0;
+  for (size_t i = 0; i < lvs_series_dim(s); i++)
+    if (lvs_series_has(s, i)) {
+      lua_pushinteger(L, (lua_Integer)i + 1);
+      lua_rawseti(L, -2, ++c);
+    }
+  return 1;
+}
+/* s:operators() -> H0, V (the matrices the series was made from) */
+static int s_operators(lua_State *L) {
+  checkseries(L, 1);
+  lua_getiuservalue(L, 1, 1);
+  lua_getiuservalue(L, 1, 2);
+  return 2;
+}
+
+void lvsL_open_series(lua_State *L, int ctxidx) {
+  static const luaL_Reg meta[] = {{"__gc", s_gc}, {"__close", s_gc}, {NULL, NULL}};
+  static const luaL_Reg methods[] = {{"energy", s_energy}, {"at", s_at},         {"state", s_state},
+                                     {"info", s_info},     {"groups", s_groups}, {"dim", s_dim},
+                                     {"order", s_order},   {"vnorm", s_vnorm},   {"levels", s_levels},
+                                     {"operators", s_operators}, {NULL, NULL}};
+  luaL_newmetatable(L, LVS_SERIES_MT);
+  lvsL_setfuncs(L, meta, ctxidx);
+  lua_newtable(L);
+  lvsL_setfuncs(L, methods, ctxidx);
+  lua_pushvalue(L, -1);
+  lua_setfield(L, -4, "_series_methods"); /* sugar adds Lua methods here */
+  lua_setfield(L, -2, "__index");
+  lua_pushvalue(L, -1);
+  lua_setfield(L, -3, "_series_meta"); /* sugar sets __tostring */
+  lua_pop(L, 1);
+  static const luaL_Reg fns[] = {{"perturb", l_perturb}, {NULL, NULL}};
+  lvsL_setfuncs(L, fns, ctxidx);
+}

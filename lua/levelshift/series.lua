@@ -1,0 +1,201 @@
+--- Lua sugar for perturbation series (ls.perturb): check against exact
+-- diagonalization, Pade approximants, a ratio-test radius, totable and the
+-- printed report. The numerics of the series itself are in C (series.c).
+return function(ls, core)
+  local methods = core._series_methods
+  local meta = core._series_meta
+
+  local function coeffs(s, level)
+    local a = {}
+    for k = 0, s:order() do a[k] = s:energy(level, k) end
+    return a
+  end
+
+  local function argcheck_level(s, level, fname)
+    if math.type(level) ~= "integer" then
+      error("bad argument #1 to '" .. fname .. "' (level must be an integer)", 3)
+    end
+    local n = s:dim()
+    if level < 1 or level > n then
+      error(string.format("bad argument #1 to '%s' (level must be from 1 to %d, got %d)", fname, n, level), 3)
+    end
+  end
+
+  local function argcheck_lambda(lambda, fname, argn)
+    if type(lambda) ~= "number" or lambda ~= lambda or lambda == math.huge or lambda == -math.huge then
+      error(string.format("bad argument #%d to '%s' (lambda must be a finite number)", argn, fname), 3)
+    end
+  end
+
+  --- s:coefficients(level) -> {[0]=E0, E1, ..., EK}
+  function methods.coefficients(s, level)
+    argcheck_level(s, level, "coefficients")
+    return coeffs(s, level)
+  end
+
+  --- Ratio test on the last nonzero coefficients: radius ~ |a_{k-1}/a_k|.
+  -- Returns the estimate (or nil when the coefficients vanish) and a note.
+  function methods.radius(s, level)
+    argcheck_level(s, level, "radius")
+    local a, K = coeffs(s, level), s:order()
+    local r = {}
+    -- consecutive nonzero coefficients a_j, a_k: radius ~ |a_j/a_k|^(1/(k-j))
+    -- (handles series in lambda^2)
+    local prev
+    for k = 1, K do
+      if a[k] ~= 0 and math.abs(a[k]) > 1e-13 * math.abs(a[1] ~= 0 and a[1] or a[k]) then
+        if prev then r[#r + 1] = math.abs(a[prev] / a[k]) ^ (1 / (k - prev)) end
+        prev = k
+      end
+    end
+    if #r == 0 then return nil, "coefficients vanish: no finite radius estimate" end
+    local last = r[#r]
+    local note = "ratio test |a(K-1)/a(K)|"
+    if #r >= 3 then
+      local d1, d2 = r[#r] - r[#r - 1], r[#r - 1] - r[#r - 2]
+      if d1 * d2 < 0 then note = note .. "; ratios oscillate, estimate unreliable" end
+      if r[#r] < r[#r - 1] and r[#r - 1] < r[#r - 2] then note = note .. "; ratios still falling (radius may be 0)" end
+    end
+    return last, note
+  end
+
+  --- Solve a small dense linear system with partial pivoting (A is rows).
+  local function solve(A, b)
+    local n = #b
+    for c = 1, n do
+      local p, best = c, math.abs(A[c][c])
+      for r = c + 1, n do
+        if math.abs(A[r][c]) > best then p, best = r, math.abs(A[r][c]) end
+      end
+      if best == 0 then return nil end
+      A[c], A[p] = A[p], A[c]
+      b[c], b[p] = b[p], b[c]
+      for r = c + 1, n do
+        local f = A[r][c] / A[c][c]
+        if f ~= 0 then
+          for j = c, n do A[r][j] = A[r][j] - f * A[c][j] end
+          b[r] = b[r] - f * b[c]
+        end
+      end
+    end
+    local x = {}
+    for r = n, 1, -1 do
+      local acc = b[r]
+      for j = r + 1, n do acc = acc - A[r][j] * x[j] end
+      x[r] = acc / A[r][r]
+    end
+    return x
+  end
+
+  --- s:pade(level, lambda [, L, M]) -> value of the [L/M] Pade approximant
+  -- (Baker & Graves-Morris, Pade Approximants, CUP 1996); default the
+  -- diagonal or near-diagonal L + M = K. Double precision: keep M <~ 10.
+  function methods.pade(s, level, lambda, L, M)
+    argcheck_level(s, level, "pade")
+    argcheck_lambda(lambda, "pade", 2)
+    local K = s:order()
+    if L == nil and M == nil then
+      M = K // 2
+      L = K - M
+    elseif L == nil or M == nil then
+      error("bad argument to 'pade' (give both L and M, or neither)", 2)
+    end
+    if math.type(L) ~= "integer" or math.type(M) ~= "integer" or L < 0 or M < 0 or L + M > K then
+      error(string.format("bad argument #3 to 'pade' (need integers L, M >= 0 with L + M <= %d)", K), 2)
+    end
+    local a = coeffs(s, level)
+    local function at(k) return k >= 0 and a[k] or 0 end
+    local b = { [0] = 1 }
+    if M > 0 then
+      local A, rhs = {}, {}
+      for r = 1, M do
+        local k = L + r
+        A[r] = {}
+        for j = 1, M do A[r][j] = at(k - j) end
+        rhs[r] = -at(k)
+      end
+      local x = solve(A, rhs)
+      if not x then error("pade: singular Pade system for level " .. level, 2) end
+      for j = 1, M do b[j] = x[j] end
+    end
+    local p, q = 0, 0
+    for i = L, 0, -1 do
+      local pi = 0
+      for j = 0, math.min(i, M) do pi = pi + b[j] * at(i - j) end
+      p = p * lambda + pi
+    end
+    for j = M, 0, -1 do q = q * lambda + b[j] end
+    return p / q
+  end
+
+  --- s:check(lambda) -> {lambda=, levels={ {level=, series=, exact=, error=, tail=, warning=}... }, max_error=}
+  -- Exact values from diagonalizing H0 + lambda V; level i is compared with
+  -- the i-th exact eigenvalue (ascending), valid while levels do not cross.
+  function methods.check(s, lambda)
+    argcheck_lambda(lambda, "check", 1)
+    local H0, V = s:operators()
+    local E = ls.eigen(H0 + lambda * V, { vectors = false })
+    local out = { lambda = lambda, levels = {}, max_error = 0 }
+    local K, vn = s:order(), s:vnorm()
+    for _, lev in ipairs(s:levels()) do
+      local val = s:at(lev, lambda)
+      local err = val - E[lev]
+      local row = { level = lev, series = val, exact = E[lev], error = err }
+      local aK, aK1 = s:energy(lev, K), K > 1 and s:energy(lev, K - 1) or 0
+      if aK ~= 0 and aK1 ~= 0 then
+        local r = math.abs(aK / aK1 * lambda)
+        if r < 0.5 then row.tail = math.abs(aK * lambda ^ K) * r / (1 - r) end
+      end
+      local info = s:info(lev)
+      if info.min_denominator < math.abs(lambda) * vn then
+        row.warning = string.format("small denominator %.3g below |lambda|*||V|| = %.3g: series unreliable",
+          info.min_denominator, math.abs(lambda) * vn)
+      end
+      out.levels[#out.levels + 1] = row
+      if math.abs(err) > out.max_error then out.max_error = math.abs(err) end
+    end
+    return out
+  end
+
+  --- s:totable() -> {order=, dim=, levels={ {level=, E0=, corrections={E1..EK}, split_order=, group=}... }}
+  function methods.totable(s)
+    local t = { order = s:order(), dim = s:dim(), levels = {} }
+    for _, lev in ipairs(s:levels()) do
+      local info = s:info(lev)
+      local c = {}
+      for k = 1, s:order() do c[k] = s:energy(lev, k) end
+      t.levels[#t.levels + 1] = { level = lev, E0 = info.E0, corrections = c, split_order = info.split_order,
+        group = info.group, min_denominator = info.min_denominator }
+    end
+    return t
+  end
+
+  meta.__tostring = function(s)
+    local K = s:order()
+    local lines = { string.format("perturbation series: %d states, order %d", s:dim(), K) }
+    local show = math.min(K, 6)
+    local head = { string.format("%6s %5s %6s %14s", "level", "group", "split", "E0") }
+    for k = 1, show do head[#head + 1] = string.format("%14s", "E(" .. k .. ")") end
+    lines[#lines + 1] = table.concat(head, " ")
+    local warn = {}
+    local vn = s:vnorm()
+    for _, lev in ipairs(s:levels()) do
+      local info = s:info(lev)
+      local split = info.split_order == 0 and "-" or (info.split_order < 0 and "none" or tostring(info.split_order))
+      local row = { string.format("%6d %5d %6s %14.8g", lev, info.group, split, info.E0) }
+      for k = 1, show do row[#row + 1] = string.format("%14.7g", s:energy(lev, k)) end
+      lines[#lines + 1] = table.concat(row, " ")
+      if info.min_denominator < 1e-6 * math.max(1, math.abs(info.E0)) then
+        warn[#warn + 1] = string.format("  level %d: small denominator %.3g (||V|| = %.3g)", lev,
+          info.min_denominator, vn)
+      end
+    end
+    if K > show then lines[#lines + 1] = string.format("(orders %d..%d: s:energy(level, k))", show + 1, K) end
+    lines[#lines + 1] = "split: order at which a degenerate level separated ('-' non-degenerate, 'none' not within the order)"
+    if #warn > 0 then
+      lines[#lines + 1] = "warnings:"
+      for _, w in ipairs(warn) do lines[#lines + 1] = w end
+    end
+    return table.concat(lines, "\n")
+  end
+end
