@@ -298,6 +298,18 @@ static int add_crossing(lvs_sweep *s, size_t *cap, const lvs_sweep_crossing *c) 
   return LVS_OK;
 }
 
+typedef struct {
+  double e;
+  size_t a;
+} ranked;
+
+static int cmp_ranked(const void *x, const void *y) {
+  const ranked *p = x, *q = y;
+  if (p->e < q->e) return -1;
+  if (p->e > q->e) return 1;
+  return (p->a > q->a) - (p->a < q->a);
+}
+
 static int cmp_cross(const void *a, const void *b) {
   const lvs_sweep_crossing *x = a, *y = b;
   if (x->at < y->at) return -1;
@@ -349,6 +361,7 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   double complex *vblk = NULL, *prev = NULL, *tmp = NULL;
   size_t *pi = NULL, *perm = NULL, *iw = NULL;
   char *cw = NULL;
+  ranked *srt = NULL;
   size_t ccap = 0;
   locked_alloc la;
   la.f = ctx->alloc;
@@ -486,9 +499,10 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
 
   /* crossings: local minima of adjacent gaps over the grid, refined */
   if (npts >= 3 && count >= 2) {
-    /* ranks at each point need the sorted energies: rank r at point k is the
-     * tracked level with the r-th smallest energy there */
-    size_t *order = iw; /* reuse: count entries */
+    /* rank r at point k is the tracked level with the r-th smallest energy
+     * there (ties by level number); sorted copies of points k-1, k, k+1 */
+    srt = lvsi_malloc(ctx, 3 * count * sizeof *srt);
+    if (!srt) goto nomem;
     double scale = 0;
     for (size_t q = 0; q < count * npts; q++)
       if (fabs(s->e[q]) > scale) scale = fabs(s->e[q]);
@@ -496,27 +510,18 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     double dtol = 1e-12 * scale, ctol = 1e-9 * scale;
     double *wg = hu; /* count + 1 >= r + 2 values */
     const double gr = (sqrt(5.0) - 1) / 2;
-    for (size_t r = 0; r + 1 < count; r++) {
-      for (size_t k = 1; k + 1 < npts; k++) {
-        /* sorted energies at k-1, k, k+1 for ranks r, r+1 */
-        double g[3];
-        for (int d = 0; d < 3; d++) {
-          size_t kk = k - 1 + (size_t)d;
-          for (size_t a = 0; a < count; a++) norm2[a] = s->e[a * npts + kk];
-          /* selection of ranks r and r+1 by counting */
-          double er = 0, er1 = 0;
-          for (size_t a = 0; a < count; a++) {
-            size_t below = 0, eq = 0;
-            for (size_t b = 0; b < count; b++) {
-              if (norm2[b] < norm2[a] || (norm2[b] == norm2[a] && b < a)) below++;
-              (void)eq;
-            }
-            if (below == r) er = norm2[a];
-            if (below == r + 1) er1 = norm2[a];
-            if (d == 1) order[below] = a;
-          }
-          g[d] = er1 - er;
+    for (size_t k = 1; k + 1 < npts; k++) {
+      for (int d = 0; d < 3; d++) {
+        ranked *S = srt + (size_t)d * count;
+        for (size_t a = 0; a < count; a++) {
+          S[a].e = s->e[a * npts + k - 1 + (size_t)d];
+          S[a].a = a;
         }
+        qsort(S, count, sizeof *S, cmp_ranked);
+      }
+      for (size_t r = 0; r + 1 < count; r++) {
+        double g[3];
+        for (int d = 0; d < 3; d++) g[d] = srt[(size_t)d * count + r + 1].e - srt[(size_t)d * count + r].e;
         if (!(g[1] < g[0] - dtol && g[1] <= g[2] + dtol)) continue;
         /* golden-section search on [p_{k-1}, p_{k+1}] */
         double a = grid_p(s->from, s->to, steps, k - 1), b = grid_p(s->from, s->to, steps, k + 1);
@@ -541,7 +546,7 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
         lvs_sweep_crossing c;
         c.at = best_p;
         c.gap = best_g;
-        size_t i = order[r], j = order[r + 1];
+        size_t i = srt[count + r].a, j = srt[count + r + 1].a;
         c.i = i < j ? i : j;
         c.j = i < j ? j : i;
         c.avoided = best_g > ctol;
@@ -573,6 +578,7 @@ done:
   lvsi_free(ctx, perm);
   lvsi_free(ctx, iw);
   lvsi_free(ctx, cw);
+  lvsi_free(ctx, srt);
   pthread_mutex_destroy(&la.mu);
   return st;
 }
