@@ -239,6 +239,64 @@ LVS_API int lvs_series_energy(const lvs_series *s, size_t level, int k, double *
 LVS_API int lvs_series_at(const lvs_series *s, size_t level, double lambda, double *e);
 LVS_API int lvs_series_info(const lvs_series *s, size_t level, size_t *group, int *split_order, double *min_denominator, int *state_orders);
 LVS_API int lvs_series_state(const lvs_series *s, size_t level, int k, double *psi);
+/* ---- transitions under time-dependent perturbations (transition.c) -----
+ * hbar = 1. H(t) = H0 + pulse(t) V, or H0 + W(t) from a callback. Amplitudes
+ * are in the eigenbasis of H0 (levels 0-based by ascending energy),
+ * interaction picture, c(t0) = e_from. */
+typedef struct lvs_pulse lvs_pulse;
+/* CONSTRUCTORS: amplitude*exp(-(t-center)^2/(2 width^2)); amplitude on
+ * [start, stop]; amplitude*sin(omega t + phase)*envelope(t) (envelope may be
+ * NULL = 1, copied); from -> to linearly over [start, stop], constant
+ * outside; a + b (both copied). */
+LVS_API int lvs_pulse_gaussian(lvs_ctx *ctx, double amplitude, double center, double width, lvs_pulse **out);
+LVS_API int lvs_pulse_square(lvs_ctx *ctx, double amplitude, double start, double stop, lvs_pulse **out);
+LVS_API int lvs_pulse_sine(lvs_ctx *ctx, double amplitude, double omega, double phase, const lvs_pulse *envelope,
+                           lvs_pulse **out);
+LVS_API int lvs_pulse_ramp(lvs_ctx *ctx, double from, double to, double start, double stop, lvs_pulse **out);
+LVS_API int lvs_pulse_sum(const lvs_pulse *a, const lvs_pulse *b, lvs_pulse **out);
+LVS_API int lvs_pulse_copy(const lvs_pulse *p, lvs_pulse **out);
+LVS_API void lvs_pulse_free(lvs_pulse *p);
+LVS_API double lvs_pulse_eval(const lvs_pulse *p, double t);
+/* Where the pulse is nonzero (a Gaussian: center +- 12 widths); infinite
+ * ends when it never stops. */
+LVS_API void lvs_pulse_support(const lvs_pulse *p, double *lo, double *hi);
+
+/* Callbacks return 0 on success. field_fn fills v with W(t), n x n complex
+ * interleaved, column-major, in the basis of H0 as given. */
+typedef int (*lvs_pulse_fn)(void *ud, double t, double *value);
+typedef int (*lvs_field_fn)(void *ud, double t, double *v);
+typedef struct {
+  lvs_pulse_fn pulse_fn; /* a scalar pulse from a callback, or NULL */
+  lvs_field_fn field_fn; /* the whole W(t) from a callback, or NULL */
+  void *ud;
+} lvs_transition_source;
+typedef struct {
+  const lvs_matrix *h0;    /* Hermitian */
+  const lvs_matrix *v;     /* Hermitian, with pulse or src.pulse_fn */
+  const lvs_pulse *pulse;  /* or NULL */
+  lvs_transition_source src;
+  size_t from;             /* 0-based level of H0 */
+  double t0, t1;           /* t0 = -inf / t1 = +inf allowed for a pulse that ends */
+  int order;               /* 1 or 2 */
+  size_t steps;            /* grid intervals (rounded up to a multiple of 4); 0 = 4000 */
+} lvs_transition_spec;
+typedef struct lvs_transition lvs_transition;
+/* CONSTRUCTOR: perturbative amplitudes to every level. */
+LVS_API int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *spec, lvs_transition **out);
+/* CONSTRUCTOR: the same transition by 4th-order Magnus propagation of the
+ * full H(t) (steps = 0: the grid of tr). src supplies callbacks again (the
+ * C pulse is kept by tr). Adds a warning to tr when the two disagree. */
+LVS_API int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, size_t steps,
+                                 lvs_transition **out);
+LVS_API void lvs_transition_free(lvs_transition *tr);
+LVS_API size_t lvs_transition_dim(const lvs_transition *tr);
+LVS_API int lvs_transition_order(const lvs_transition *tr); /* 0 for exact */
+/* amplitude summed through order (order < 0: all computed orders) */
+LVS_API int lvs_transition_amplitude(const lvs_transition *tr, size_t to, int order, double *re, double *im);
+LVS_API int lvs_transition_error(const lvs_transition *tr, size_t to, double *err);
+LVS_API const char *lvs_transition_warnings(const lvs_transition *tr); /* "" when none; owned */
+LVS_API const double *lvs_transition_energies(const lvs_transition *tr); /* BORROWED */
+
 /* @@FEATURE-DECLARATIONS@@ (features add their sections above this line) */
 
 /* ---- embedding --------------------------------------------------------- */

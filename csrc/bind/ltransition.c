@@ -1,0 +1,471 @@
+/* ltransition.c -- ls.pulse.* and ls.transition{...} (hbar = 1).
+ *
+ *   ls.pulse.gaussian{amplitude=, center=, width=}   .square{amplitude=, start=, stop=}
+ *   ls.pulse.sine{amplitude=, omega=, phase=, envelope=}  .ramp{from=, to=, start=, stop=}
+ *   pulse + pulse, pulse(t)
+ *   ls.transition{H0=, V=, pulse=, from=, t0=, t1=, order=, steps=}
+ *     V an op with pulse (a pulse or a Lua function of t), or V a Lua
+ *     function of t returning an op (then no pulse).
+ *   tr:amplitude(to [, order]) -> re, im; tr:probability(to [, order]);
+ *   tr:error(to); tr:exact([steps]); tr:warnings(); tr:energies(); tr:dim()
+ */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+#include "bind/lbind.h"
+
+#define LVS_PULSE_MT "levelshift.pulse"
+#define LVS_TRANSITION_MT "levelshift.transition"
+
+/* ---- pulses ----------------------------------------------------------------- */
+
+static lvs_pulse **newpulse(lua_State *L) {
+  lvs_pulse **p = lua_newuserdatauv(L, sizeof *p, 0);
+  *p = NULL;
+  luaL_setmetatable(L, LVS_PULSE_MT);
+  return p;
+}
+
+static lvs_pulse *checkpulse(lua_State *L, int idx) {
+  lvs_pulse **p = luaL_checkudata(L, idx, LVS_PULSE_MT);
+  if (!*p) luaL_error(L, "attempt to use a freed pulse");
+  return *p;
+}
+
+static double needfield(lua_State *L, const char *fname, const char *key, int required, double def) {
+  lua_getfield(L, 1, key);
+  double v = def;
+  if (lua_isnil(L, -1)) {
+    if (required) luaL_error(L, "bad argument #1 to '%s' (field '%s' is required)", fname, key);
+  } else if (!lua_isnumber(L, -1)) {
+    luaL_error(L, "bad argument #1 to '%s' (field '%s' must be a number, got %s)", fname, key, luaL_typename(L, -1));
+  } else {
+    v = lua_tonumber(L, -1);
+  }
+  lua_pop(L, 1);
+  return v;
+}
+
+static int p_gaussian(lua_State *L) {
+  static const char *const known[] = {"amplitude", "center", "width", NULL};
+  luaL_checktype(L, 1, LUA_TTABLE);
+  lvsL_checkoptions(L, 1, known, "pulse.gaussian", 1);
+  double a = needfield(L, "pulse.gaussian", "amplitude", 0, 1.0), c = needfield(L, "pulse.gaussian", "center", 0, 0.0),
+         w = needfield(L, "pulse.gaussian", "width", 1, 0);
+  lvs_pulse **out = newpulse(L);
+  lvsL_check(L, lvsL_ctx(L), lvs_pulse_gaussian(lvsL_ctx(L), a, c, w, out), "pulse.gaussian");
+  return 1;
+}
+
+static int p_square(lua_State *L) {
+  static const char *const known[] = {"amplitude", "start", "stop", NULL};
+  luaL_checktype(L, 1, LUA_TTABLE);
+  lvsL_checkoptions(L, 1, known, "pulse.square", 1);
+  double a = needfield(L, "pulse.square", "amplitude", 0, 1.0), s = needfield(L, "pulse.square", "start", 1, 0),
+         e = needfield(L, "pulse.square", "stop", 1, 0);
+  lvs_pulse **out = newpulse(L);
+  lvsL_check(L, lvsL_ctx(L), lvs_pulse_square(lvsL_ctx(L), a, s, e, out), "pulse.square");
+  return 1;
+}
+
+static int p_sine(lua_State *L) {
+  static const char *const known[] = {"amplitude", "omega", "phase", "envelope", NULL};
+  luaL_checktype(L, 1, LUA_TTABLE);
+  lvsL_checkoptions(L, 1, known, "pulse.sine", 1);
+  double a = needfield(L, "pulse.sine", "amplitude", 0, 1.0), w = needfield(L, "pulse.sine", "omega", 1, 0),
+         ph = needfield(L, "pulse.sine", "phase", 0, 0.0);
+  lua_getfield(L, 1, "envelope");
+  const lvs_pulse *env = NULL;
+  if (!lua_isnil(L, -1)) {
+    lvs_pulse **e = luaL_testudata(L, -1, LVS_PULSE_MT);
+    if (!e || !*e) return luaL_error(L, "bad argument #1 to 'pulse.sine' (field 'envelope' must be a pulse)");
+    env = *e;
+  }
+  lvs_pulse **out = newpulse(L);
+  lvsL_check(L, lvsL_ctx(L), lvs_pulse_sine(lvsL_ctx(L), a, w, ph, env, out), "pulse.sine");
+  return 1;
+}
+
+static int p_ramp(lua_State *L) {
+  static const char *const known[] = {"from", "to", "start", "stop", NULL};
+  luaL_checktype(L, 1, LUA_TTABLE);
+  lvsL_checkoptions(L, 1, known, "pulse.ramp", 1);
+  double f = needfield(L, "pulse.ramp", "from", 0, 0.0), t = needfield(L, "pulse.ramp", "to", 0, 1.0),
+         s = needfield(L, "pulse.ramp", "start", 1, 0), e = needfield(L, "pulse.ramp", "stop", 1, 0);
+  lvs_pulse **out = newpulse(L);
+  lvsL_check(L, lvsL_ctx(L), lvs_pulse_ramp(lvsL_ctx(L), f, t, s, e, out), "pulse.ramp");
+  return 1;
+}
+
+static int p_add(lua_State *L) {
+  lvs_pulse *a = checkpulse(L, 1), *b = checkpulse(L, 2);
+  lvs_pulse **out = newpulse(L);
+  lvsL_check(L, lvsL_ctx(L), lvs_pulse_sum(a, b, out), "pulse add");
+  return 1;
+}
+
+static int p_call(lua_State *L) {
+  lvs_pulse *p = checkpulse(L, 1);
+  lua_pushnumber(L, lvs_pulse_eval(p, luaL_checknumber(L, 2)));
+  return 1;
+}
+
+static int p_gc(lua_State *L) {
+  lvs_pulse **p = luaL_checkudata(L, 1, LVS_PULSE_MT);
+  lvs_pulse_free(*p);
+  *p = NULL;
+  return 0;
+}
+
+static int p_tostring(lua_State *L) {
+  lvs_pulse *p = checkpulse(L, 1);
+  double lo, hi;
+  lvs_pulse_support(p, &lo, &hi);
+  lua_pushfstring(L, "pulse (nonzero within [%f, %f])", lo, hi);
+  return 1;
+}
+
+/* ---- callbacks into Lua ----------------------------------------------------- */
+
+typedef struct {
+  lua_State *L;
+  int fidx; /* absolute stack index of the Lua function */
+  size_t n;
+  char err[400];
+} cbdata;
+
+static int cb_pulse(void *ud, double t, double *value) {
+  cbdata *cb = ud;
+  lua_State *L = cb->L;
+  lua_pushvalue(L, cb->fidx);
+  lua_pushnumber(L, t);
+  if (lua_pcall(L, 1, 1, 0) != LUA_OK) {
+    snprintf(cb->err, sizeof cb->err, "the pulse function failed at t = %.17g: %s", t, lua_tostring(L, -1));
+    lua_pop(L, 1);
+    return 1;
+  }
+  if (lua_type(L, -1) != LUA_TNUMBER) {
+    snprintf(cb->err, sizeof cb->err, "the pulse function returned %s at t = %.17g (number expected)",
+             luaL_typename(L, -1), t);
+    lua_pop(L, 1);
+    return 1;
+  }
+  *value = lua_tonumber(L, -1);
+  lua_pop(L, 1);
+  if (isnan(*value)) {
+    snprintf(cb->err, sizeof cb->err, "the pulse function returned NaN at t = %.17g", t);
+    return 1;
+  }
+  return 0;
+}
+
+static int cb_field(void *ud, double t, double *v) {
+  cbdata *cb = ud;
+  lua_State *L = cb->L;
+  lua_pushvalue(L, cb->fidx);
+  lua_pushnumber(L, t);
+  if (lua_pcall(L, 1, 1, 0) != LUA_OK) {
+    snprintf(cb->err, sizeof cb->err, "the V function failed at t = %.17g: %s", t, lua_tostring(L, -1));
+    lua_pop(L, 1);
+    return 1;
+  }
+  lvs_matrix *m = lvsL_testmatrix(L, -1);
+  if (!m) {
+    snprintf(cb->err, sizeof cb->err, "the V function returned %s at t = %.17g (op expected)", luaL_typename(L, -1), t);
+    lua_pop(L, 1);
+    return 1;
+  }
+  size_t n = cb->n;
+  if (lvs_matrix_rows(m) != n || lvs_matrix_cols(m) != n) {
+    snprintf(cb->err, sizeof cb->err, "the V function returned a %zux%zu op at t = %.17g but H0 is %zux%zu",
+             lvs_matrix_rows(m), lvs_matrix_cols(m), t, n, n);
+    lua_pop(L, 1);
+    return 1;
+  }
+  double scale = 0;
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = 0; i < n; i++) {
+      double re, im;
+      lvs_matrix_get(m, i, j, &re, &im);
+      v[2 * (i + j * n)] = re, v[2 * (i + j * n) + 1] = im;
+      if (isnan(re) || isnan(im)) {
+        snprintf(cb->err, sizeof cb->err, "the V function returned NaN at t = %.17g", t);
+        lua_pop(L, 1);
+        return 1;
+      }
+      scale = fmax(scale, hypot(re, im));
+    }
+  size_t di, dj;
+  double d = lvs_matrix_hermitian_defect(m, &di, &dj);
+  lua_pop(L, 1);
+  if (d > LVS_DEFAULT_HERM_TOL * (scale > 0 ? scale : 1)) {
+    snprintf(cb->err, sizeof cb->err, "V(t) is not Hermitian at t = %.17g: |V(%zu,%zu) - conj(V(%zu,%zu))| = %.3g", t,
+             di + 1, dj + 1, dj + 1, di + 1, d);
+    return 1;
+  }
+  return 0;
+}
+
+/* ---- transitions --------------------------------------------------------------
+ * userdata: lvs_transition*; user values: 1 = the Lua function (pulse or V)
+ * or nil, 2 = kind (1 pulse function, 2 V function), 3 = cached exact result. */
+
+static lvs_transition **newtr(lua_State *L) {
+  lvs_transition **p = lua_newuserdatauv(L, sizeof *p, 3);
+  *p = NULL;
+  luaL_setmetatable(L, LVS_TRANSITION_MT);
+  return p;
+}
+
+static lvs_transition *checktr(lua_State *L, int idx) {
+  lvs_transition **p = luaL_checkudata(L, idx, LVS_TRANSITION_MT);
+  if (!*p) luaL_error(L, "attempt to use a freed transition");
+  return *p;
+}
+
+static void raise_cb(lua_State *L, lvs_ctx *ctx, int st, cbdata *cb, const char *fname) {
+  if (st == LVS_OK) return;
+  if (cb->err[0]) {
+    lvs_clear_error(ctx);
+    luaL_error(L, "%s: %s", fname, cb->err);
+  }
+  lvsL_check(L, ctx, st, fname);
+}
+
+static int l_transition(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  static const char *const known[] = {"H0", "V", "pulse", "from", "t0", "t1", "order", "steps", NULL};
+  luaL_checktype(L, 1, LUA_TTABLE);
+  lvsL_checkoptions(L, 1, known, "transition", 1);
+  lvs_transition_spec sp;
+  memset(&sp, 0, sizeof sp);
+  cbdata cb;
+  memset(&cb, 0, sizeof cb);
+  cb.L = L;
+  lua_settop(L, 1);
+  lua_getfield(L, 1, "H0"); /* 2 */
+  sp.h0 = lvsL_testmatrix(L, 2);
+  if (!sp.h0) return luaL_error(L, "bad argument #1 to 'transition' (field 'H0' must be an op, got %s)", luaL_typename(L, 2));
+  size_t n = lvs_matrix_rows(sp.h0);
+  cb.n = n;
+  lua_getfield(L, 1, "V");     /* 3 */
+  lua_getfield(L, 1, "pulse"); /* 4 */
+  int kind = 0;
+  if (lua_isfunction(L, 3)) {
+    if (!lua_isnil(L, 4))
+      return luaL_error(L, "bad argument #1 to 'transition' (V is a function of t: give no pulse)");
+    kind = 2;
+    cb.fidx = 3;
+    sp.src.field_fn = cb_field;
+    sp.src.ud = &cb;
+  } else {
+    sp.v = lvsL_testmatrix(L, 3);
+    if (!sp.v)
+      return luaL_error(L, "bad argument #1 to 'transition' (field 'V' must be an op or a function of t, got %s)",
+                        luaL_typename(L, 3));
+    if (lua_isfunction(L, 4)) {
+      kind = 1;
+      cb.fidx = 4;
+      sp.src.pulse_fn = cb_pulse;
+      sp.src.ud = &cb;
+    } else {
+      lvs_pulse **p = luaL_testudata(L, 4, LVS_PULSE_MT);
+      if (!p || !*p)
+        return luaL_error(L, "bad argument #1 to 'transition' (field 'pulse' must be a pulse or a function of t, got %s)",
+                          luaL_typename(L, 4));
+      sp.pulse = *p;
+    }
+  }
+  lua_getfield(L, 1, "from");
+  if (!lua_isinteger(L, -1))
+    return luaL_error(L, "bad argument #1 to 'transition' (field 'from' must be an integer level, got %s)",
+                      lua_isnil(L, -1) ? "nil" : luaL_tolstring(L, -1, NULL));
+  lua_Integer from = lua_tointeger(L, -1);
+  lua_pop(L, 1);
+  if (from < 1 || (size_t)from > n)
+    return luaL_error(L, "bad argument #1 to 'transition' (from = %d is out of range 1..%d)", (int)from, (int)n);
+  sp.from = (size_t)(from - 1);
+  sp.t0 = needfield(L, "transition", "t0", 1, 0);
+  sp.t1 = needfield(L, "transition", "t1", 1, 0);
+  lua_Integer order = lvsL_optfield_int(L, 1, "order", 1, "transition", 1);
+  if (order < 1 || order > 2)
+    return luaL_error(L, "bad argument #1 to 'transition' (order must be 1 or 2, got %d)", (int)order);
+  sp.order = (int)order;
+  lua_Integer steps = lvsL_optfield_int(L, 1, "steps", 4000, "transition", 1);
+  if (steps < 8 || steps > 100000000)
+    return luaL_error(L, "bad argument #1 to 'transition' (steps must be from 8 to 1e8, got %d)", (int)steps);
+  sp.steps = (size_t)steps;
+  lvs_transition **out = newtr(L); /* 5 */
+  if (kind) {
+    lua_pushvalue(L, cb.fidx);
+    lua_setiuservalue(L, 5, 1);
+  }
+  lua_pushinteger(L, kind);
+  lua_setiuservalue(L, 5, 2);
+  int st = lvs_transition_new(ctx, &sp, out);
+  raise_cb(L, ctx, st, &cb, "transition");
+  lua_settop(L, 5);
+  return 1;
+}
+
+static size_t checklevel(lua_State *L, lvs_transition *tr, int idx) {
+  lua_Integer to = luaL_checkinteger(L, idx);
+  size_t n = lvs_transition_dim(tr);
+  if (to < 1 || (size_t)to > n) {
+    lua_pushfstring(L, "level %d is out of range 1..%d", (int)to, (int)n);
+    luaL_argerror(L, idx, lua_tostring(L, -1));
+  }
+  return (size_t)(to - 1);
+}
+
+static void amp(lua_State *L, double *re, double *im) {
+  lvs_transition *tr = checktr(L, 1);
+  size_t to = checklevel(L, tr, 2);
+  int order = -1;
+  if (!lua_isnoneornil(L, 3)) {
+    lua_Integer o = luaL_checkinteger(L, 3);
+    int have = lvs_transition_order(tr);
+    if (have > 0 && (o < 0 || o > have)) {
+      lua_pushfstring(L, "order must be from 0 to %d, got %d", have, (int)o);
+      luaL_argerror(L, 3, lua_tostring(L, -1));
+    }
+    order = (int)o;
+  }
+  lvsL_check(L, lvsL_ctx(L), lvs_transition_amplitude(tr, to, order, re, im), "amplitude");
+}
+
+static int t_amplitude(lua_State *L) {
+  double re, im;
+  amp(L, &re, &im);
+  lua_pushnumber(L, re);
+  lua_pushnumber(L, im);
+  return 2;
+}
+
+static int t_probability(lua_State *L) {
+  double re, im;
+  amp(L, &re, &im);
+  lua_pushnumber(L, re * re + im * im);
+  return 1;
+}
+
+static int t_error(lua_State *L) {
+  lvs_transition *tr = checktr(L, 1);
+  size_t to = checklevel(L, tr, 2);
+  double e;
+  lvsL_check(L, lvsL_ctx(L), lvs_transition_error(tr, to, &e), "error");
+  lua_pushnumber(L, e);
+  return 1;
+}
+
+static int t_exact(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_transition *tr = checktr(L, 1);
+  if (lvs_transition_order(tr) == 0) return luaL_error(L, "exact: this is already an exact result");
+  lua_Integer steps = luaL_optinteger(L, 2, 0);
+  if (steps < 0 || steps > 100000000) return luaL_argerror(L, 2, "steps must be from 8 to 1e8");
+  lua_settop(L, 2);
+  if (steps == 0) {
+    lua_getiuservalue(L, 1, 3);
+    if (!lua_isnil(L, -1)) return 1; /* cached */
+    lua_pop(L, 1);
+  }
+  lua_getiuservalue(L, 1, 1); /* 3: function or nil */
+  lua_getiuservalue(L, 1, 2); /* 4: kind */
+  int kind = (int)lua_tointeger(L, 4);
+  cbdata cb;
+  memset(&cb, 0, sizeof cb);
+  cb.L = L;
+  cb.fidx = 3;
+  cb.n = lvs_transition_dim(tr);
+  lvs_transition_source src = {kind == 1 ? cb_pulse : NULL, kind == 2 ? cb_field : NULL, &cb};
+  lvs_transition **out = newtr(L); /* 5 */
+  int st = lvs_transition_exact(tr, &src, (size_t)steps, out);
+  raise_cb(L, ctx, st, &cb, "exact");
+  if (steps == 0) {
+    lua_pushvalue(L, 5);
+    lua_setiuservalue(L, 1, 3);
+  }
+  lua_settop(L, 5);
+  return 1;
+}
+
+static int t_warnings(lua_State *L) {
+  lua_pushstring(L, lvs_transition_warnings(checktr(L, 1)));
+  return 1;
+}
+
+static int t_dim(lua_State *L) {
+  lua_pushinteger(L, (lua_Integer)lvs_transition_dim(checktr(L, 1)));
+  return 1;
+}
+
+static int t_energies(lua_State *L) {
+  lvs_transition *tr = checktr(L, 1);
+  size_t n = lvs_transition_dim(tr);
+  const double *E = lvs_transition_energies(tr);
+  lua_createtable(L, (int)n, 0);
+  for (size_t k = 0; k < n; k++) {
+    lua_pushnumber(L, E[k]);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 1;
+}
+
+static int t_gc(lua_State *L) {
+  lvs_transition **p = luaL_checkudata(L, 1, LVS_TRANSITION_MT);
+  lvs_transition_free(*p);
+  *p = NULL;
+  return 0;
+}
+
+static int t_tostring(lua_State *L) {
+  lvs_transition *tr = checktr(L, 1);
+  int o = lvs_transition_order(tr);
+  if (o == 0) lua_pushfstring(L, "transition (exact, %d levels)", (int)lvs_transition_dim(tr));
+  else lua_pushfstring(L, "transition (order %d, %d levels)", o, (int)lvs_transition_dim(tr));
+  return 1;
+}
+
+static int t_index(lua_State *L) {
+  const char *k = luaL_checkstring(L, 2);
+  if (strcmp(k, "warning") == 0) {
+    const char *w = lvs_transition_warnings(checktr(L, 1));
+    if (*w) lua_pushstring(L, w);
+    else lua_pushnil(L);
+    return 1;
+  }
+  lua_getmetatable(L, 1);
+  lua_getfield(L, -1, "_methods");
+  lua_getfield(L, -1, k);
+  return 1;
+}
+
+void lvsL_open_transition(lua_State *L, int ctxidx) {
+  int mod = lua_gettop(L);
+  /* pulse metatable */
+  luaL_newmetatable(L, LVS_PULSE_MT);
+  static const luaL_Reg pmt[] = {{"__add", p_add}, {"__call", p_call}, {"__gc", p_gc}, {"__tostring", p_tostring},
+                                 {NULL, NULL}};
+  lvsL_setfuncs(L, pmt, ctxidx);
+  lua_pop(L, 1);
+  /* ls.pulse */
+  lua_newtable(L);
+  static const luaL_Reg pf[] = {{"gaussian", p_gaussian}, {"square", p_square}, {"sine", p_sine}, {"ramp", p_ramp},
+                                {NULL, NULL}};
+  lvsL_setfuncs(L, pf, ctxidx);
+  lua_setfield(L, mod, "pulse");
+  /* transition metatable */
+  luaL_newmetatable(L, LVS_TRANSITION_MT);
+  static const luaL_Reg tmt[] = {{"__gc", t_gc}, {"__tostring", t_tostring}, {"__index", t_index}, {NULL, NULL}};
+  lvsL_setfuncs(L, tmt, ctxidx);
+  lua_newtable(L);
+  static const luaL_Reg tm[] = {{"amplitude", t_amplitude}, {"probability", t_probability}, {"error", t_error},
+                                {"exact", t_exact},         {"warnings", t_warnings},       {"dim", t_dim},
+                                {"energies", t_energies},   {NULL, NULL}};
+  lvsL_setfuncs(L, tm, ctxidx);
+  lua_setfield(L, -2, "_methods");
+  lua_pop(L, 1);
+  static const luaL_Reg fns[] = {{"transition", l_transition}, {NULL, NULL}};
+  lvsL_setfuncs(L, fns, ctxidx);
+}
