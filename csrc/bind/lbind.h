@@ -44,6 +44,7 @@ void lvsL_open_sweep(lua_State *L, int ctxidx);
 void lvsL_open_effective(lua_State *L, int ctxidx);
 void lvsL_open_series(lua_State *L, int ctxidx);
 void lvsL_open_transition(lua_State *L, int ctxidx);
+void lvsL_open_files(lua_State *L, int ctxidx);
 /* @@FEATURE-OPENERS@@ */
 
 /* register funcs with the ctx userdata as upvalue into table at -1 */

@@ -71,6 +71,7 @@ end
 
 -- @@FEATURE-SUGAR@@ (feature modules are required below this line)
 require("levelshift.series")(ls, core)
+require("levelshift.recipes").attach(ls)
 
 --- Recipes by name (used by the program: levelshift RECIPE name=value ...).
 function ls._run_recipe(name, params)
