@@ -297,6 +297,35 @@ LVS_API int lvs_transition_error(const lvs_transition *tr, size_t to, double *er
 LVS_API const char *lvs_transition_warnings(const lvs_transition *tr); /* "" when none; owned */
 LVS_API const double *lvs_transition_energies(const lvs_transition *tr); /* BORROWED */
 
+/* ---- custom bases and hydrogen in a Coulomb-Sturmian basis (basis.c, hydrogen.c)
+ * A custom basis (kind LVS_BASIS_CUSTOM): n states, nlab labels each (names
+ * copied, at most 15 characters; labels state-major, n * nlab values,
+ * copied), and named operators attached as copies of plain n x n matrices
+ * (lvs_basis_op hands them out; a product embeds them per site). */
+LVS_API int lvs_basis_custom(lvs_ctx *ctx, size_t n, size_t nlab, const char *const *names,
+                             const double *labels, lvs_basis **out);
+LVS_API int lvs_basis_custom_op(lvs_basis *b, const char *name, const lvs_matrix *op);
+/* Hydrogen-like atom (atomic units, charge Z) in Coulomb-Sturmian (Laguerre)
+ * functions r^(l+1) e^(-kappa r) L_k^(2l+1)(2 kappa r), k = 0..nfun-1, for
+ * l = 0..lmax. CONSTRUCTOR: a custom basis of the eigenstates of the
+ * field-free H0 inside that space, with labels n (l + 1 + rank in energy
+ * inside its l, m block: the principal number for bound states, a pseudo
+ * number above), l, m, ordered by ascending energy (ties by l, then m).
+ * Operators: "H0" (diagonal), "z", "r", "r2" (= r^2), "L2", "Lz" (exact
+ * inside the space: no truncation at the edge). all_m = 1 takes m = -l..l for every
+ * l; otherwise every l >= |m|. Radial functions are positive near r = 0.
+ * Returns LVS_EINVAL for lmax < 0 or > 200, nfun < 1 or > 2000, kappa or Z
+ * not positive and finite, |m| > lmax. */
+typedef struct {
+  int lmax;      /* largest l */
+  int nfun;      /* radial functions per l */
+  double kappa;  /* Sturmian exponent (1/bohr) */
+  double Z;      /* nuclear charge (1 for hydrogen) */
+  int m;         /* fixed m when all_m == 0 */
+  int all_m;
+} lvs_coulomb_spec;
+LVS_API int lvs_coulomb_basis(lvs_ctx *ctx, const lvs_coulomb_spec *spec, lvs_basis **out);
+
 /* @@FEATURE-DECLARATIONS@@ (features add their sections above this line) */
 
 /* ---- embedding --------------------------------------------------------- */

@@ -23,6 +23,10 @@ static basis_ud *checkbud(lua_State *L, int idx) {
 
 lvs_basis *lvsL_checkbasis(lua_State *L, int idx) { return checkbud(L, idx)->b; }
 
+static basis_ud *newbasis(lua_State *L);
+/* an empty levelshift.basis userdata on the stack; the caller fills *p */
+lvs_basis **lvsL_newbasis(lua_State *L) { return &newbasis(L)->b; }
+
 static basis_ud *newbasis(lua_State *L) {
   basis_ud *u = lua_newuserdatauv(L, sizeof *u, 1);
   u->b = NULL;

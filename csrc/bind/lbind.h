@@ -34,6 +34,7 @@ void lvsL_checkoptions(lua_State *L, int idx, const char *const *known, const ch
 
 /* bases */
 lvs_basis *lvsL_checkbasis(lua_State *L, int idx);
+lvs_basis **lvsL_newbasis(lua_State *L); /* pushes empty basis userdata */
 
 /* per-object openers: each registers its functions into the module table on
  * top of the stack, with the context userdata as upvalue (at ctxidx) */
@@ -45,6 +46,7 @@ void lvsL_open_effective(lua_State *L, int ctxidx);
 void lvsL_open_series(lua_State *L, int ctxidx);
 void lvsL_open_transition(lua_State *L, int ctxidx);
 void lvsL_open_files(lua_State *L, int ctxidx);
+void lvsL_open_coulomb(lua_State *L, int ctxidx);
 /* @@FEATURE-OPENERS@@ */
 
 /* register funcs with the ctx userdata as upvalue into table at -1 */

@@ -27,6 +27,9 @@ struct lvs_basis {
   char (*names)[LABEL_LEN];
   double *labels;    /* n * nlab, state-major */
   size_t *vis;       /* n stored indices, NULL if unpadded */
+  size_t nops;       /* custom: named operators (plain n x n, owned) */
+  char (*opnames)[LABEL_LEN];
+  lvs_matrix **ops;
 };
 
 static int basis_alloc(lvs_ctx *ctx, lvs_basis_kind kind, size_t n, size_t nlab, lvs_basis **out) {
@@ -57,6 +60,9 @@ void lvs_basis_free(lvs_basis *b) {
   lvsi_free(ctx, b->names);
   lvsi_free(ctx, b->labels);
   lvsi_free(ctx, b->vis);
+  for (size_t i = 0; i < b->nops; i++) lvs_matrix_free(b->ops[i]);
+  lvsi_free(ctx, b->ops);
+  lvsi_free(ctx, b->opnames);
   lvsi_free(ctx, b);
 }
 
@@ -127,6 +133,12 @@ static int basis_copy(const lvs_basis *a, lvs_basis **out) {
     if (!b->vis) goto nomem;
     memcpy(b->vis, a->vis, a->n * sizeof(size_t));
   }
+  for (size_t i = 0; i < a->nops; i++)
+    if ((st = lvs_basis_custom_op(b, a->opnames[i], a->ops[i]))) {
+      lvs_basis_free(b);
+      *out = NULL;
+      return st;
+    }
   if (a->nsites) {
     b->sites = lvsi_calloc(a->ctx, a->nsites, sizeof(lvs_basis *));
     if (!b->sites) goto nomem;
@@ -312,6 +324,36 @@ static int single_op(const lvs_basis *b, const char *name, lvs_matrix **out, lon
     *out = c;
     return LVS_OK;
   }
+  if (b->kind == LVS_BASIS_CUSTOM) {
+    size_t k = 0;
+    while (k < b->nops && strcmp(b->opnames[k], name) != 0) k++;
+    if (k == b->nops) {
+      char list[256] = "";
+      for (size_t i = 0; i < b->nops && strlen(list) < 200; i++) {
+        strcat(list, b->opnames[i]);
+        strcat(list, ", ");
+      }
+      return lvsi_fail(ctx, LVS_EINVAL, "this basis has no operator '%s' (it has %sidentity)", name, list);
+    }
+    /* stored ops are plain n x n; hand out a CSC copy (products need CSC) */
+    const lvs_matrix *src = b->ops[k];
+    if ((st = lvsi_mat_alloc(ctx, m, m, src->cplx, 1, 4 * m, &c))) return st;
+    for (size_t j = 0; j < m && !st; j++) {
+      c->cp[j] = c->nnz;
+      for (size_t i = 0; i < m && !st; i++) {
+        double complex v = lvsi_mat_at(src, i, j);
+        if (v != 0.0) st = lvsi_csc_push(c, i, v);
+      }
+    }
+    if (st) {
+      lvs_matrix_free(c);
+      return st;
+    }
+    c->cp[m] = c->nnz;
+    *band = (long)m;
+    *out = c;
+    return LVS_OK;
+  }
   return lvsi_fail(ctx, LVS_EINVAL, "a plain basis has no operator '%s' (it has identity)", name);
 }
 
@@ -392,4 +434,61 @@ int lvs_basis_embed(const lvs_basis *b, const lvs_matrix *plain, lvs_matrix **ou
   st = lvs_matrix_add(zero, id, one, plain, out);
   lvs_matrix_free(id);
   return st;
+}
+
+/* A custom basis: n states with nlab named labels (labels state-major,
+ * n * nlab values), made by a model builder (hydrogen.c, recipes). Its
+ * operators are the matrices attached with lvs_basis_custom_op. */
+int lvs_basis_custom(lvs_ctx *ctx, size_t n, size_t nlab, const char *const *names,
+                     const double *labels, lvs_basis **out) {
+  *out = NULL;
+  if (n == 0) return lvsi_fail(ctx, LVS_EINVAL, "basis size must be positive");
+  if (nlab == 0 || nlab > 64) return lvsi_fail(ctx, LVS_EINVAL, "a custom basis needs 1 to 64 labels, got %zu", nlab);
+  for (size_t k = 0; k < nlab; k++)
+    if (!names[k] || !names[k][0] || strlen(names[k]) >= LABEL_LEN)
+      return lvsi_fail(ctx, LVS_EINVAL, "label name %zu must have 1 to %d characters", k + 1, LABEL_LEN - 1);
+  int st = basis_alloc(ctx, LVS_BASIS_CUSTOM, n, nlab, out);
+  if (st) return st;
+  for (size_t k = 0; k < nlab; k++) strcpy((*out)->names[k], names[k]);
+  memcpy((*out)->labels, labels, n * nlab * sizeof(double));
+  return LVS_OK;
+}
+
+/* Attach a copy of a plain n x n matrix as the operator `name` (replaces an
+ * operator of the same name). */
+int lvs_basis_custom_op(lvs_basis *b, const char *name, const lvs_matrix *op) {
+  lvs_ctx *ctx = b->ctx;
+  if (b->kind != LVS_BASIS_CUSTOM) return lvsi_fail(ctx, LVS_EINVAL, "only a custom basis takes operators");
+  if (!name || !name[0] || strlen(name) >= LABEL_LEN)
+    return lvsi_fail(ctx, LVS_EINVAL, "operator name must have 1 to %d characters", LABEL_LEN - 1);
+  if (op->vis || op->rows != b->n || op->cols != b->n)
+    return lvsi_fail(ctx, LVS_EDIM, "operator '%s' must be a plain %zux%zu matrix", name, b->n, b->n);
+  lvs_matrix *c;
+  int st = lvs_matrix_copy(op, &c);
+  if (st) return st;
+  for (size_t i = 0; i < b->nops; i++)
+    if (strcmp(b->opnames[i], name) == 0) {
+      lvs_matrix_free(b->ops[i]);
+      b->ops[i] = c;
+      return LVS_OK;
+    }
+  lvs_matrix **nops = lvsi_malloc(ctx, (b->nops + 1) * sizeof *nops);
+  char (*nnames)[LABEL_LEN] = lvsi_malloc(ctx, (b->nops + 1) * LABEL_LEN);
+  if (!nops || !nnames) {
+    lvsi_free(ctx, nops);
+    lvsi_free(ctx, nnames);
+    lvs_matrix_free(c);
+    return lvsi_fail(ctx, LVS_ENOMEM, "out of memory");
+  }
+  if (b->nops) {
+    memcpy(nops, b->ops, b->nops * sizeof *nops);
+    memcpy(nnames, b->opnames, b->nops * LABEL_LEN);
+  }
+  lvsi_free(ctx, b->ops);
+  lvsi_free(ctx, b->opnames);
+  b->ops = nops;
+  b->opnames = nnames;
+  strcpy(b->opnames[b->nops], name);
+  b->ops[b->nops++] = c;
+  return LVS_OK;
 }

@@ -72,6 +72,7 @@ end
 -- @@FEATURE-SUGAR@@ (feature modules are required below this line)
 require("levelshift.series")(ls, core)
 require("levelshift.recipes").attach(ls)
+ls.units = require("levelshift.units")
 
 --- Recipes by name (used by the program: levelshift RECIPE name=value ...).
 function ls._run_recipe(name, params)

@@ -1,0 +1,148 @@
+/* test_hydrogen.c -- the Coulomb-Sturmian hydrogen basis (hydrogen.c) and
+ * custom bases (basis.c) without Lua: exact levels, radial expectation
+ * values, dipole elements, the polarizability sum over the pseudostates,
+ * and every error path. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+#include "levelshift.h"
+
+static int failures = 0;
+#define CHECK(cond, ...)                                   \
+  do {                                                     \
+    if (!(cond)) {                                         \
+      failures++;                                          \
+      fprintf(stderr, "FAIL %s:%d: ", __FILE__, __LINE__); \
+      fprintf(stderr, __VA_ARGS__);                        \
+      fprintf(stderr, "\n");                               \
+    }                                                      \
+  } while (0)
+
+static double at(const lvs_matrix *m, size_t i, size_t j) {
+  double re, im;
+  lvs_matrix_get(m, i, j, &re, &im);
+  return re;
+}
+
+static size_t find(const lvs_basis *b, int n, int l, int m) {
+  for (size_t s = 0; s < lvs_basis_dim(b); s++)
+    if (lvs_basis_label(b, s, 0) == n && lvs_basis_label(b, s, 1) == l && lvs_basis_label(b, s, 2) == m)
+      return s;
+  return (size_t)-1;
+}
+
+int main(void) {
+  lvs_ctx *ctx = lvs_ctx_new(NULL, NULL);
+  lvs_basis *b = NULL;
+  lvs_coulomb_spec sp = {.lmax = 2, .nfun = 24, .kappa = 0.5, .Z = 1.0, .m = 0, .all_m = 0};
+  CHECK(lvs_coulomb_basis(ctx, &sp, &b) == LVS_OK, "build: %s", lvs_errmsg(ctx));
+  CHECK(lvs_basis_dim(b) == 72, "dim %zu", lvs_basis_dim(b));
+  CHECK(lvs_basis_kind_of(b) == LVS_BASIS_CUSTOM, "kind");
+  CHECK(!strcmp(lvs_basis_label_name(b, 0), "n") && !strcmp(lvs_basis_label_name(b, 2), "m"), "label names");
+  lvs_matrix *H0, *z, *r, *r2, *L2;
+  CHECK(lvs_basis_op(b, 0, "H0", &H0) == LVS_OK, "H0");
+  CHECK(lvs_basis_op(b, 0, "z", &z) == LVS_OK, "z");
+  CHECK(lvs_basis_op(b, 0, "r", &r) == LVS_OK, "r");
+  CHECK(lvs_basis_op(b, 0, "r2", &r2) == LVS_OK, "r2");
+  CHECK(lvs_basis_op(b, 0, "L2", &L2) == LVS_OK, "L2");
+  size_t s1 = find(b, 1, 0, 0), s2 = find(b, 2, 0, 0), p2 = find(b, 2, 1, 0);
+  CHECK(s1 == 0 && s2 == 1 && p2 == 2, "order 1s 2s 2p: %zu %zu %zu", s1, s2, p2);
+  /* source: Bohr levels E_n = -1/(2 n^2) (Bethe & Salpeter, Quantum
+   * Mechanics of One- and Two-Electron Atoms, 1957, eq. 2.12); n = 2 lies in
+   * the space (kappa = 1/2), 1s converges geometrically */
+  CHECK(fabs(at(H0, s2, s2) + 0.125) < 1e-14, "2s %.17g", at(H0, s2, s2));
+  CHECK(fabs(at(H0, p2, p2) + 0.125) < 1e-14, "2p %.17g", at(H0, p2, p2));
+  CHECK(fabs(at(H0, s1, s1) + 0.5) < 1e-12, "1s %.17g", at(H0, s1, s1));
+  CHECK(at(H0, s1, s1) >= -0.5 - 1e-15, "1s is an upper bound");
+  /* source: <r> = (3n^2 - l(l+1))/2, <r^2> = n^2 (5n^2 + 1 - 3l(l+1))/2
+   * (Bethe & Salpeter 1957, eq. 3.24) */
+  CHECK(fabs(at(r, s1, s1) - 1.5) < 1e-10, "<1s|r|1s> %.15g", at(r, s1, s1));
+  CHECK(fabs(at(r, s2, s2) - 6.0) < 1e-12, "<2s|r|2s> %.15g", at(r, s2, s2));
+  CHECK(fabs(at(r, p2, p2) - 5.0) < 1e-12, "<2p|r|2p> %.15g", at(r, p2, p2));
+  CHECK(fabs(at(r2, s2, s2) - 42.0) < 1e-11, "<2s|r2|2s> %.15g", at(r2, s2, s2));
+  CHECK(fabs(at(r2, p2, p2) - 30.0) < 1e-11, "<2p|r2|2p> %.15g", at(r2, p2, p2));
+  CHECK(fabs(at(r2, s1, s1) - 3.0) < 1e-9, "<1s|r2|1s> %.15g", at(r2, s1, s1));
+  CHECK(at(L2, p2, p2) == 2.0 && at(L2, s2, s2) == 0.0, "L2");
+  /* source: radial integrals <1s|r|2p> = 2^7 sqrt(6)/3^5, <2s|r|2p> =
+   * -3 sqrt(3) (Bethe & Salpeter 1957, table 13), times <1|cos|0> = 1/sqrt 3;
+   * radial functions positive near r = 0 */
+  CHECK(fabs(at(z, s1, p2) - 128.0 * sqrt(2.0) / 243.0) < 1e-10, "<1s|z|2p0> %.15g", at(z, s1, p2));
+  CHECK(fabs(at(z, s2, p2) + 3.0) < 1e-12, "<2s|z|2p0> %.15g", at(z, s2, p2));
+  CHECK(at(z, s1, s2) == 0.0 && at(z, s1, s1) == 0.0, "z connects l to l +- 1 only");
+  /* static polarizability alpha = 2 sum_k |<1s|z|k>|^2 / (E_k - E_1s) = 9/2
+   * (Dalgarno & Lewis, Proc. R. Soc. A 233, 70 (1955)); the pseudostates
+   * carry the continuum part (the bound-only sum is about 3.66) */
+  double alpha = 0.0, e1 = at(H0, s1, s1);
+  for (size_t k = 0; k < lvs_basis_dim(b); k++)
+    if (k != s1) alpha += 2.0 * at(z, s1, k) * at(z, s1, k) / (at(H0, k, k) - e1);
+  CHECK(fabs(alpha - 4.5) < 1e-8, "alpha %.15g", alpha);
+  lvs_matrix_free(H0);
+  lvs_matrix_free(z);
+  lvs_matrix_free(r);
+  lvs_matrix_free(r2);
+  lvs_matrix_free(L2);
+  lvs_basis_free(b);
+
+  /* every m: n = 2 holds 2s, 2p(-1, 0, +1) at -1/8; Lz labels */
+  sp.all_m = 1;
+  sp.lmax = 1;
+  sp.nfun = 6;
+  CHECK(lvs_coulomb_basis(ctx, &sp, &b) == LVS_OK, "all m: %s", lvs_errmsg(ctx));
+  CHECK(lvs_basis_dim(b) == 24, "dim %zu", lvs_basis_dim(b));
+  lvs_matrix *Lz;
+  lvs_basis_op(b, 0, "z", &z);
+  lvs_basis_op(b, 0, "Lz", &Lz);
+  size_t pm = find(b, 2, 1, -1), pp = find(b, 2, 1, 1);
+  CHECK(pm == 2 && pp == 4, "2p order %zu %zu", pm, pp);
+  CHECK(at(Lz, pm, pm) == -1.0 && at(Lz, pp, pp) == 1.0, "Lz");
+  CHECK(at(z, find(b, 2, 0, 0), pm) == 0.0, "z keeps m");
+  lvs_matrix_free(z);
+  lvs_matrix_free(Lz);
+  CHECK(lvs_basis_op(b, 0, "y", &z) == LVS_EINVAL && z == NULL, "unknown op");
+  CHECK(strstr(lvs_errmsg(ctx), "no operator 'y'") != NULL, "msg: %s", lvs_errmsg(ctx));
+  /* a product with a custom factor embeds its operators per site */
+  lvs_basis *sp2, *prod;
+  lvs_basis_spin(ctx, 1, &sp2);
+  const lvs_basis *f[2] = {b, sp2};
+  CHECK(lvs_basis_product(ctx, f, 2, &prod) == LVS_OK, "product: %s", lvs_errmsg(ctx));
+  CHECK(lvs_basis_op(prod, 1, "H0", &H0) == LVS_OK, "site H0: %s", lvs_errmsg(ctx));
+  CHECK(fabs(at(H0, 3, 3) + 0.125) < 1e-14, "product H0 (2s, down) %.17g", at(H0, 3, 3));
+  lvs_matrix_free(H0);
+  lvs_basis_free(prod);
+  lvs_basis_free(sp2);
+  lvs_basis_free(b);
+
+  /* errors */
+  lvs_coulomb_spec bad = {.lmax = -1, .nfun = 4, .kappa = 0.5, .Z = 1.0};
+  CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL && b == NULL, "lmax < 0");
+  CHECK(strstr(lvs_errmsg(ctx), "lmax") != NULL, "msg: %s", lvs_errmsg(ctx));
+  bad.lmax = 1;
+  bad.nfun = 0;
+  CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL, "nfun 0");
+  bad.nfun = 4;
+  bad.kappa = 0.0;
+  CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL, "kappa 0");
+  bad.kappa = NAN;
+  CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL, "kappa NaN");
+  bad.kappa = 0.5;
+  bad.Z = -1.0;
+  CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL, "Z < 0");
+  bad.Z = 1.0;
+  bad.m = 2;
+  CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL, "|m| > lmax");
+  CHECK(strstr(lvs_errmsg(ctx), "exceeds lmax") != NULL, "msg: %s", lvs_errmsg(ctx));
+  CHECK(lvs_coulomb_basis(ctx, NULL, &b) == LVS_EINVAL, "NULL spec");
+  const char *nm[1] = {"toolongnamefor16chars"};
+  double lab[2] = {0, 1};
+  CHECK(lvs_basis_custom(ctx, 2, 1, nm, lab, &b) == LVS_EINVAL, "long label name");
+  nm[0] = "q";
+  CHECK(lvs_basis_custom(ctx, 2, 1, nm, lab, &b) == LVS_OK, "custom");
+  lvs_matrix *w;
+  lvs_matrix_new(ctx, 3, 3, 0, &w);
+  CHECK(lvs_basis_custom_op(b, "w", w) == LVS_EDIM, "op size");
+  lvs_matrix_free(w);
+  lvs_basis_free(b);
+  lvs_ctx_free(ctx);
+  if (failures) fprintf(stderr, "%d failures\n", failures);
+  return failures ? 1 : 0;
+}
