@@ -140,7 +140,9 @@ typedef enum {
   LVS_BASIS_OSCILLATOR = 1,
   LVS_BASIS_SPIN = 2,
   LVS_BASIS_PRODUCT = 3,
-  LVS_BASIS_CUSTOM = 4 /* made by a recipe from its own matrices */
+  LVS_BASIS_CUSTOM = 4, /* made by a recipe from its own matrices */
+  LVS_BASIS_BOX = 5,    /* particle in a box (box.c) */
+  LVS_BASIS_ROTOR = 6   /* rigid rotor |J M> (rotor.c) */
 } lvs_basis_kind;
 
 #define LVS_DEFAULT_PAD 16 /* extra oscillator levels kept for exact products */
@@ -325,6 +327,59 @@ typedef struct {
   int all_m;
 } lvs_coulomb_spec;
 LVS_API int lvs_coulomb_basis(lvs_ctx *ctx, const lvs_coulomb_spec *spec, lvs_basis **out);
+
+/* ---- particle in a box, rigid rotor, Clebsch-Gordan (box.c, rotor.c) ----
+ * Box: states n = 1..N of a particle of mass `mass` in an infinite square
+ * well of width `width` (hbar = 1), psi_n = sqrt(2/L) sin(n pi (x - x0)/L),
+ * x in [x0, x0 + L] with x0 = 0, or x0 = -L/2 when centered. Operators
+ * (lvs_basis_op): "H0" (n^2 pi^2/(2 m L^2), diagonal), "x", "p", "x2"
+ * (= x^2, closed form; not the product of truncated x), "p2", "identity".
+ * LVS_EINVAL for N < 1, width or mass not positive and finite; LVS_ECAP
+ * for N > 100000. */
+LVS_API int lvs_basis_box(lvs_ctx *ctx, size_t n, double width, double mass, int centered,
+                          lvs_basis **out);
+/* width, mass and left wall x0 of a box basis (any may be NULL); LVS_EINVAL
+ * when b is not a box. */
+LVS_API int lvs_box_params(const lvs_basis *b, double *width, double *mass, double *x0);
+/* A real function sampled at n points x[] (the box's own coordinate),
+ * values to fx[]; returns 0 on success, nonzero to abort (the caller keeps
+ * its own reason). */
+typedef int (*lvs_real_fn)(void *ud, size_t n, const double *x, double *fx);
+#define LVS_DEFAULT_BOX_TOL 1e-12       /* relative to max|V| on the grid */
+#define LVS_BOX_MAX_POINTS ((size_t)1 << 20) /* quadrature points per grid */
+typedef struct {
+  double tol;            /* 0 = LVS_DEFAULT_BOX_TOL */
+  const double *breaks;  /* points inside the box where V jumps or kinks, or NULL */
+  size_t nbreaks;
+} lvs_box_quad;
+/* CONSTRUCTOR: the plain dense N x N matrix <m|V|n> of V(x) given by f, by
+ * composite Gauss-Legendre quadrature (16 points per panel, panels doubled
+ * until two grids agree to tol * max|V|; see box.c). opt may be NULL. *err
+ * (may be NULL) gets the last grid difference, a bound on the error of
+ * each element in practice. Returns LVS_EINVAL when f fails or returns NaN
+ * or inf (the message names x), a break point is outside the box or the
+ * basis is not a box; LVS_ENOCONV when the grid passes LVS_BOX_MAX_POINTS. */
+LVS_API int lvs_box_potential(const lvs_basis *b, lvs_real_fn f, void *ud, const lvs_box_quad *opt,
+                              lvs_matrix **out, double *err);
+/* Rigid rotor (hbar = 1): states |J M>, J = Jmin..jmax, ordered by J, then
+ * M from +J down to -J; all_m = 1 keeps every M (Jmin = 0), all_m = 0 keeps
+ * only M = m (Jmin = |m|). Labels J, M. Operators: "J2" (J(J+1)), "Jz",
+ * "cos" (cos theta, <J M|cos|J' M> from Clebsch-Gordan coefficients), and
+ * with every M: "Jp", "Jm", "Jx", "Jy" (Condon-Shortley phases), "identity".
+ * LVS_EINVAL for jmax < 0 or |m| > jmax; LVS_ECAP for jmax > 2000. */
+LVS_API int lvs_basis_rotor(lvs_ctx *ctx, int jmax, int all_m, int m, lvs_basis **out);
+/* Clebsch-Gordan coefficient <j1 m1 j2 m2 | J M> (Condon-Shortley phase)
+ * with every argument doubled (two_j1 = 2 j1, ...), by Racah's formula in
+ * long double with log-gamma; 0 when M != m1 + m2 or the triangle rule
+ * fails. About 1e-15 absolute for j up to 10; the alternating sum loses
+ * digits when all three j are large (~1e-9 at j ~ 40). LVS_EINVAL for a
+ * negative j, |m| > j, j + m not an integer; LVS_ERANGE for j > 1000. */
+LVS_API int lvs_clebsch_gordan(lvs_ctx *ctx, int two_j1, int two_m1, int two_j2, int two_m2, int two_J,
+                               int two_M, double *out);
+/* Wigner 3j symbol (j1 j2 j3; m1 m2 m3), doubled arguments, from the CG
+ * coefficient; same errors. */
+LVS_API int lvs_wigner_3j(lvs_ctx *ctx, int two_j1, int two_j2, int two_j3, int two_m1, int two_m2,
+                          int two_m3, double *out);
 
 /* @@FEATURE-DECLARATIONS@@ (features add their sections above this line) */
 

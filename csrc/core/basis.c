@@ -21,6 +21,8 @@ struct lvs_basis {
   size_t n, m;       /* visible and stored dimension */
   size_t pad;        /* oscillator padding */
   int twoS;          /* spin */
+  lvsi_basis_op_fn kop; /* operators of a kind defined in its own file */
+  double kpar[LVSI_BASIS_NPAR]; /* that kind's parameters */
   size_t nsites;
   lvs_basis **sites; /* product: owned copies */
   size_t nlab;
@@ -128,6 +130,8 @@ static int basis_copy(const lvs_basis *a, lvs_basis **out) {
   b->m = a->m;
   b->pad = a->pad;
   b->twoS = a->twoS;
+  b->kop = a->kop;
+  memcpy(b->kpar, a->kpar, sizeof b->kpar);
   if (a->vis) {
     b->vis = lvsi_malloc(a->ctx, a->n * sizeof(size_t));
     if (!b->vis) goto nomem;
@@ -234,6 +238,26 @@ double lvs_basis_label(const lvs_basis *b, size_t s, size_t k) {
 }
 int lvsi_basis_twoS(const lvs_basis *b) { return b->twoS; }
 
+/* A basis of a kind defined in its own file (box.c, rotor.c): n states,
+ * nlab labels named names[], all zero until lvsi_basis_set_label; op hands
+ * out the kind's operators (identity is handled here); par[0..npar-1] are
+ * kept and copied with the basis. */
+int lvsi_basis_new_kind(lvs_ctx *ctx, lvs_basis_kind kind, size_t n, size_t nlab,
+                        const char *const *names, lvsi_basis_op_fn op, const double *par,
+                        size_t npar, lvs_basis **out) {
+  *out = NULL;
+  if (n == 0 || npar > LVSI_BASIS_NPAR) return lvsi_fail(ctx, LVS_EINVAL, "invalid basis kind setup");
+  int st = basis_alloc(ctx, kind, n, nlab, out);
+  if (st) return st;
+  for (size_t k = 0; k < nlab; k++) snprintf((*out)->names[k], LABEL_LEN, "%s", names[k]);
+  (*out)->kop = op;
+  for (size_t k = 0; k < npar; k++) (*out)->kpar[k] = par[k];
+  return LVS_OK;
+}
+void lvsi_basis_set_label(lvs_basis *b, size_t s, size_t k, double v) { b->labels[s * b->nlab + k] = v; }
+const double *lvsi_basis_par(const lvs_basis *b) { return b->kpar; }
+lvs_ctx *lvsi_basis_ctx(const lvs_basis *b) { return b->ctx; }
+
 /* The stored (unpadded, plain) operator of a single basis. */
 static int single_op(const lvs_basis *b, const char *name, lvs_matrix **out, long *band) {
   lvs_ctx *ctx = b->ctx;
@@ -252,6 +276,7 @@ static int single_op(const lvs_basis *b, const char *name, lvs_matrix **out, lon
     *out = c;
     return LVS_OK;
   }
+  if (b->kop) return b->kop(b, name, out, band);
   if (b->kind == LVS_BASIS_OSCILLATOR) {
     int which = !strcmp(name, "lower") ? 0 : !strcmp(name, "raise") ? 1 : !strcmp(name, "x") ? 2
               : !strcmp(name, "p") ? 3 : !strcmp(name, "number") ? 4 : -1;

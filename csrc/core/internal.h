@@ -59,5 +59,14 @@ LVSI int lvsi_to_dense(const lvs_matrix *a, lvs_matrix **out);
 
 LVSI int lvsi_check_hermitian(const lvs_matrix *h, double tol, const char *what);
 LVSI int lvsi_basis_twoS(const lvs_basis *b);
+/* basis kinds defined in their own files (box.c, rotor.c); see basis.c */
+#define LVSI_BASIS_NPAR 4
+typedef int (*lvsi_basis_op_fn)(const lvs_basis *b, const char *name, lvs_matrix **out, long *band);
+LVSI int lvsi_basis_new_kind(lvs_ctx *ctx, lvs_basis_kind kind, size_t n, size_t nlab,
+                             const char *const *names, lvsi_basis_op_fn op, const double *par,
+                             size_t npar, lvs_basis **out);
+LVSI void lvsi_basis_set_label(lvs_basis *b, size_t s, size_t k, double v);
+LVSI const double *lvsi_basis_par(const lvs_basis *b);
+LVSI lvs_ctx *lvsi_basis_ctx(const lvs_basis *b);
 
 #endif
