@@ -1,0 +1,337 @@
+-- The physics of the recipes: each model against a published closed form.
+local ls = require "levelshift"
+
+local function rel(expected, got, tol, what)
+  local r = math.abs(got - expected) / math.max(math.abs(expected), 1e-300)
+  assert(r <= tol, string.format("%s: expected %.15g, got %.15g (relative %.3g > %.3g)",
+    what or "value", expected, got, r, tol))
+end
+
+local function near(expected, got, tol, what)
+  assert(math.abs(got - expected) <= tol, string.format("%s: expected %.15g, got %.15g (|diff| %.3g > %.3g)",
+    what or "value", expected, got, math.abs(got - expected), tol))
+end
+
+local function sorted(t)
+  local c = {}
+  for i, v in ipairs(t) do c[i] = v end
+  table.sort(c)
+  return c
+end
+
+describe("recipe anharmonic", function()
+  it("reproduces the Bender-Wu quartic coefficients of the ground state", function()
+    local g = 0.0385
+    local m = ls.recipe("anharmonic", { quartic = g, levels = 60 })
+    local s = ls.perturb(m.H0, m.V, { order = 4, levels = { 1 } })
+    -- source: Bender & Wu, Phys. Rev. 184, 1231 (1969): E0 = 1/2 + 3/4 g - 21/8 g^2
+    -- + 333/16 g^3 - 30885/128 g^4 + ... for p^2/2 + x^2/2 + g x^4
+    local c = { 3 / 4, -21 / 8, 333 / 16, -30885 / 128 }
+    rel(0.5, s:energy(1, 0), 1e-14, "E0")
+    for k = 1, 4 do rel(c[k] * g ^ k, s:energy(1, k), 1e-10, "order " .. k) end
+  end)
+
+  it("gives the quartic and cubic second order of every low level", function()
+    local q, k3 = 0.0213, 0.0371
+    local m = ls.recipe("anharmonic", { quartic = q, cubic = k3, levels = 40 })
+    local s = ls.perturb(m.H0, m.V, { order = 2, levels = { 1, 2, 3, 4, 5, 6 } })
+    for level = 1, 6 do
+      local n = level - 1
+      -- source: Bender & Wu (1969), level n: E1 = (3/4)(2n^2+2n+1) g,
+      -- E2 = -(1/8)(34n^3+51n^2+59n+21) g^2 (x^4 term);
+      -- Landau & Lifshitz, Quantum Mechanics, sec. 38 problem 3: E2 = -(1/8)(30n^2+30n+11) k^2 (x^3 term);
+      -- parity removes the cross term
+      local e1 = 0.75 * (2 * n * n + 2 * n + 1) * q
+      local e2 = -(34 * n ^ 3 + 51 * n ^ 2 + 59 * n + 21) * q ^ 2 / 8 - (30 * n ^ 2 + 30 * n + 11) * k3 ^ 2 / 8
+      rel(e1, s:energy(level, 1), 1e-12, "E1 n=" .. n)
+      rel(e2, s:energy(level, 2), 1e-11, "E2 n=" .. n)
+    end
+  end)
+
+  it("scales with omega (E1 ~ g/omega^2 for x^4)", function()
+    local w, g = 1.73, 0.0517
+    local m = ls.recipe("anharmonic", { quartic = g, omega = w, levels = 30 })
+    local s = ls.perturb(m.H0, m.V, { order = 1, levels = { 1 } })
+    -- source: <0|x^4|0> = 3/(4 omega^2) for mass 1, hbar 1 (common practice)
+    rel(w / 2, s:energy(1, 0), 1e-14, "E0")
+    rel(3 * g / (4 * w ^ 2), s:energy(1, 1), 1e-12, "E1")
+  end)
+end)
+
+describe("recipe coupled_modes", function()
+  it("matches the normal-mode ground energy and its second order", function()
+    local w1, w2, c = 1.13, 1.71, 0.287
+    local m = ls.recipe("coupled_modes", { omega1 = w1, omega2 = w2, coupling = c, levels = 16 })
+    local Om = m.normal_modes()
+    -- source: diagonalizing the quadratic potential (common practice):
+    -- Omega^2 = (w1^2 + w2^2)/2 -/+ sqrt(((w1^2 - w2^2)/2)^2 + c^2), E0 = (Omega- + Omega+)/2
+    local m2 = (w1 ^ 2 + w2 ^ 2) / 2
+    local r = math.sqrt(((w1 ^ 2 - w2 ^ 2) / 2) ^ 2 + c ^ 2)
+    rel(math.sqrt(m2 - r), Om[1], 1e-14)
+    local E = ls.eigen(m.H0 + m.V, { count = 2, vectors = false })
+    rel((Om[1] + Om[2]) / 2, E[1], 1e-10, "exact ground")
+    rel((Om[1] + Om[2]) / 2 + Om[1], E[2], 1e-9, "first excited = E0 + Omega-")
+    local s = ls.perturb(m.H0, m.V, { order = 2, levels = { 1 } })
+    -- second order: only |1,1> is reached, <00|x1 x2|11> = 1/(2 sqrt(w1 w2)) (common practice)
+    rel(-c ^ 2 / (4 * w1 * w2 * (w1 + w2)), s:energy(1, 2), 1e-12, "E2")
+  end)
+
+  it("refuses an unbounded potential", function()
+    assert.error_matches(function() ls.recipe("coupled_modes", { omega1 = 1, omega2 = 0.5, coupling = 0.6 }) end,
+      "recipe 'coupled_modes': coupling^2 = 0.36 must be below (omega1 omega2)^2 = 0.25", 1, true)
+  end)
+end)
+
+describe("recipe zeeman", function()
+  it("gives g mu_B B m for S = 3/2 in a tilted field", function()
+    local B, g = 0.4127, 2.0023193
+    local m = ls.recipe("zeeman", { spin = 1.5, field = B, theta = 37.5, phi = 121, gfactor = g, energy_unit = "GHz" })
+    -- source: Zeeman levels g mu_B B m, m = -S..S (common practice); mu_B/h = 13.996 244 936 1 GHz/T
+    -- (CODATA 2018, Tiesinga et al., Rev. Mod. Phys. 93, 025010 (2021))
+    local step = g * 13.9962449361 * B
+    local E = ls.eigen(m.H0 + m.V, { vectors = false })
+    local s = ls.perturb(m.H0, m.V, { order = 2 })
+    for i = 1, 4 do
+      local mm = i - 1 - 1.5
+      rel(step * mm, E[i], 1e-10, "exact m=" .. mm)
+      rel(step * mm, s:energy(i, 1), 1e-10, "first order m=" .. mm)
+      near(0, s:energy(i, 2), 1e-9 * step, "second order")
+      rel(step * mm, m.exact(i), 1e-10, "model.exact")
+    end
+  end)
+
+  it("takes the field as a frequency or in gauss", function()
+    local a = ls.recipe("zeeman", { field = 9.5, field_unit = "GHz", gfactor = 2, energy_unit = "MHz" })
+    local E = ls.eigen(a.V, { vectors = false })
+    rel(19000, E[2] - E[1], 1e-13, "field given as mu_B B in GHz")     -- g = 2, S = 1/2: splitting 2 * mu_B B
+    local b = ls.recipe("zeeman", { field = 1000, field_unit = "G", gfactor = 2, energy_unit = "GHz" })
+    E = ls.eigen(b.V, { vectors = false })
+    rel(2 * 1.39962449361, E[2] - E[1], 1e-10, "0.1 T") -- mu_B/h in GHz/T, CODATA 2018
+  end)
+end)
+
+describe("recipe hyperfine", function()
+  -- source: Breit & Rabi, Phys. Rev. 38, 2082 (1931), for H = A I.S + gS mu_B B Sz + gI mu_B B Iz:
+  -- dW = A (I + 1/2), x = (gS - gI) mu_B B / dW,
+  -- E(m) = -dW/(2(2I+1)) + gI mu_B B m +- (dW/2) sqrt(1 + 4 m x/(2I+1) + x^2);
+  -- for m = -(I+1/2) the root is taken as (1 - x). Here gI mu_B = -nuclear_g mu_N.
+  local function breit_rabi(A, I, bS, bI)
+    -- bS = gS mu_B B, bI = gI mu_B B (energies)
+    local dW = A * (I + 0.5)
+    local x = (bS - bI) / dW
+    local out = {}
+    local mtop = I + 0.5
+    for twom = -2 * mtop, 2 * mtop, 2 do
+      local mm = twom / 2
+      local base = -dW / (2 * (2 * I + 1)) + bI * mm
+      if math.abs(mm) == mtop then
+        local root = mm > 0 and (1 + x) or (1 - x)
+        out[#out + 1] = base + dW / 2 * root
+      else
+        local root = math.sqrt(1 + 4 * mm * x / (2 * I + 1) + x * x)
+        out[#out + 1] = base + dW / 2 * root
+        out[#out + 1] = base - dW / 2 * root
+      end
+    end
+    table.sort(out)
+    return out
+  end
+
+  it("follows the Breit-Rabi formula for S = 1/2, I = 1/2 over a range of fields", function()
+    local u = ls.units
+    local A = 1420.405751768 -- MHz, hydrogen 1s (from memory)
+    for _, B in ipairs({ 0, 0.0007, 0.013, 0.0507, 0.2, 1.3 }) do
+      local m = ls.recipe("hyperfine", { field = B })
+      local muB = u.convert(B, "T", "MHz")
+      local bS = 2.00231930436256 * muB
+      local bI = -5.5856946893 * muB * u.mu_N / u.mu_B
+      local ref = breit_rabi(A, 0.5, bS, bI)
+      local E = ls.eigen(m.H0 + m.V, { vectors = false })
+      for i = 1, 4 do near(ref[i], E[i], 1e-9 * A, string.format("B=%g T level %d", B, i)) end
+    end
+  end)
+
+  it("follows the Breit-Rabi formula for I = 3/2", function()
+    local u = ls.units
+    local A, B, gn = 341.78, 0.0217, 1.4782 -- invented values
+    local m = ls.recipe("hyperfine", { nuclear_spin = 1.5, hyperfine = A, field = B, nuclear_g = gn })
+    local muB = u.convert(B, "T", "MHz")
+    local ref = breit_rabi(A, 1.5, 2.00231930436256 * muB, -gn * muB * u.mu_N / u.mu_B)
+    local E = ls.eigen(m.H0 + m.V, { vectors = false })
+    assert.are.equal(8, #E)
+    for i = 1, 8 do near(ref[i], E[i], 1e-9 * A, "level " .. i) end
+  end)
+
+  it("splits F = 0 and F = 1 by A at zero field", function()
+    local m = ls.recipe("hyperfine", { hyperfine = 2.71, field = 0 })
+    local E = ls.eigen(m.H0, { vectors = false })
+    -- source: A S.I = (A/2)(F(F+1) - S(S+1) - I(I+1)): -3A/4 and A/4 (common practice)
+    rel(-3 * 2.71 / 4, E[1], 1e-14)
+    for i = 2, 4 do rel(2.71 / 4, E[i], 1e-14) end
+  end)
+end)
+
+describe("recipe spin_defect", function()
+  it("has zero-field levels 0, D - E, D + E for S = 1", function()
+    local D, E = 2.3917, 0.1385
+    local m = ls.recipe("spin_defect", { zfs_d = D, zfs_e = E, nuclear_spin = 0, field = 0, energy_unit = "GHz" })
+    local L = ls.eigen(m.H0 + m.V, { vectors = false })
+    -- source: Abragam & Bleaney, Electron Paramagnetic Resonance of Transition Ions (1970):
+    -- D(Sz^2 - 2/3) + E(Sx^2 - Sy^2) for S = 1 has levels -2D/3, D/3 - E, D/3 + E
+    rel(-2 * D / 3, L[1], 1e-13)
+    rel(D - E, L[2] - L[1], 1e-13)
+    rel(D + E, L[3] - L[1], 1e-13)
+  end)
+
+  it("splits S = 3/2 into two Kramers doublets 2 sqrt(D^2 + 3E^2) apart", function()
+    local D, E = 1.173, 0.217
+    local m = ls.recipe("spin_defect", { spin = 1.5, zfs_d = D, zfs_e = E, nuclear_spin = 0, field = 0 })
+    local L = ls.eigen(m.H0, { vectors = false })
+    -- source: Abragam & Bleaney (1970), S = 3/2 zero-field splitting 2 sqrt(D^2 + 3 E^2)
+    near(0, L[2] - L[1], 1e-12)
+    near(0, L[4] - L[3], 1e-12)
+    rel(2 * math.sqrt(D ^ 2 + 3 * E ^ 2), L[3] - L[1], 1e-12)
+  end)
+
+  it("moves m = +-1 by +-g mu_B B at first order in a field along z", function()
+    local m = ls.recipe("spin_defect", { zfs_d = 2710, zfs_e = 0, nuclear_spin = 0, field = 1.7, theta = 0,
+      gfactor = 2.0028, energy_unit = "MHz", field_unit = "mT" })
+    local s = ls.perturb(m.H0, m.V, { order = 2 })
+    local b = 2.0028 * 13.9962449361 * 1.7 -- MHz: g mu_B B, mu_B/h = 13.996 GHz/T (CODATA 2018)
+    -- levels 2, 3 are the m = +-1 pair at D/3; within the split group by ascending correction
+    rel(-b, s:energy(2, 1), 1e-10)
+    rel(b, s:energy(3, 1), 1e-10)
+    near(0, s:energy(1, 1), 1e-12)
+  end)
+
+  it("adds the hyperfine term: m_S = +-1 lines split by A_par", function()
+    local Ap = 3.1
+    local m = ls.recipe("spin_defect", { zfs_d = 2710, zfs_e = 0, hyperfine_par = Ap, hyperfine_perp = 0,
+      field = 0, nuclear_spin = 0.5 })
+    local L = ls.eigen(m.H0, { vectors = false })
+    -- source: first-order hyperfine A_par m_S m_I (common practice); m_S = 0 unshifted
+    rel(-2 * 2710 / 3, L[1], 1e-13)
+    rel(2710 / 3 - Ap / 2, L[3], 1e-13)
+    rel(2710 / 3 + Ap / 2, L[5], 1e-13)
+    assert.are.equal(6, #L)
+  end)
+end)
+
+describe("recipe exchange_pair and spin_chain", function()
+  it("gives the Lande interval rule for S1 = 1, S2 = 3/2", function()
+    local J = 0.731
+    local m = ls.recipe("exchange_pair", { spin1 = 1, spin2 = 1.5, exchange = J, field = 0 })
+    local L = ls.eigen(m.H0, { vectors = false })
+    -- source: J S1.S2 = (J/2)(S(S+1) - S1(S1+1) - S2(S2+1)), S = 1/2 .. 5/2 (common practice)
+    local ref = {}
+    for _, S in ipairs({ 0.5, 1.5, 2.5 }) do
+      for _ = 1, 2 * S + 1 do ref[#ref + 1] = J / 2 * (S * (S + 1) - 2 - 3.75) end
+    end
+    ref = sorted(ref)
+    assert.are.equal(12, #L)
+    for i = 1, 12 do rel(ref[i], L[i], 1e-12, "level " .. i) end
+  end)
+
+  it("splits the triplet by g mu_B B m at first order", function()
+    local m = ls.recipe("exchange_pair", { exchange = 1.37, field = 0.0413, gfactor1 = 2, gfactor2 = 2 })
+    local s = ls.perturb(m.H0, m.V, { order = 2 })
+    -- source: singlet -3J/4, triplet J/4 (common practice); Zeeman 2 * field * M
+    rel(-0.75 * 1.37, s:energy(1, 0), 1e-13)
+    rel(-2 * 0.0413, s:energy(2, 1), 1e-12)
+    near(0, s:energy(3, 1), 1e-13)
+    rel(2 * 0.0413, s:energy(4, 1), 1e-12)
+  end)
+
+  it("has E0 = -2J for a ring of four spins 1/2 and equals the pair for two sites", function()
+    local J = 1.29
+    local m = ls.recipe("spin_chain", { sites = 4, exchange = J, boundary = "periodic" })
+    local L = ls.eigen(m.H0 + m.V, { vectors = false })
+    -- source: sum S_i.S_i+1 = S_A.S_B on a 4-ring, lowest at S_A = S_B = 1, S = 0: -2J (common practice)
+    rel(-2 * J, L[1], 1e-12)
+    local c = ls.recipe("spin_chain", { sites = 2, exchange = J, anisotropy = 0.37, field = 0.11 })
+    local p = ls.recipe("exchange_pair", { exchange = J, anisotropy = 0.37, field = 0.055 })
+    local a = ls.eigen(c.H0 + c.V, { vectors = false })
+    local b = ls.eigen(p.H0 + p.V, { vectors = false })
+    for i = 1, 4 do rel(b[i], a[i], 1e-12) end
+  end)
+
+  it("limits the chain size with a clear message", function()
+    assert.error_matches(function() ls.recipe("spin_chain", { sites = 8, spin = 1.5 }) end,
+      "recipe 'spin_chain': (2 spin + 1)^sites = 4^8 = 65536 states is above the limit of 4096", 1, true)
+    assert.error_matches(function() ls.recipe("spin_chain", { sites = 2, boundary = "periodic" }) end,
+      "a periodic chain needs at least 3 sites", 1, true)
+  end)
+end)
+
+describe("recipe qubit_mode", function()
+  it("has the Jaynes-Cummings spectrum", function()
+    local wq, wm, g = 1.173, 0.981, 0.0437
+    local m = ls.recipe("qubit_mode", { omega_qubit = wq, omega_mode = wm, coupling = g, levels = 12 })
+    local E = ls.eigen(m.H0 + m.V, { vectors = false })
+    -- source: Jaynes & Cummings, Proc. IEEE 51, 89 (1963): E(g,0) = -wq/2,
+    -- pairs wm (n + 1/2) -/+ sqrt((wq - wm)^2/4 + g^2 (n + 1))
+    local ref = { -wq / 2 }
+    for n = 0, 9 do
+      local a, b = m.jc_pair(n)
+      ref[#ref + 1] = a
+      ref[#ref + 1] = b
+      local r = math.sqrt((wq - wm) ^ 2 / 4 + g ^ 2 * (n + 1))
+      rel(wm * (n + 0.5) - r, a, 1e-14)
+    end
+    ref = sorted(ref)
+    for i = 1, #ref do rel(ref[i], E[i], 1e-12, "level " .. i) end
+  end)
+
+  it("gives the dispersive shift chi = g^2/Delta through ls.effective", function()
+    local wq, wm, g = 1.371, 1.0, 0.0213
+    local m = ls.recipe("qubit_mode", { omega_qubit = wq, omega_mode = wm, coupling = g })
+    local lg, le = m.level("g", 0), m.level("e", 0)
+    local h = ls.effective(m.H0, m.V, { levels = { lg, le }, order = 2 })
+    local E = ls.eigen(h:at(1), { vectors = false })
+    -- source: dispersive limit of Jaynes-Cummings (Blais et al., Phys. Rev. A 69, 062320 (2004)):
+    -- qubit frequency wq + g^2/Delta, Delta = wq - wm
+    rel(wq + g ^ 2 / (wq - wm), E[2] - E[1], 1e-12)
+    local e2, g3 = m.level("e", 2), m.level("g", 3)
+    local s = ls.perturb(m.H0, m.V, { order = 2, levels = { e2, g3 } })
+    rel(3 * g ^ 2 / (wq - wm), s:energy(e2, 2), 1e-12)
+    rel(-3 * g ^ 2 / (wq - wm), s:energy(g3, 2), 1e-12)
+  end)
+
+  it("adds the Bloch-Siegert shift in the Rabi form", function()
+    local wq, wm, g = 1.371, 1.0, 0.0213
+    local m = ls.recipe("qubit_mode", { omega_qubit = wq, omega_mode = wm, coupling = g, form = "rabi" })
+    local lg, le = m.level("g", 0), m.level("e", 0)
+    local s = ls.perturb(m.H0, m.V, { order = 2, levels = { lg, le } })
+    -- source: Bloch & Siegert, Phys. Rev. 57, 522 (1940): counter-rotating terms add
+    -- g^2/(wq + wm) to the qubit frequency (second order)
+    local shift = s:energy(le, 2) - s:energy(lg, 2)
+    rel(g ^ 2 / (wq - wm) + g ^ 2 / (wq + wm), shift, 1e-12)
+    assert.error_matches(function() m.level("x", 0) end, "qubit state must be \"e\" or \"g\"", 1, true)
+    assert.error_matches(function() m.level("e", 99) end, "photon number must be an integer from 0 to 19", 1, true)
+  end)
+end)
+
+describe("recipe parameters", function()
+  local function bad(name, p, text)
+    assert.error_matches(function() ls.recipe(name, p) end, text, 1, true)
+  end
+  it("refuses spins that are not multiples of 1/2", function()
+    bad("zeeman", { spin = 0.3 }, "recipe 'zeeman': parameter 'spin' must be a multiple of 1/2 (got 0.3)")
+    bad("spin_defect", { nuclear_spin = 0.7 }, "parameter 'nuclear_spin' must be a multiple of 1/2 (got 0.7)")
+    bad("spin_defect", { nuclear_spin = -0.5 }, "parameter 'nuclear_spin' must not be negative (got -0.5)")
+    bad("exchange_pair", { spin2 = 0 }, "parameter 'spin2' must be a positive multiple of 1/2 (got 0)")
+    bad("hyperfine", { nuclear_spin = 1.25 }, "parameter 'nuclear_spin' must be a multiple of 1/2 (got 1.25)")
+  end)
+  it("refuses negative masses and frequencies", function()
+    bad("linear_force", { mass = -1.5 }, "recipe 'linear_force': parameter 'mass' must be positive (got -1.5)")
+    bad("anharmonic", { omega = -1 }, "recipe 'anharmonic': parameter 'omega' must be positive (got -1)")
+    bad("qubit_mode", { omega_mode = 0 }, "parameter 'omega_mode' must be positive (got 0)")
+    bad("coupled_modes", { omega2 = -0.2 }, "parameter 'omega2' must be positive (got -0.2)")
+  end)
+  it("lists the accepted names and choices", function()
+    bad("zeeman", { S = 1 }, "recipe 'zeeman': unknown parameter 'S' (accepted: spin, field, field_unit, theta, phi, gfactor, energy_unit)")
+    bad("zeeman", { field_unit = "tesla" }, "parameter 'field_unit' must be one of T, mT, uT, G, GHz")
+    bad("qubit_mode", { form = "dicke" }, "parameter 'form' must be one of jc, rabi (got dicke)")
+    bad("spin_chain", { boundary = "ring" }, "parameter 'boundary' must be one of open, periodic (got ring)")
+  end)
+end)
