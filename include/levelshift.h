@@ -285,10 +285,24 @@ typedef struct {
 typedef struct lvs_transition lvs_transition;
 /* CONSTRUCTOR: perturbative amplitudes to every level. */
 LVS_API int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *spec, lvs_transition **out);
-/* CONSTRUCTOR: the same transition by 4th-order Magnus propagation of the
- * full H(t) (steps = 0: the grid of tr). src supplies callbacks again (the
- * C pulse is kept by tr). Adds a warning to tr when the two disagree. */
-LVS_API int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, size_t steps,
+/* How tr:exact propagates. method: LVS_EXACT_AUTO (RK4 in the interaction
+ * picture for pulse(t) * V, Magnus-4 for a V(t) callback), LVS_EXACT_RK4,
+ * LVS_EXACT_MAGNUS4. tol = 0: steps fixed (0 = the grid of tr), error from
+ * steps/2; tol > 0: from steps (0 = estimated from the Bohr frequencies
+ * V couples) the count grows (x2, then as the error constant predicts,
+ * x2..x16) until the Richardson estimate |c_m - c_m'|/((m/m')^4 - 1) of
+ * every amplitude is <= tol, up to LVS_EXACT_MAX_STEPS (then LVS_ENOCONV). */
+enum { LVS_EXACT_AUTO = 0, LVS_EXACT_RK4 = 1, LVS_EXACT_MAGNUS4 = 2 };
+#define LVS_EXACT_MAX_STEPS (1 << 24)
+typedef struct {
+  int method;
+  size_t steps;
+  double tol;
+} lvs_exact_spec;
+/* CONSTRUCTOR: the same transition by propagating the full H(t) (es NULL:
+ * defaults). src supplies callbacks again (the C pulse is kept by tr). Adds
+ * a warning to tr when the two disagree. */
+LVS_API int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, const lvs_exact_spec *es,
                                  lvs_transition **out);
 LVS_API void lvs_transition_free(lvs_transition *tr);
 LVS_API size_t lvs_transition_dim(const lvs_transition *tr);
@@ -308,6 +322,8 @@ LVS_API int lvs_basis_custom(lvs_ctx *ctx, size_t n, size_t nlab, const char *co
                              const double *labels, lvs_basis **out);
 LVS_API int lvs_basis_custom_op(lvs_basis *b, const char *name, const lvs_matrix *op);
 /* Hydrogen-like atom (atomic units, charge Z) in Coulomb-Sturmian (Laguerre)
+/* steps used: the grid of a perturbative result, the final count of an exact one */
+LVS_API size_t lvs_transition_steps(const lvs_transition *tr);
  * functions r^(l+1) e^(-kappa r) L_k^(2l+1)(2 kappa r), k = 0..nfun-1, for
  * l = 0..lmax. CONSTRUCTOR: a custom basis of the eigenstates of the
  * field-free H0 inside that space, with labels n (l + 1 + rank in energy

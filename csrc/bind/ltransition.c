@@ -7,7 +7,8 @@
  *     V an op with pulse (a pulse or a Lua function of t), or V a Lua
  *     function of t returning an op (then no pulse).
  *   tr:amplitude(to [, order]) -> re, im; tr:probability(to [, order]);
- *   tr:error(to); tr:exact([steps]); tr:warnings(); tr:energies(); tr:dim()
+ *   tr:error(to); tr:exact([steps | {steps=, tol=, method=}]); tr:steps();
+ *   tr:warnings(); tr:energies(); tr:dim()
  */
 #include <math.h>
 #include <stdio.h>
@@ -358,14 +359,49 @@ static int t_error(lua_State *L) {
   return 1;
 }
 
+/* tr:exact([steps | {steps=, tol=, method=}]); the default call is cached. */
 static int t_exact(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_transition *tr = checktr(L, 1);
   if (lvs_transition_order(tr) == 0) return luaL_error(L, "exact: this is already an exact result");
-  lua_Integer steps = luaL_optinteger(L, 2, 0);
-  if (steps < 0 || steps > 100000000) return luaL_argerror(L, 2, "steps must be from 8 to 1e8");
+  lvs_exact_spec es = {LVS_EXACT_AUTO, 0, 0.0};
+  int dflt = lua_isnoneornil(L, 2);
+  if (lua_istable(L, 2)) {
+    static const char *const known[] = {"steps", "tol", "method", NULL};
+    static const char *const methods[] = {"auto", "rk4", "magnus4", NULL};
+    lvsL_checkoptions(L, 2, known, "exact", 1);
+    lua_Integer steps = lvsL_optfield_int(L, 2, "steps", 0, "exact", 1);
+    if (steps < 0 || steps > LVS_EXACT_MAX_STEPS)
+      return luaL_error(L, "bad argument #1 to 'exact' (steps must be from 8 to %d, got %d)", (int)LVS_EXACT_MAX_STEPS,
+                        (int)steps);
+    es.steps = (size_t)steps;
+    lua_getfield(L, 2, "tol");
+    if (!lua_isnil(L, -1)) {
+      if (!lua_isnumber(L, -1))
+        return luaL_error(L, "bad argument #1 to 'exact' (field 'tol' must be a number, got %s)", luaL_typename(L, -1));
+      es.tol = lua_tonumber(L, -1);
+      if (!(es.tol > 0) || isinf(es.tol))
+        return luaL_error(L, "bad argument #1 to 'exact' (field 'tol' must be a positive number, got %g)", es.tol);
+    }
+    lua_pop(L, 1);
+    lua_getfield(L, 2, "method");
+    if (!lua_isnil(L, -1)) {
+      const char *m = lua_tostring(L, -1);
+      int k = -1;
+      for (int q = 0; m && methods[q]; q++)
+        if (strcmp(m, methods[q]) == 0) k = q;
+      if (k < 0 || lua_type(L, -1) != LUA_TSTRING)
+        return luaL_error(L, "bad argument #1 to 'exact' (field 'method' must be 'auto', 'rk4' or 'magnus4')");
+      es.method = k == 0 ? LVS_EXACT_AUTO : k == 1 ? LVS_EXACT_RK4 : LVS_EXACT_MAGNUS4;
+    }
+    lua_pop(L, 1);
+  } else if (!dflt) {
+    lua_Integer steps = luaL_checkinteger(L, 2);
+    if (steps < 8 || steps > LVS_EXACT_MAX_STEPS) return luaL_argerror(L, 2, "steps must be from 8 to 16777216");
+    es.steps = (size_t)steps;
+  }
   lua_settop(L, 2);
-  if (steps == 0) {
+  if (dflt) {
     lua_getiuservalue(L, 1, 3);
     if (!lua_isnil(L, -1)) return 1; /* cached */
     lua_pop(L, 1);
@@ -380,13 +416,25 @@ static int t_exact(lua_State *L) {
   cb.n = lvs_transition_dim(tr);
   lvs_transition_source src = {kind == 1 ? cb_pulse : NULL, kind == 2 ? cb_field : NULL, &cb};
   lvs_transition **out = newtr(L); /* 5 */
-  int st = lvs_transition_exact(tr, &src, (size_t)steps, out);
+  int st = lvs_transition_exact(tr, &src, &es, out);
+  if (st == LVS_ENOCONV) { /* an expected numerical failure: nil, msg, code */
+    lua_pushnil(L);
+    lua_pushfstring(L, "exact: %s", lvs_errmsg(ctx));
+    lua_pushinteger(L, st);
+    lvs_clear_error(ctx);
+    return 3;
+  }
   raise_cb(L, ctx, st, &cb, "exact");
-  if (steps == 0) {
+  if (dflt) {
     lua_pushvalue(L, 5);
     lua_setiuservalue(L, 1, 3);
   }
   lua_settop(L, 5);
+  return 1;
+}
+
+static int t_steps(lua_State *L) {
+  lua_pushinteger(L, (lua_Integer)lvs_transition_steps(checktr(L, 1)));
   return 1;
 }
 
@@ -462,7 +510,7 @@ void lvsL_open_transition(lua_State *L, int ctxidx) {
   lua_newtable(L);
   static const luaL_Reg tm[] = {{"amplitude", t_amplitude}, {"probability", t_probability}, {"error", t_error},
                                 {"exact", t_exact},         {"warnings", t_warnings},       {"dim", t_dim},
-                                {"energies", t_energies},   {NULL, NULL}};
+                                {"energies", t_energies},   {"steps", t_steps},             {NULL, NULL}};
   lvsL_setfuncs(L, tm, ctxidx);
   lua_setfield(L, -2, "_methods");
   lua_pop(L, 1);

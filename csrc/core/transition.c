@@ -11,14 +11,32 @@
  * Second order: c1_m(t) by cumulative linear Filon on each interval (exact
  * in the oscillation, second order in W), then the outer integral the same
  * way (Dyson, Phys. Rev. 75, 486 (1949)); error again from halving.
- * Exact: 4th-order Magnus (Blanes, Casas, Oteo, Ros, Phys. Rep. 470, 151
- * (2009)) with two Gauss nodes per step, exp(-iK) by zheev per step.
+ * Exact, pulse(t) * V: the classical 4th-order Runge-Kutta method on the
+ * interaction-picture equation i dc/dt = p(t) D(t) V D(t)^* c, D = e^{iEt}
+ * (Kutta, Z. Math. Phys. 46, 435 (1901)); V is kept as a list of its nonzero
+ * entries, D by a recurrence on the half-step grid. With a tolerance the step
+ * count grows until the Richardson estimate |c_m - c_m'|/((m/m')^4 - 1) is
+ * below it (Richardson, Phil. Trans. R. Soc. A 210, 307 (1911)).
+ * Exact, V(t) from a callback (or on request): 4th-order Magnus (Blanes,
+ * Casas, Oteo, Ros, Phys. Rep. 470, 151 (2009)) with two Gauss nodes per
+ * step, exp(-iK) by zheev per step.
  */
 #include <lapacke.h>
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
 #include "internal.h"
+#if defined(__SSE2__)
+#include <xmmintrin.h>
+/* Flush-to-zero and denormals-are-zero for the duration of a propagation:
+ * amplitudes far out in a truncated basis decay below 1e-308, and denormal
+ * arithmetic is up to 100x slower on x86; the change is below 1e-307. */
+#define FTZ_ON(saved) ((saved) = _mm_getcsr(), _mm_setcsr((saved) | 0x8040u))
+#define FTZ_OFF(saved) _mm_setcsr(saved)
+#else
+#define FTZ_ON(saved) ((void)((saved) = 0))
+#define FTZ_OFF(saved) ((void)(saved))
+#endif
 
 enum { P_GAUSS, P_SQUARE, P_SINE, P_RAMP, P_SUM };
 
@@ -168,12 +186,15 @@ struct lvs_transition {
   int order, exact;
   double t0, t1;
   double *E;            /* energies, ascending */
-  double complex *U;    /* n x n eigenvectors of H0 (columns), col-major */
+  double complex *U;    /* n x n eigenvectors of H0 (columns), col-major; NULL when
+                           H0 is diagonal (then perm maps level -> input index) */
   double complex *V;    /* V in the eigenbasis (NULL for a field) */
+  size_t nnz, *vi, *vp; /* nonzeros of V by column: rows vi[vp[j]..vp[j+1]) */
+  double complex *vv;   /* their values */
   lvs_pulse *pulse;     /* copy, or NULL */
   double complex *a[3]; /* amplitudes by order (a[0] = delta) or exact in a[0] */
   double *err;          /* error estimate per final level */
-  size_t *perm;         /* sorting permutation of a diagonal H0 (setup only) */
+  size_t *perm;         /* sorting permutation of a diagonal H0, or NULL */
   char warn[1024];
 };
 
@@ -189,6 +210,9 @@ static void tr_free(lvs_transition *tr) {
   for (int k = 0; k < 3; k++) lvsi_free(ctx, tr->a[k]);
   lvsi_free(ctx, tr->err);
   lvsi_free(ctx, tr->perm);
+  lvsi_free(ctx, tr->vi);
+  lvsi_free(ctx, tr->vp);
+  lvsi_free(ctx, tr->vv);
   lvsi_free(ctx, tr);
 }
 
@@ -225,6 +249,11 @@ static int eval_field(source_eval *s, double t, double complex *out) {
   for (size_t k = 0; k < n * n; k++)
     if (!isfinite(creal(s->tmp[k])) || !isfinite(cimag(s->tmp[k])))
       return lvsi_fail(tr->ctx, LVS_EINVAL, "transition: the perturbation has a NaN or infinite entry at t = %.17g", t);
+  if (!tr->U) { /* diagonal H0: a permutation */
+    for (size_t j = 0; j < n; j++)
+      for (size_t i = 0; i < n; i++) out[i + j * n] = s->tmp[tr->perm[i] + tr->perm[j] * n];
+    return LVS_OK;
+  }
   /* tmp2 = Vf U ; out = U^H tmp2 */
   for (size_t j = 0; j < n; j++)
     for (size_t i = 0; i < n; i++) {
@@ -271,6 +300,66 @@ static double complex filon(const double complex *f, size_t stride, size_t m, do
     ph *= step;
   }
   return acc;
+}
+
+/* All first-order Filon integrals of one real sample set at once:
+ * I1[f] = int p(t) e^{i w_f t} dt on the fine grid (N intervals of h, N a
+ * multiple of 4) and I2[f] on every second sample, for the error estimate.
+ * Time runs in the outer loop so the inner loop over levels streams through
+ * plain arrays (vectorizable); per double panel it needs only the three real
+ * Filon coefficients A, B, C and the phase at the panel centre, advanced by
+ * a recurrence and re-seeded with sin/cos every 128 panel pairs. The coarse
+ * panel (half-width 2h) centred at fine sample 2j+2 has phase ph_j e^{iwh}. */
+#if defined(__GNUC__) && !defined(__clang__) && (defined(__x86_64__) || defined(__i386__))
+__attribute__((target_clones("avx2", "default")))
+#endif
+static void filon_all_kernel(const double *restrict p, size_t N, double t0, double h, const double *restrict w,
+                             size_t n, double *restrict ws) {
+  double *phr = ws, *phi = ws + n, *s1r = ws + 2 * n, *s1i = ws + 3 * n, *s2r = ws + 4 * n, *s2i = ws + 5 * n;
+  double *S = ws + 6 * n; /* 12 sums: fine A,B,C and coarse A,B,C, re and im */
+  double *Ar = S, *Ai = S + n, *Br = S + 2 * n, *Bi = S + 3 * n, *Cr = S + 4 * n, *Ci = S + 5 * n;
+  double *Qr = S + 6 * n, *Qi = S + 7 * n, *Rr = S + 8 * n, *Ri = S + 9 * n, *Tr = S + 10 * n, *Ti = S + 11 * n;
+  for (size_t k = 0; k < 12 * n; k++) S[k] = 0;
+  for (size_t f = 0; f < n; f++) s1r[f] = cos(2 * w[f] * h), s1i[f] = sin(2 * w[f] * h);
+  for (size_t f = 0; f < n; f++) s2r[f] = s1r[f] * s1r[f] - s1i[f] * s1i[f], s2i[f] = 2 * s1r[f] * s1i[f];
+  const double i2h = 1 / (2 * h), i2h2 = 1 / (2 * h * h), i4h = 1 / (4 * h), i8h2 = 1 / (8 * h * h);
+  for (size_t j = 0; j + 4 <= N; j += 4) { /* fine panels j/2, j/2 + 1; coarse panel j/4 */
+    if (j % 512 == 0)
+      for (size_t f = 0; f < n; f++) {
+        double a = w[f] * (t0 + (double)(j + 1) * h);
+        phr[f] = cos(a), phi[f] = sin(a);
+      }
+    double f0 = p[j], f1 = p[j + 1], f2 = p[j + 2], f3 = p[j + 3], f4 = p[j + 4];
+    double A = f1, B = (f2 - f0) * i2h, C = (f2 - 2 * f1 + f0) * i2h2;
+    double A2 = f3, B2 = (f4 - f2) * i2h, C2 = (f4 - 2 * f3 + f2) * i2h2;
+    double Aq = f2, Bq = (f4 - f0) * i4h, Cq = (f4 - 2 * f2 + f0) * i8h2;
+    for (size_t f = 0; f < n; f++) {
+      double pr = phr[f], pi = phi[f];
+      double qr = pr * s1r[f] - pi * s1i[f], qi = pr * s1i[f] + pi * s1r[f];
+      Ar[f] += pr * A + qr * A2, Ai[f] += pi * A + qi * A2;
+      Br[f] += pr * B + qr * B2, Bi[f] += pi * B + qi * B2;
+      Cr[f] += pr * C + qr * C2, Ci[f] += pi * C + qi * C2;
+      Qr[f] += pr * Aq, Qi[f] += pi * Aq;
+      Rr[f] += pr * Bq, Ri[f] += pi * Bq;
+      Tr[f] += pr * Cq, Ti[f] += pi * Cq;
+      phr[f] = pr * s2r[f] - pi * s2i[f], phi[f] = pr * s2i[f] + pi * s2r[f];
+    }
+  }
+}
+
+static void filon_all(const double *p, size_t N, double t0, double h, const double *w, size_t n, double *ws,
+                      double complex *I1, double complex *I2) {
+  filon_all_kernel(p, N, t0, h, w, n, ws);
+  const double *S = ws + 6 * n;
+  for (size_t f = 0; f < n; f++) {
+    double complex M0, M1, M2, sA = S[f] + I * S[n + f], sB = S[2 * n + f] + I * S[3 * n + f],
+                               sC = S[4 * n + f] + I * S[5 * n + f];
+    filon_weights(w[f], h, &M0, &M1, &M2);
+    I1[f] = M0 * sA + M1 * sB + M2 * sC;
+    sA = S[6 * n + f] + I * S[7 * n + f], sB = S[8 * n + f] + I * S[9 * n + f], sC = S[10 * n + f] + I * S[11 * n + f];
+    filon_weights(w[f], 2 * h, &M0, &M1, &M2);
+    I2[f] = cexp(I * w[f] * h) * (M0 * sA + M1 * sB + M2 * sC);
+  }
 }
 
 /* Linear-Filon weights on one interval [0, h]: J0 = int e^{iws}, J1 = int s e^{iws} / h. */
@@ -356,6 +445,132 @@ static int second_order(lvs_transition *tr, const samples *S, size_t stride, dou
   return LVS_OK;
 }
 
+/* The nonzero pattern of V in the levels of a diagonal H0 (a permutation of
+ * the input), read straight from the op's storage: no dense n x n copy. */
+static int v_pattern_permuted(lvs_transition *tr, const lvs_matrix *v) {
+  lvs_ctx *ctx = tr->ctx;
+  size_t n = tr->n, nnz = 0;
+  size_t *iperm = lvsi_malloc(ctx, n * sizeof(size_t));
+  size_t *inv = NULL; /* stored row -> input index (visible ops) */
+  if (!iperm) return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)");
+  for (size_t k = 0; k < n; k++) iperm[tr->perm[k]] = k;
+  if (v->sparse) {
+    if (v->vis) {
+      inv = lvsi_malloc(ctx, v->rows * sizeof(size_t));
+      if (!inv) { lvsi_free(ctx, iperm); return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)"); }
+      for (size_t r = 0; r < v->rows; r++) inv[r] = SIZE_MAX;
+      for (size_t k = 0; k < n; k++) inv[v->vis[k]] = k;
+    }
+    for (size_t j = 0; j < n; j++) {
+      size_t col = v->vis ? v->vis[tr->perm[j]] : tr->perm[j];
+      for (size_t k = v->cp[col]; k < v->cp[col + 1]; k++) {
+        size_t in = inv ? inv[v->ri[k]] : v->ri[k];
+        nnz += in != SIZE_MAX && (v->a[v->cplx ? 2 * k : k] != 0 || (v->cplx && v->a[2 * k + 1] != 0));
+      }
+    }
+  } else {
+    for (size_t j = 0; j < n; j++)
+      for (size_t i = 0; i < n; i++) {
+        double re, im;
+        lvs_matrix_get(v, i, j, &re, &im);
+        nnz += re != 0 || im != 0;
+      }
+  }
+  tr->vp = lvsi_malloc(ctx, (n + 1) * sizeof(size_t));
+  tr->vi = lvsi_malloc(ctx, (nnz ? nnz : 1) * sizeof(size_t));
+  tr->vv = lvsi_malloc(ctx, (nnz ? nnz : 1) * sizeof(double complex));
+  if (!tr->vp || !tr->vi || !tr->vv) {
+    lvsi_free(ctx, iperm), lvsi_free(ctx, inv);
+    return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)");
+  }
+  nnz = 0;
+  for (size_t j = 0; j < n; j++) {
+    tr->vp[j] = nnz;
+    if (v->sparse) {
+      size_t col = v->vis ? v->vis[tr->perm[j]] : tr->perm[j];
+      for (size_t k = v->cp[col]; k < v->cp[col + 1]; k++) {
+        size_t in = inv ? inv[v->ri[k]] : v->ri[k];
+        double re = v->a[v->cplx ? 2 * k : k], im = v->cplx ? v->a[2 * k + 1] : 0;
+        if (in == SIZE_MAX || (re == 0 && im == 0)) continue;
+        tr->vi[nnz] = iperm[in], tr->vv[nnz++] = re + I * im;
+      }
+    } else {
+      for (size_t i = 0; i < n; i++) {
+        double re, im;
+        lvs_matrix_get(v, tr->perm[i], tr->perm[j], &re, &im);
+        if (re != 0 || im != 0) tr->vi[nnz] = i, tr->vv[nnz++] = re + I * im;
+      }
+    }
+  }
+  tr->vp[n] = tr->nnz = nnz;
+  lvsi_free(ctx, iperm), lvsi_free(ctx, inv);
+  return LVS_OK;
+}
+
+/* V in the eigenbasis of a non-diagonal H0 (dense), then its pattern;
+ * entries below 1e-15 of the largest are rounding left by the rotation. */
+static int v_pattern_rotated(lvs_transition *tr, const lvs_matrix *v) {
+  lvs_ctx *ctx = tr->ctx;
+  size_t n = tr->n;
+  tr->V = lvsi_malloc(ctx, n * n * sizeof(double complex));
+  double complex *tmp = lvsi_calloc(ctx, n * n, sizeof(double complex));
+  double complex *t2 = lvsi_calloc(ctx, n * n, sizeof(double complex));
+  if (!tr->V || !tmp || !t2) {
+    lvsi_free(ctx, tmp), lvsi_free(ctx, t2);
+    return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)");
+  }
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = 0; i < n; i++) {
+      double re, im;
+      lvs_matrix_get(v, i, j, &re, &im);
+      tmp[i + j * n] = re + I * im;
+    }
+  for (size_t j = 0; j < n; j++)
+    for (size_t k = 0; k < n; k++) {
+      double complex u = tr->U[k + j * n];
+      if (u == 0) continue;
+      for (size_t i = 0; i < n; i++) t2[i + j * n] += tmp[i + k * n] * u;
+    }
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = 0; i < n; i++) {
+      double complex acc = 0;
+      for (size_t k = 0; k < n; k++) acc += conj(tr->U[k + i * n]) * t2[k + j * n];
+      tr->V[i + j * n] = acc;
+    }
+  lvsi_free(ctx, tmp), lvsi_free(ctx, t2);
+  double vmax = 0;
+  for (size_t k = 0; k < n * n; k++) vmax = fmax(vmax, cabs(tr->V[k]));
+  double cut = 1e-15 * vmax;
+  size_t nnz = 0;
+  for (size_t k = 0; k < n * n; k++) nnz += cabs(tr->V[k]) > cut;
+  tr->vp = lvsi_malloc(ctx, (n + 1) * sizeof(size_t));
+  tr->vi = lvsi_malloc(ctx, (nnz ? nnz : 1) * sizeof(size_t));
+  tr->vv = lvsi_malloc(ctx, (nnz ? nnz : 1) * sizeof(double complex));
+  if (!tr->vp || !tr->vi || !tr->vv) return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)");
+  nnz = 0;
+  for (size_t j = 0; j < n; j++) {
+    tr->vp[j] = nnz;
+    for (size_t i = 0; i < n; i++)
+      if (cabs(tr->V[i + j * n]) > cut) tr->vi[nnz] = i, tr->vv[nnz++] = tr->V[i + j * n];
+  }
+  tr->vp[n] = tr->nnz = nnz;
+  return LVS_OK;
+}
+
+/* The dense V in the eigenbasis, built from the pattern when first needed
+ * (second order and the Magnus propagator use it). */
+static int dense_v(lvs_transition *tr) {
+  if (tr->V) return LVS_OK;
+  size_t n = tr->n;
+  int st = lvsi_dense_ok(tr->ctx, n, n, sizeof(double complex), "transition (dense V)");
+  if (st) return st;
+  tr->V = lvsi_calloc(tr->ctx, n * n, sizeof(double complex));
+  if (!tr->V) return lvsi_fail(tr->ctx, LVS_ENOMEM, "out of memory (transition)");
+  for (size_t j = 0; j < n; j++)
+    for (size_t k = tr->vp[j]; k < tr->vp[j + 1]; k++) tr->V[tr->vi[k] + j * n] = tr->vv[k];
+  return LVS_OK;
+}
+
 static int setup(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transition **out) {
   *out = NULL;
   if (!sp->h0) return lvsi_fail(ctx, LVS_EINVAL, "transition: H0 is missing");
@@ -395,10 +610,9 @@ static int setup(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transition **o
   tr->ctx = ctx, tr->n = n, tr->from = sp->from, tr->steps = steps, tr->order = sp->order;
   tr->t0 = t0, tr->t1 = t1;
   tr->E = lvsi_calloc(ctx, n, sizeof(double));
-  tr->U = lvsi_calloc(ctx, n * n, sizeof(double complex));
   tr->err = lvsi_calloc(ctx, n, sizeof(double));
   for (int k = 0; k < 3; k++) tr->a[k] = lvsi_calloc(ctx, n, sizeof(double complex));
-  if (!tr->E || !tr->U || !tr->err || !tr->a[0] || !tr->a[1] || !tr->a[2]) {
+  if (!tr->E || !tr->err || !tr->a[0] || !tr->a[1] || !tr->a[2]) {
     tr_free(tr);
     return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)");
   }
@@ -413,21 +627,26 @@ static int setup(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transition **o
     }
   if (diag) {
     size_t *perm = lvsi_calloc(ctx, n, sizeof(size_t));
-    if (!perm) { tr_free(tr); return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)"); }
+    double *E2 = lvsi_calloc(ctx, n, sizeof(double));
+    if (!perm || !E2) {
+      lvsi_free(ctx, perm), lvsi_free(ctx, E2);
+      tr_free(tr);
+      return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)");
+    }
     for (size_t i = 0; i < n; i++) perm[i] = i;
     for (size_t i = 1; i < n; i++) { /* insertion sort, stable */
       size_t v = perm[i], j = i;
       while (j > 0 && tr->E[perm[j - 1]] > tr->E[v]) perm[j] = perm[j - 1], j--;
       perm[j] = v;
     }
-    double *E2 = lvsi_calloc(ctx, n, sizeof(double));
-    if (!E2) { lvsi_free(ctx, perm); tr_free(tr); return lvsi_fail(ctx, LVS_ENOMEM, "out of memory"); }
-    for (size_t i = 0; i < n; i++) E2[i] = tr->E[perm[i]], tr->U[perm[i] + i * n] = 1;
+    for (size_t i = 0; i < n; i++) E2[i] = tr->E[perm[i]];
     lvsi_free(ctx, tr->E);
     tr->E = E2;
-    tr->perm = perm; /* kept until V is transformed */
+    tr->perm = perm;
   } else {
     lvs_matrix *Z = NULL;
+    tr->U = lvsi_malloc(ctx, n * n * sizeof(double complex));
+    if (!tr->U) { tr_free(tr); return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (transition)"); }
     if ((st = lvs_eigen(sp->h0, 0, 1, tr->E, &Z))) { tr_free(tr); return st; }
     for (size_t j = 0; j < n; j++)
       for (size_t i = 0; i < n; i++) {
@@ -438,41 +657,10 @@ static int setup(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transition **o
     lvs_matrix_free(Z);
   }
   if (sp->v) {
-    tr->V = lvsi_calloc(ctx, n * n, sizeof(double complex));
-    double complex *tmp = lvsi_calloc(ctx, n * n, sizeof(double complex));
-    if (!tr->V || !tmp) { lvsi_free(ctx, tmp); tr_free(tr); return lvsi_fail(ctx, LVS_ENOMEM, "out of memory"); }
-    for (size_t j = 0; j < n; j++)
-      for (size_t i = 0; i < n; i++) {
-        double re, im;
-        lvs_matrix_get(sp->v, i, j, &re, &im);
-        tmp[i + j * n] = re + I * im;
-      }
-    if (diag) { /* permutation only */
-      for (size_t j = 0; j < n; j++)
-        for (size_t i = 0; i < n; i++) {
-          tr->V[i + j * n] = tmp[tr->perm[i] + tr->perm[j] * n];
-        }
-    } else {
-      double complex *t2 = lvsi_calloc(ctx, n * n, sizeof(double complex));
-      if (!t2) { lvsi_free(ctx, tmp); tr_free(tr); return lvsi_fail(ctx, LVS_ENOMEM, "out of memory"); }
-      for (size_t j = 0; j < n; j++)
-        for (size_t k = 0; k < n; k++) {
-          double complex u = tr->U[k + j * n];
-          if (u == 0) continue;
-          for (size_t i = 0; i < n; i++) t2[i + j * n] += tmp[i + k * n] * u;
-        }
-      for (size_t j = 0; j < n; j++)
-        for (size_t i = 0; i < n; i++) {
-          double complex acc = 0;
-          for (size_t k = 0; k < n; k++) acc += conj(tr->U[k + i * n]) * t2[k + j * n];
-          tr->V[i + j * n] = acc;
-        }
-      lvsi_free(ctx, t2);
-    }
-    lvsi_free(ctx, tmp);
+    if (diag) st = v_pattern_permuted(tr, sp->v);
+    else st = v_pattern_rotated(tr, sp->v);
+    if (st) { tr_free(tr); return st; }
   }
-  lvsi_free(ctx, tr->perm);
-  tr->perm = NULL;
   if (sp->pulse && (st = lvs_pulse_copy(sp->pulse, &tr->pulse))) { tr_free(tr); return st; }
   *out = tr;
   return LVS_OK;
@@ -503,26 +691,44 @@ int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transiti
     for (size_t k = 0; k <= N; k++)
       if ((st = eval_scalar(&se, tr->t0 + (double)k * h, &S.p[k]))) goto fail;
   }
-  /* first order */
-  F = lvsi_malloc(ctx, (N + 1) * sizeof(double complex));
-  if (!F) { st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory"); goto fail; }
-  if (!S.Ws)
-    for (size_t k = 0; k <= N; k++) F[k] = S.p[k];
+  /* first order: the integral is computed for every final level, also
+   * where V_fi = 0 (the cost is the same loop; the amplitude is then 0) */
   tr->a[0][i] = 1;
-  for (size_t f = 0; f < n; f++) {
-    double w = tr->E[f] - tr->E[i];
-    double complex scale = 1;
-    if (S.Ws) {
-      for (size_t k = 0; k <= N; k++) F[k] = S.Ws[k * n * n + f + i * n];
-    } else {
-      scale = tr->V[f + i * n];
-      if (scale == 0) continue;
+  if (!S.Ws) {
+    double *ws = lvsi_malloc(ctx, 19 * n * sizeof(double));
+    double complex *I12 = lvsi_malloc(ctx, 2 * n * sizeof(double complex));
+    if (!ws || !I12) {
+      lvsi_free(ctx, ws), lvsi_free(ctx, I12);
+      st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory (first order)");
+      goto fail;
     }
-    double complex I1 = filon(F, 1, N, tr->t0, h, w), I2 = filon(F, 2, N / 2, tr->t0, 2 * h, w);
-    tr->a[1][f] = -I * scale * I1;
-    tr->err[f] = cabs(scale * (I1 - I2));
+    double *w = ws + 18 * n;
+    for (size_t f = 0; f < n; f++) w[f] = tr->E[f] - tr->E[i];
+    filon_all(S.p, N, tr->t0, h, w, n, ws, I12, I12 + n);
+    double complex *vcol = tr->a[2]; /* column i of V (a[2] is refilled by second order) */
+    for (size_t f = 0; f < n; f++) vcol[f] = 0;
+    for (size_t k = tr->vp[i]; k < tr->vp[i + 1]; k++) vcol[tr->vi[k]] = tr->vv[k];
+    for (size_t f = 0; f < n; f++) {
+      double complex scale = vcol[f];
+      tr->a[1][f] = -I * scale * I12[f];
+      tr->err[f] = cabs(scale * (I12[f] - I12[n + f]));
+    }
+    for (size_t f = 0; f < n; f++) vcol[f] = 0;
+    lvsi_free(ctx, ws), lvsi_free(ctx, I12);
+  } else {
+    F = lvsi_malloc(ctx, (N + 1) * sizeof(double complex));
+    if (!F) { st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory"); goto fail; }
+    for (size_t f = 0; f < n; f++) {
+      double w = tr->E[f] - tr->E[i];
+      for (size_t k = 0; k <= N; k++) F[k] = S.Ws[k * n * n + f + i * n];
+      double complex I1 = filon(F, 1, N, tr->t0, h, w), I2 = filon(F, 2, N / 2, tr->t0, 2 * h, w);
+      tr->a[1][f] = -I * I1;
+      tr->err[f] = cabs(I1 - I2);
+    }
   }
   if (tr->order >= 2) {
+    if (tr->vp && (st = dense_v(tr))) goto fail;
+    S.V = tr->V;
     double complex *b = lvsi_calloc(ctx, n, sizeof(double complex));
     if (!b) { st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory"); goto fail; }
     if ((st = second_order(tr, &S, 1, tr->a[2])) || (st = second_order(tr, &S, 2, b))) { lvsi_free(ctx, b); goto fail; }
@@ -568,7 +774,7 @@ static int magnus(lvs_transition *tr, source_eval *se, size_t m, double complex 
     double ts[2] = {t + (0.5 - g) * h, t + (0.5 + g) * h};
     for (int q = 0; q < 2; q++) {
       double complex *Hq = Hs[q];
-      if (tr->V) {
+      if (tr->vp) {
         double p;
         if ((st = eval_scalar(se, ts[q], &p))) goto done;
         for (size_t e = 0; e < n * n; e++) Hq[e] = p * tr->V[e];
@@ -606,35 +812,209 @@ done:
   return st;
 }
 
-int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, size_t steps, lvs_transition **out) {
+/* One classical RK4 run with m steps on the interaction-picture equation
+ * dc/dt = -i p(t) D V D^* c, D = e^{iEt}; c(t0) = e_from, out: c(t1).
+ * Each step works in the frame of its own start t_n (the RK4 combination is
+ * linear, so conjugating by the constant D(t_n) changes nothing): the stage
+ * phases are then the fixed e^{+-iEh/2}, e^{+-iEh}, and the state is carried
+ * as x = D(t_n)^* c, advanced by e^{-iEh} at the end of each step. V is read
+ * by rows (gather), fused with the stage combinations. */
+typedef struct {
+  const size_t *rp, *ci; /* rows of V: columns ci[rp[r]..rp[r+1]) */
+  const double *rv;      /* values, interleaved complex */
+} vrows;
+
+/* k = -i p Dp V Dm x_in (Dp = Dm = NULL at the step start); then
+ * acc += wacc k, x_out = x + wout k (x_out may be NULL). */
+static void rk4_stage(size_t n, const vrows *V, const double *Dp, double p, const double *x_in, double *u,
+                      const double *x, double *acc, double wacc, double *x_out, double wout) {
+  const double *src = x_in;
+  if (Dp) { /* u = conj(Dp) x_in */
+    for (size_t q = 0; q < n; q++) {
+      double dr = Dp[2 * q], di = Dp[2 * q + 1], yr = x_in[2 * q], yi = x_in[2 * q + 1];
+      u[2 * q] = dr * yr + di * yi, u[2 * q + 1] = dr * yi - di * yr;
+    }
+    src = u;
+  }
+  for (size_t r = 0; r < n; r++) {
+    double wr = 0, wi = 0;
+    for (size_t e = V->rp[r]; e < V->rp[r + 1]; e++) {
+      size_t c = V->ci[e];
+      double vr = V->rv[2 * e], vi = V->rv[2 * e + 1], ur = src[2 * c], ui = src[2 * c + 1];
+      wr += vr * ur - vi * ui, wi += vr * ui + vi * ur;
+    }
+    if (Dp) {
+      double dr = Dp[2 * r], di = Dp[2 * r + 1], zr = dr * wr - di * wi, zi = dr * wi + di * wr;
+      wr = zr, wi = zi;
+    }
+    double kr = p * wi, ki = -p * wr; /* -i p w */
+    acc[2 * r] += wacc * kr, acc[2 * r + 1] += wacc * ki;
+    if (x_out) x_out[2 * r] = x[2 * r] + wout * kr, x_out[2 * r + 1] = x[2 * r + 1] + wout * ki;
+  }
+}
+
+static int rk4_run(lvs_transition *tr, source_eval *se, size_t m, double complex *cout) {
+  lvs_ctx *ctx = tr->ctx;
+  size_t n = tr->n, nnz = tr->nnz;
+  double h = (tr->t1 - tr->t0) / (double)m;
+  double *ws = lvsi_malloc(ctx, (14 * n + 2 * nnz + 2) * sizeof(double));
+  size_t *rp = lvsi_malloc(ctx, (n + 1) * sizeof(size_t)), *ci = lvsi_malloc(ctx, (nnz + 1) * sizeof(size_t));
+  if (!ws || !rp || !ci) {
+    lvsi_free(ctx, ws), lvsi_free(ctx, rp), lvsi_free(ctx, ci);
+    return lvsi_fail(ctx, LVS_ENOMEM, "out of memory (exact)");
+  }
+  double *x = ws, *y = ws + 2 * n, *u = ws + 4 * n, *acc = ws + 6 * n, *Eh = ws + 8 * n, *E1 = ws + 10 * n,
+         *Em = ws + 12 * n, *rv = ws + 14 * n;
+  /* rows of V from its columns (counting sort keeps columns ascending) */
+  for (size_t r = 0; r <= n; r++) rp[r] = 0;
+  for (size_t e = 0; e < nnz; e++) rp[tr->vi[e] + 1]++;
+  for (size_t r = 0; r < n; r++) rp[r + 1] += rp[r];
+  for (size_t j = 0; j < n; j++)
+    for (size_t e = tr->vp[j]; e < tr->vp[j + 1]; e++) {
+      size_t r = tr->vi[e], d = rp[r]++;
+      ci[d] = j, rv[2 * d] = creal(tr->vv[e]), rv[2 * d + 1] = cimag(tr->vv[e]);
+    }
+  for (size_t r = n; r > 0; r--) rp[r] = rp[r - 1];
+  rp[0] = 0;
+  vrows V = {rp, ci, rv};
+  for (size_t q = 0; q < n; q++) {
+    double a = tr->E[q] * h;
+    Eh[2 * q] = cos(a / 2), Eh[2 * q + 1] = sin(a / 2); /* e^{iEh/2} */
+    E1[2 * q] = cos(a), E1[2 * q + 1] = sin(a);         /* e^{iEh} */
+    Em[2 * q] = cos(a), Em[2 * q + 1] = -sin(a);        /* e^{-iEh} */
+  }
+  for (size_t q = 0; q < 2 * n; q++) x[q] = 0;
+  x[2 * tr->from] = 1;
+  double p0, pm, p1;
+  unsigned csr;
+  FTZ_ON(csr);
+  int st = eval_scalar(se, tr->t0, &p0);
+  for (size_t s = 0; s < m && !st; s++) {
+    double t = tr->t0 + (double)s * h;
+    if ((st = eval_scalar(se, t + h / 2, &pm)) || (st = eval_scalar(se, s + 1 == m ? tr->t1 : t + h, &p1))) break;
+    for (size_t q = 0; q < 2 * n; q++) acc[q] = 0;
+    rk4_stage(n, &V, NULL, p0, x, u, x, acc, 1, y, 0.5 * h); /* k1 */
+    rk4_stage(n, &V, Eh, pm, y, u, x, acc, 2, y, 0.5 * h);   /* k2 (reads y, writes y after use) */
+    rk4_stage(n, &V, Eh, pm, y, u, x, acc, 2, y, h);         /* k3 */
+    rk4_stage(n, &V, E1, p1, y, u, x, acc, 1, NULL, 0);      /* k4 */
+    for (size_t q = 0; q < n; q++) { /* x <- e^{-iEh} (x + h/6 acc) */
+      double zr = x[2 * q] + h / 6 * acc[2 * q], zi = x[2 * q + 1] + h / 6 * acc[2 * q + 1];
+      double er = Em[2 * q], ei = Em[2 * q + 1];
+      x[2 * q] = er * zr - ei * zi, x[2 * q + 1] = er * zi + ei * zr;
+    }
+    p0 = p1;
+  }
+  FTZ_OFF(csr);
+  if (!st) { /* c(t1) = D(t1) x, with x carried from D(t0) = e^{iE t0} */
+    for (size_t q = 0; q < n; q++) {
+      double complex d = cexp(I * tr->E[q] * tr->t1) * cexp(-I * tr->E[tr->from] * tr->t0);
+      cout[q] = d * (x[2 * q] + I * x[2 * q + 1]);
+    }
+  }
+  lvsi_free(ctx, ws), lvsi_free(ctx, rp), lvsi_free(ctx, ci);
+  return st;
+}
+
+/* One Magnus-4 run with m steps, returned as interaction-picture amplitudes. */
+static int magnus_run(lvs_transition *tr, source_eval *se, size_t m, double complex *cout) {
+  size_t n = tr->n;
+  for (size_t q = 0; q < n; q++) cout[q] = 0;
+  cout[tr->from] = cexp(-I * tr->E[tr->from] * tr->t0);
+  int st = magnus(tr, se, m, cout);
+  if (!st)
+    for (size_t q = 0; q < n; q++) cout[q] *= cexp(I * tr->E[q] * tr->t1);
+  return st;
+}
+
+int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, const lvs_exact_spec *es,
+                         lvs_transition **out) {
   lvs_ctx *ctx = tr->ctx;
   *out = NULL;
+  lvs_exact_spec dflt = {LVS_EXACT_AUTO, 0, 0.0};
+  if (!es) es = &dflt;
   if (tr->exact) return lvsi_fail(ctx, LVS_EINVAL, "transition: already an exact result");
   if (!tr->pulse && !src->pulse_fn && !src->field_fn)
     return lvsi_fail(ctx, LVS_EINVAL, "transition exact: the pulse or perturbation function is missing");
+  int method = es->method;
+  if (method == LVS_EXACT_AUTO) method = tr->vp ? LVS_EXACT_RK4 : LVS_EXACT_MAGNUS4;
+  if (method != LVS_EXACT_RK4 && method != LVS_EXACT_MAGNUS4)
+    return lvsi_fail(ctx, LVS_EINVAL, "transition exact: unknown method %d", es->method);
+  if (method == LVS_EXACT_RK4 && !tr->vp)
+    return lvsi_fail(ctx, LVS_EINVAL, "transition exact: method rk4 needs V with a pulse (V(t) is a function here)");
+  if (!(es->tol >= 0) || isinf(es->tol)) return lvsi_fail(ctx, LVS_EINVAL, "transition exact: tol must be >= 0, got %g", es->tol);
   size_t n = tr->n, i = tr->from;
-  size_t m = steps ? steps : tr->steps;
-  if (m < 8) m = 8;
-  m = (m + 1) / 2 * 2;
+  int st = LVS_OK;
+  if (method == LVS_EXACT_MAGNUS4 && tr->vp && (st = dense_v(tr))) return st;
   source_eval se = {tr, src, NULL, NULL};
   lvs_transition *ex = lvsi_calloc(ctx, 1, sizeof *ex);
-  double complex *psi = lvsi_calloc(ctx, 2 * n, sizeof(double complex));
-  if (!tr->V) se.tmp = lvsi_malloc(ctx, 2 * n * n * sizeof(double complex));
-  int st = LVS_OK;
-  if (!ex || !psi || (!tr->V && !se.tmp)) { st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory (exact)"); goto fail; }
+  double complex *c = lvsi_calloc(ctx, 2 * n, sizeof(double complex));
+  if (!tr->vp) se.tmp = lvsi_malloc(ctx, 2 * n * n * sizeof(double complex));
+  if (!ex || !c || (!tr->vp && !se.tmp)) { st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory (exact)"); goto fail; }
   if (se.tmp) se.tmp2 = se.tmp + n * n;
-  ex->ctx = ctx, ex->n = n, ex->from = i, ex->steps = m, ex->order = 0, ex->exact = 1;
+  ex->ctx = ctx, ex->n = n, ex->from = i, ex->order = 0, ex->exact = 1;
   ex->t0 = tr->t0, ex->t1 = tr->t1;
   ex->a[0] = lvsi_calloc(ctx, n, sizeof(double complex));
   ex->err = lvsi_calloc(ctx, n, sizeof(double));
   if (!ex->a[0] || !ex->err) { st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory (exact)"); goto fail; }
-  double complex *p1 = psi, *p2 = psi + n;
-  p1[i] = p2[i] = cexp(-I * tr->E[i] * tr->t0);
-  if ((st = magnus(tr, &se, m, p1)) || (st = magnus(tr, &se, m / 2, p2))) goto fail;
+  int (*run)(lvs_transition *, source_eval *, size_t, double complex *) =
+      method == LVS_EXACT_RK4 ? rk4_run : magnus_run;
+  double complex *fine = c, *coarse = c + n;
+  size_t m;
+  double est = 0;
+  if (es->tol > 0) { /* raise the steps until the Richardson estimate is below tol */
+    m = es->steps;
+    if (!m) { /* about 0.25 rad of the fastest coupled Bohr frequency per step */
+      double wmax = 0;
+      for (size_t j = 0; tr->vp && j < n; j++)
+        for (size_t e = tr->vp[j]; e < tr->vp[j + 1]; e++) wmax = fmax(wmax, fabs(tr->E[tr->vi[e]] - tr->E[j]));
+      double want = (tr->t1 - tr->t0) * wmax / 0.25;
+      m = want < 64 ? 64 : want > (double)LVS_EXACT_MAX_STEPS ? LVS_EXACT_MAX_STEPS : (size_t)want;
+    }
+    if (m < 8) m = 8;
+    /* runs at m and 2m give the error constant of this 4th-order method;
+     * later counts are predicted from it (growth clamped to x2..x16), and
+     * each new run is checked against the previous one by Richardson with
+     * the actual ratio r: error ~ |c_new - c_old| / (r^4 - 1) */
+    if ((st = run(tr, &se, m, coarse))) goto fail;
+    size_t mnew = 2 * m;
+    for (;;) {
+      if (mnew > LVS_EXACT_MAX_STEPS) {
+        st = lvsi_fail(ctx, LVS_ENOCONV, "transition exact: no convergence to tol %g within %d steps (error estimate %.3g)",
+                       es->tol, (int)LVS_EXACT_MAX_STEPS, est);
+        goto fail;
+      }
+      if ((st = run(tr, &se, mnew, fine))) goto fail;
+      double r = (double)mnew / (double)m, r4 = r * r * r * r;
+      est = 0;
+      for (size_t f = 0; f < n; f++) est = fmax(est, cabs(fine[f] - coarse[f]) / (r4 - 1));
+      ex->steps = m; /* the comparison run, for the error below */
+      m = mnew;
+      if (est <= es->tol) break;
+      double grow = 1.2 * pow(est / es->tol, 0.25);
+      grow = grow < 2 ? 2 : grow > 16 ? 16 : grow;
+      mnew = (size_t)ceil((double)m * grow);
+      double complex *t = fine;
+      fine = coarse, coarse = t;
+    }
+    /* error per amplitude from the last pair */
+    double r = (double)m / (double)ex->steps, r4 = r * r * r * r;
+    for (size_t f = 0; f < n; f++) ex->err[f] = cabs(fine[f] - coarse[f]) / (r4 - 1);
+  } else {
+    m = es->steps ? es->steps : tr->steps;
+    if (m < 8) m = 8;
+    m = (m + 1) / 2 * 2;
+    if ((st = run(tr, &se, m, fine)) || (st = run(tr, &se, m / 2, coarse))) goto fail;
+    for (size_t f = 0; f < n; f++) ex->err[f] = cabs(fine[f] - coarse[f]) / 15.0;
+  }
+  ex->steps = m;
   for (size_t f = 0; f < n; f++) {
-    double complex back = cexp(I * tr->E[f] * tr->t1);
-    ex->a[0][f] = back * p1[f];
-    ex->err[f] = cabs(p1[f] - p2[f]) / 15.0;
+    ex->a[0][f] = fine[f];
+    est = fmax(est, ex->err[f]);
+  }
+  if (est > 1e-6) {
+    char msg[200];
+    snprintf(msg, sizeof msg, "exact propagation error estimate %.2g with %zu steps: give more steps or a tol", est, m);
+    add_warning(ex, msg);
   }
   /* compare with perturbation theory */
   for (size_t f = 0; f < n; f++) {
@@ -650,16 +1030,18 @@ int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, s
       break;
     }
   }
-  lvsi_free(ctx, psi);
+  lvsi_free(ctx, c);
   lvsi_free(ctx, se.tmp);
   *out = ex;
   return LVS_OK;
 fail:
-  lvsi_free(ctx, psi);
+  lvsi_free(ctx, c);
   lvsi_free(ctx, se.tmp);
   tr_free(ex);
   return st;
 }
+
+size_t lvs_transition_steps(const lvs_transition *tr) { return tr->steps; }
 
 size_t lvs_transition_dim(const lvs_transition *tr) { return tr->n; }
 int lvs_transition_order(const lvs_transition *tr) { return tr->exact ? 0 : tr->order; }

@@ -77,16 +77,25 @@ describe("transition: oscillator under a Gaussian force", function()
     assert(big:warnings():find("disagree", 1, true), "disagreement warning expected")
     assert(tr:warnings() == "" or not tr:warnings():find("exceeds", 1, true))
   end)
-  it("is fast for 200 levels and 20000 samples (first order)", function()
-    local B2 = ls.oscillator(200)
-    local H0, V = B2.number, B2.x
-    local t = os.clock()
-    local big = ls.transition{H0 = H0, V = V, from = 1, t0 = -10, t1 = 10, steps = 20000,
-                              pulse = ls.pulse.sine{amplitude = 0.01, omega = 1.3,
-                                envelope = ls.pulse.gaussian{center = 0, width = 2}}}
-    local dt = os.clock() - t
-    assert(dt < 0.5, "took " .. dt .. " s") -- common practice (budget: milliseconds per 4e6 samples)
-    assert(big:dim() == 200)
+  it("handles 200 levels and 20000 samples (the benchmark job) against the Gaussian integral", function()
+    -- H = n + 1/2 + f(t) x, f = f0 exp(-((t - 10)/tau)^2) on [0, 20]: first order
+    -- P(0->1) = |x_10|^2 |int f e^{it} dt|^2 = (1/2) (f0 tau sqrt(pi) e^{-tau^2/4})^2
+    -- (Gaussian Fourier integral, Abramowitz & Stegun 7.4.6; the cut at +-5 tau
+    -- changes it by erfc(5) ~ 1.5e-12 relative)
+    local B2 = ls.oscillator(201)
+    local f0, tau = 0.1, 2.0
+    local big = ls.transition{H0 = B2.number + 0.5, V = B2.x, from = 1, t0 = 0, t1 = 20, steps = 20000,
+                              pulse = ls.pulse.gaussian{amplitude = f0, center = 10, width = tau / math.sqrt(2)}}
+    local want = 0.5 * (f0 * tau * math.sqrt(math.pi) * math.exp(-tau * tau / 4)) ^ 2
+    near(big:probability(2, 1), want, 1e-11 * want, "P1(0->1), 200 levels")
+    assert(big:dim() == 201 and big:steps() == 20000)
+    for f = 3, 201 do assert(big:probability(f, 1) == 0) end -- x couples n to n +- 1 only
+    assert(big:error(2) < 1e-12, "Filon error estimate " .. big:error(2))
+    -- exact to a tolerance: second order of the displaced oscillator, P(0->1) = |alpha|^2 e^{-|alpha|^2}
+    -- (Glauber, Phys. Rev. 131, 2766 (1963)); here |alpha|^2 = want
+    local ex = big:exact{tol = 1e-10}
+    near(ex:probability(2), want * math.exp(-want), 1e-10, "exact P(0->1), 200 levels")
+    assert(ex:error(2) <= 1e-10)
   end)
 end)
 
