@@ -10,7 +10,7 @@ local nt = (params and params.nt) or 20001
 local T = (params and params.T) or 20.0
 local tau = (params and params.tau) or 2.0
 local f0 = (params and params.f0) or 0.1
-local tol = (params and params.tol) or 1e-12
+local tol = (params and params.tol) or 1e-10
 local t0 = ls.clock()
 local o = ls.oscillator(m + 1)
 local tr = ls.transition{H0 = o.number + 0.5, V = o.x, from = 1, t0 = 0, t1 = T, steps = nt - 1,
