@@ -191,7 +191,17 @@ LVS_API int lvs_eigen(const lvs_matrix *h, size_t count, int want_vectors,
  * a, 0-based, is the a-th lowest at `from`). Crossings are refined local
  * minima of adjacent gaps: avoided = 1 for a finite gap, 0 for a true
  * crossing (gap ~ 0); i < j are tracked levels, 0-based. */
-typedef struct { const lvs_matrix *h0, *v; double from, to; size_t steps, count; int threads; } lvs_sweep_spec;
+typedef struct {
+  const lvs_matrix *h0, *v; double from, to; size_t steps, count; int threads;
+  int series_order;    /* > 0: RS series energies (series.c) beside the exact ones */
+  const char *journal; /* NULL: none; else base path B: journal B.part (resumed),
+                          shard parts B.part.K-of-N (read by a whole run) */
+  size_t shard, shards; /* shards > 0: compute only points k = shard-1 mod shards
+                          (shard 1-based) into B.part.K-of-N; the result is partial */
+  int merge_only;      /* every point must come from B.part or a part file */
+  void (*progress)(void *ud, size_t done, size_t total); /* from any thread, serialized */
+  void *progress_ud;
+} lvs_sweep_spec;
 typedef struct { double at, gap; size_t i, j; int avoided; } lvs_sweep_crossing;
 typedef struct lvs_sweep lvs_sweep;
 LVS_API int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out);
@@ -203,8 +213,16 @@ LVS_API const double *lvs_sweep_level(const lvs_sweep *s, size_t level); /* BORR
 LVS_API size_t lvs_sweep_ncrossings(const lvs_sweep *s);
 LVS_API const lvs_sweep_crossing *lvs_sweep_crossing_at(const lvs_sweep *s, size_t k); /* BORROWED */
 LVS_API double lvs_sweep_min_overlap(const lvs_sweep *s); /* smallest accepted overlap */
-/* CSV (header p,E1,E2,... after a units comment), or JSON when path ends in
- * .json; written to path.tmp, then renamed. */
+LVS_API const double *lvs_sweep_series(const lvs_sweep *s, size_t level); /* BORROWED or NULL */
+LVS_API int lvs_sweep_series_order(const lvs_sweep *s); /* 0: no series */
+LVS_API int lvs_sweep_is_partial(const lvs_sweep *s, size_t *done); /* a shard: points in its part */
+/* delete the journal and part files the sweep read (after the final write) */
+LVS_API int lvs_sweep_remove_journals(lvs_sweep *s);
+/* parameter name (default "p"), its unit and the energy unit (NULL: keep),
+ * used in the headers of written files */
+LVS_API int lvs_sweep_set_labels(lvs_sweep *s, const char *param, const char *param_unit, const char *energy_unit);
+/* CSV (header p,E1,E2,...[,E1_series,...] after a units comment), or JSON
+ * when path ends in .json; written to path.tmp, fsync'd, then renamed. */
 LVS_API int lvs_sweep_write(const lvs_sweep *s, const char *path);
 /* ---- effective Hamiltonians (effective.c) ---------------------------
  * Canonical Van Vleck / Schrieffer-Wolff H_eff of a group of levels of H0

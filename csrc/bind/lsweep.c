@@ -1,7 +1,13 @@
-/* lsweep.c -- ls.sweep{H0=, V=, from=, to=, steps=, count=, threads=}
- * -> userdata "levelshift.sweep": sw.p, sw.count, sw.min_overlap,
- * sw:level(k), sw:crossings(), sw:write(path). */
+/* lsweep.c -- core.sweep{H0=, V=, from=, to=, steps=, count=, threads=,
+ * series=, journal=, shard=, shards=, merge=, progress=, param=, param_unit=,
+ * energy_unit=} -> userdata "levelshift.sweep": sw.p, sw.count,
+ * sw.min_overlap, sw.series_order, sw.partial, sw.done, sw:level(k),
+ * sw:series(k), sw:crossings(), sw:write(path), sw:_remove_journals().
+ * The Lua driver (lua/levelshift/sweep.lua) wraps it as ls.sweep. */
+#include <stdio.h>
 #include <string.h>
+#include <time.h>
+#include <unistd.h>
 #include "bind/lbind.h"
 
 #define LVS_SWEEP_MT "levelshift.sweep"
@@ -43,10 +49,51 @@ static double field_num(lua_State *L, const char *key) {
   return v;
 }
 
+static const char *opt_string(lua_State *L, const char *key) {
+  lua_getfield(L, 1, key);
+  const char *r = NULL;
+  if (!lua_isnil(L, -1)) {
+    if (lua_type(L, -1) != LUA_TSTRING) {
+      lua_pushfstring(L, "'%s' must be a string, got %s", key, luaL_typename(L, -1));
+      luaL_argerror(L, 1, lua_tostring(L, -1));
+    }
+    r = lua_tostring(L, -1);
+  }
+  lua_pop(L, 1); /* the table still references it */
+  return r;
+}
+
+/* progress on stderr: "sweep: done/total points", at most every 0.2 s */
+typedef struct {
+  int shown;
+  double last;
+  size_t last_done;
+} progress_state;
+
+static double now_s(void) {
+  struct timespec ts;
+  clock_gettime(CLOCK_MONOTONIC, &ts);
+  return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+static void show_progress(void *ud, size_t done, size_t total) {
+  progress_state *ps = ud;
+  double t = now_s();
+  if (done != total && ps->shown && t - ps->last < 0.2) return;
+  if (done == ps->last_done) return;
+  ps->last = t;
+  ps->last_done = done;
+  ps->shown = 1;
+  fprintf(stderr, "\rsweep: %zu/%zu points", done, total);
+  fflush(stderr);
+}
+
 static int l_sweep(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   luaL_checktype(L, 1, LUA_TTABLE);
-  static const char *const known[] = {"H0", "V", "from", "to", "steps", "count", "threads", NULL};
+  static const char *const known[] = {"H0", "V", "from", "to", "steps", "count", "threads", "series",
+                                      "journal", "shard", "shards", "merge", "progress", "param",
+                                      "param_unit", "energy_unit", NULL};
   lvsL_checkoptions(L, 1, known, "sweep", 1);
   lvs_matrix *h0 = field_matrix(L, "H0");
   lvs_matrix *v = field_matrix(L, "V");
@@ -80,11 +127,38 @@ static int l_sweep(lua_State *L) {
     lua_pushfstring(L, "threads must be from 1 to 64, got %I", threads);
     return luaL_argerror(L, 1, lua_tostring(L, -1));
   }
+  lua_Integer series = lvsL_optfield_int(L, 1, "series", 0, "sweep", 1);
+  if (series < 0 || series > 1000) {
+    lua_pushfstring(L, "series must be an order from 1 to 1000 (0: none), got %I", series);
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  const char *journal = opt_string(L, "journal");
+  lua_Integer shard = lvsL_optfield_int(L, 1, "shard", 0, "sweep", 1);
+  lua_Integer shards = lvsL_optfield_int(L, 1, "shards", 0, "sweep", 1);
+  if (shards < 0 || shards > 1000000 || (shards > 0 && (shard < 1 || shard > shards)) || (shards == 0 && shard != 0)) {
+    lua_pushfstring(L, "shard must be from 1 to shards (a positive count), got shard %I of %I", shard, shards);
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lua_getfield(L, 1, "merge");
+  int merge = lua_toboolean(L, -1);
+  lua_pop(L, 1);
+  if ((shards || merge) && !journal)
+    return luaL_argerror(L, 1, "shards and merges need 'journal' (the output path)");
+  if (shards && merge) return luaL_argerror(L, 1, "a shard cannot merge");
+  lua_getfield(L, 1, "progress");
+  int progress = lua_isnil(L, -1) ? isatty(STDERR_FILENO) : lua_toboolean(L, -1);
+  lua_pop(L, 1);
+  const char *pname = opt_string(L, "param"), *punit = opt_string(L, "param_unit"),
+             *eunit = opt_string(L, "energy_unit");
   lsweep *u = lua_newuserdatauv(L, sizeof *u, 0);
   u->s = NULL;
   luaL_setmetatable(L, LVS_SWEEP_MT);
-  lvs_sweep_spec spec = {h0, v, from, to, (size_t)steps, (size_t)count, (int)threads};
+  progress_state ps = {0, 0, (size_t)-1};
+  lvs_sweep_spec spec = {h0, v, from, to, (size_t)steps, (size_t)count, (int)threads, (int)series, journal,
+                         (size_t)shard, (size_t)shards, merge, progress ? show_progress : NULL, &ps};
   int st = lvs_sweep_new(ctx, &spec, &u->s);
+  if (ps.shown) fputc('\n', stderr);
+  if (!st && (pname || punit || eunit)) st = lvs_sweep_set_labels(u->s, pname, punit, eunit);
   if (st == LVS_ENOTHERM || st == LVS_EDIM) {
     lua_pushstring(L, lvs_errmsg(ctx));
     lvs_clear_error(ctx);
@@ -136,6 +210,35 @@ static int m_crossings(lua_State *L) {
   return 1;
 }
 
+static int m_series(lua_State *L) {
+  lvs_sweep *s = checksweep(L, 1);
+  lua_Integer k = luaL_checkinteger(L, 2);
+  size_t count = lvs_sweep_count(s);
+  if (k < 1 || (size_t)k > count) {
+    lua_pushfstring(L, "level must be from 1 to %d, got %I", (int)count, k);
+    return luaL_argerror(L, 2, lua_tostring(L, -1));
+  }
+  const double *e = lvs_sweep_series(s, (size_t)k - 1);
+  if (!e) {
+    lua_pushnil(L);
+    return 1;
+  }
+  size_t np = lvs_sweep_points(s);
+  lua_createtable(L, (int)np, 0);
+  for (size_t i = 0; i < np; i++) {
+    lua_pushnumber(L, e[i]);
+    lua_rawseti(L, -2, (lua_Integer)i + 1);
+  }
+  return 1;
+}
+
+static int m_remove_journals(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_sweep *s = checksweep(L, 1);
+  lvsL_check(L, ctx, lvs_sweep_remove_journals(s), "sweep");
+  return 0;
+}
+
 static int m_write(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_sweep *s = checksweep(L, 1);
@@ -159,6 +262,17 @@ static int m_index(lua_State *L) {
   }
   if (key && strcmp(key, "count") == 0) {
     lua_pushinteger(L, (lua_Integer)lvs_sweep_count(s));
+    return 1;
+  }
+  if (key && strcmp(key, "series_order") == 0) {
+    lua_pushinteger(L, lvs_sweep_series_order(s));
+    return 1;
+  }
+  if (key && (strcmp(key, "partial") == 0 || strcmp(key, "done") == 0)) {
+    size_t done = 0;
+    int part = lvs_sweep_is_partial(s, &done);
+    if (key[0] == 'p') lua_pushboolean(L, part);
+    else lua_pushinteger(L, (lua_Integer)(part ? done : lvs_sweep_points(s)));
     return 1;
   }
   if (key && strcmp(key, "min_overlap") == 0) {
@@ -190,13 +304,16 @@ static int m_tostring(lua_State *L) {
 
 void lvsL_open_sweep(lua_State *L, int ctxidx) {
   static const luaL_Reg methods[] = {
-      {"level", m_level}, {"crossings", m_crossings}, {"write", m_write}, {NULL, NULL}};
+      {"level", m_level}, {"series", m_series}, {"crossings", m_crossings}, {"write", m_write},
+      {"_remove_journals", m_remove_journals}, {NULL, NULL}};
   static const luaL_Reg meta[] = {
       {"__index", m_index}, {"__gc", m_gc}, {"__close", m_gc}, {"__tostring", m_tostring}, {NULL, NULL}};
   luaL_newmetatable(L, LVS_SWEEP_MT);
   lvsL_setfuncs(L, meta, ctxidx);
   lua_newtable(L);
   lvsL_setfuncs(L, methods, ctxidx);
+  lua_pushvalue(L, -1);
+  lua_setfield(L, -4, "_sweep_methods"); /* module table: the driver adds methods here */
   lua_setfield(L, -2, "__methods");
   lua_pop(L, 1);
   static const luaL_Reg fns[] = {{"sweep", l_sweep}, {NULL, NULL}};

@@ -1,13 +1,29 @@
 /* sweep.c -- levels of H(p) = H0 + p V along a uniform grid of p, tracked by
- * eigenvector overlap, with avoided and true crossings located.
+ * eigenvector overlap, with avoided and true crossings located, optional
+ * perturbation-series curves, a journal that makes runs resumable, and
+ * shards that split the points across processes or machines.
  *
  * Points. p_k = from + (to - from) k / steps, k = 0..steps; the lowest
- * `count` eigenpairs of H(p_k) come from lvs_eigen. Points are independent,
- * so they are computed by `threads` POSIX threads (point k by thread
- * k mod threads, in blocks); every point runs the same code on the same
- * input, so the numbers do not depend on the thread count. Each worker has
- * its own context whose allocator is the caller's allocator behind a mutex
- * (a memory cap set by an embedding host keeps holding).
+ * `count` eigenpairs of H(p_k) are computed per point. Points are
+ * independent, so they are computed by `threads` POSIX threads (the points
+ * still to do in a block are dealt round-robin); every point runs the same
+ * code on the same input, so the numbers do not depend on the thread count.
+ * Each worker has its own context whose allocator is the caller's allocator
+ * behind a mutex (a memory cap set by an embedding host keeps holding).
+ * While points are computed, OpenBLAS is held to one thread (no
+ * oversubscription, and its threaded kernels would make the rounding depend
+ * on its thread count); the previous setting is restored afterwards.
+ *
+ * Solver. A real model whose H0 and V are banded (half-bandwidth kd, found
+ * by scanning the visible blocks) with 4 kd <= n and n >= 16 uses the band
+ * path: reduction to tridiagonal form without forming Q (dsbtrd, Schwarz's
+ * band reduction; Kaufman, ACM TOMS 10, 73 (1984)), the lowest `count`
+ * eigenvalues by bisection (dstebz; Kahan's Sturm-count bisection), and the
+ * eigenvectors by inverse iteration on the band matrix itself (dgbtrf +
+ * dgbtrs, three solves, Gram-Schmidt inside clusters closer than 1e-3 of
+ * the 1-norm, as LAPACK's dstein does for tridiagonal ones; Wilkinson, The
+ * Algebraic Eigenvalue Problem, 1965, ch. 9). Everything else goes through
+ * lvs_eigen (dsyevr / zheevr).
  *
  * Tracking (METHODS.md section 5). Between neighbouring points the overlap
  * matrix O_ij = |<u_i(k)|u_j(k+1)>| is formed and the assignment maximizing
@@ -31,31 +47,76 @@
  * of the minimum. Every interior local minimum is reported, so a broad,
  * shallow minimum of a gap is listed as an avoided crossing too.
  *
+ * Series. With series_order K > 0 the Rayleigh-Schroedinger series of the
+ * lowest `count` levels of H0 (series.c, lambda = p) is evaluated at every
+ * grid point; series level r (r-th lowest of H0) is written beside the
+ * tracked level holding rank r at the grid point nearest p = 0.
+ *
+ * Journal and shards (design). The raw result of a point -- its energies
+ * and eigenvectors exactly as the solver returned them, before tracking --
+ * is all that tracking needs, and tracking is a cheap sequential pass. So a
+ * point's raw result is appended as one binary record to a journal file and
+ * fsync'd as soon as it is finished; tracking, series and crossings always
+ * run afterwards on raw results, whether they came from memory or from a
+ * journal, so a resumed or merged run gives the same bytes as one run.
+ *   base.part            journal of a whole run (resumed by the same call)
+ *   base.part.K-of-N     part file of shard K (1-based) of N: the points
+ *                        k with k mod N = K - 1 (round-robin: balanced)
+ * File: 48-byte header (magic "LVSWJ01\n", then n, count, points, complex
+ * flag, a 64-bit FNV-1a hash of H0, V, from, to, steps and count), then
+ * fixed-size records: k, count energies, the n x count vectors (real parts
+ * only for a real model), and an FNV-1a check of the record. A record torn
+ * by a kill fails its length or check and is cut off before appending. A
+ * run (not a shard) reads its own journal and every part file of the same
+ * sweep (same hash), computes what is missing (merge_only: refuses to), and
+ * the crossing search re-solves H(p) between grid points, which is why a
+ * merge runs the same script: the model is needed again, the points are
+ * not. A file of the same name but another sweep is an error, never mixed
+ * in. lvs_sweep_remove_journals deletes the files used once the caller has
+ * written its final files.
+ *
  * Not done yet: step refinement where overlaps drop (METHODS 5), levels
  * entering the window from above when count < dim are tracked as best the
  * overlaps allow; the smallest accepted overlap is kept (lvs_sweep_min_overlap)
  * so a caller can tell adiabatic from diabatic following.
  */
+#define _GNU_SOURCE
 #include <complex.h>
 #include <errno.h>
+#include <fcntl.h>
+#include <glob.h>
+#include <lapacke.h>
 #include <math.h>
 #include <pthread.h>
-#include <stdlib.h>
+#include <stdint.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
 #include "internal.h"
 
 #define SWEEP_MAX_STEPS 1000000
 #define SWEEP_MAX_THREADS 64
+
+/* OpenBLAS thread control (weak: absent with another BLAS) */
+extern void openblas_set_num_threads(int) __attribute__((weak));
+extern int openblas_get_num_threads(void) __attribute__((weak));
 
 struct lvs_sweep {
   lvs_ctx *ctx;
   size_t n, count, npts;
   double from, to;
   double *e;   /* tracked energies: e[a * npts + k] */
+  double *ser; /* series energies beside tracked level a, or NULL */
+  int series_order;
   lvs_sweep_crossing *cross;
   size_t ncross;
   double min_overlap;
+  int partial;       /* a shard: only its part file was written */
+  size_t done;       /* points on disk for a shard */
+  char **used;       /* journal files used (to remove), NULL-terminated */
+  char *pname, *punit, *eunit;
 };
 
 /* ---- allocator shared by worker threads ---------------------------------- */
@@ -78,6 +139,7 @@ typedef struct {
   size_t n, count;
   int cplx;
   const double *h0, *v; /* dense visible blocks, n*n (x2 when cplx) */
+  long kd;              /* half-bandwidth for the band path, -1: dense path */
 } model;
 
 static double grid_p(double from, double to, size_t steps, size_t k) {
@@ -85,10 +147,144 @@ static double grid_p(double from, double to, size_t steps, size_t k) {
   return from + (to - from) * (double)k / (double)steps;
 }
 
-/* lowest m energies of H(p) (and vectors as complex n x m when vec != NULL) */
-static int solve_point(lvs_ctx *tctx, const model *md, double p, size_t m, double *w,
-                       double complex *vec) {
+/* band path: lowest m eigenvalues (and vectors, n x m real, when vec) */
+/* scratch of the band path, kept by a worker across its points */
+typedef struct {
+  double *buf;
+  lapack_int *ibuf;
+} band_scratch;
+
+static size_t band_need(size_t n, size_t kd) { return (kd + 1) * n + 2 * n + 4 * n + n + (3 * kd + 1) * n + 2 * n; }
+
+static int band_scratch_get(lvs_ctx *tctx, const model *md, band_scratch *bs) {
   size_t n = md->n;
+  if (bs->buf) return LVS_OK;
+  bs->buf = lvsi_malloc(tctx, band_need(n, (size_t)md->kd) * sizeof(double));
+  bs->ibuf = lvsi_malloc(tctx, 6 * n * sizeof(lapack_int));
+  if (!bs->buf || !bs->ibuf) return lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
+  return LVS_OK;
+}
+
+static void band_scratch_free(lvs_ctx *tctx, band_scratch *bs) {
+  lvsi_free(tctx, bs->buf);
+  lvsi_free(tctx, bs->ibuf);
+  bs->buf = NULL;
+  bs->ibuf = NULL;
+}
+
+static int solve_band(const model *md, double p, size_t m, double *w, double *vec, band_scratch *bs, lvs_ctx *tctx) {
+  size_t n = md->n, kd = (size_t)md->kd, ldab = kd + 1, ldg = 3 * kd + 1;
+  double *buf = bs->buf;
+  lapack_int *ibuf = bs->ibuf;
+  double *ab = buf, *d = ab + ldab * n, *e = d + n, *work = e + n, *x = work + 4 * n,
+         *gb = x + n, *wfull = gb + ldg * n;
+  lapack_int *iwork = ibuf, *iblock = iwork + 3 * n, *isplit = iblock + n, *ipiv = isplit + n;
+  const double *h0 = md->h0, *v = md->v;
+  double onenrm = 0;
+  for (size_t j = 0; j < n; j++) {
+    double cs = 0;
+    for (size_t r = 0; r <= kd && j + r < n; r++) {
+      double hv = h0[j * n + j + r] + p * v[j * n + j + r];
+      ab[j * ldab + r] = hv;
+      cs += fabs(hv);
+    }
+    for (size_t r = 1; r <= kd && r <= j; r++) cs += fabs(h0[(j - r) * n + j] + p * v[(j - r) * n + j]);
+    if (cs > onenrm) onenrm = cs;
+  }
+  double qdummy = 0;
+  lapack_int info = LAPACKE_dsbtrd_work(LAPACK_COL_MAJOR, 'N', 'L', (lapack_int)n, (lapack_int)kd, ab,
+                                        (lapack_int)ldab, d, e, &qdummy, 1, work);
+  lapack_int mfound = 0, nsplit = 0;
+  if (!info)
+    info = LAPACKE_dstebz_work('I', 'E', (lapack_int)n, 0, 0, 1, (lapack_int)m, 0.0, d, e, &mfound, &nsplit,
+                               wfull, iblock, isplit, work, iwork);
+  if (info || (size_t)mfound != m) {
+    return lvsi_fail(tctx, LVS_ELAPACK, "band eigensolver failed (info %d)", (int)info);
+  }
+  memcpy(w, wfull, m * sizeof(double));
+  if (vec) {
+    double eps = 2.220446049250313e-16;
+    double ortol = 1e-3 * onenrm, pertol = 10 * eps * (onenrm > 0 ? onenrm : 1);
+    double prev_shift = 0;
+    size_t cl0 = 0; /* first member of the current cluster */
+    for (size_t j = 0; j < m; j++) {
+      double shift = w[j];
+      if (j > 0) {
+        if (w[j] - w[j - 1] > ortol) cl0 = j;
+        if (shift - prev_shift < pertol) shift = prev_shift + pertol;
+      }
+      prev_shift = shift;
+      /* general band storage of H - shift, kl = ku = kd, rows kd.. used */
+      memset(gb, 0, ldg * n * sizeof(double));
+      for (size_t c = 0; c < n; c++) {
+        size_t r0 = c >= kd ? c - kd : 0, r1 = c + kd < n ? c + kd : n - 1;
+        for (size_t r = r0; r <= r1; r++) {
+          double hv = r >= c ? h0[c * n + r] + p * v[c * n + r] : h0[r * n + c] + p * v[r * n + c];
+          if (r == c) hv -= shift;
+          gb[c * ldg + 2 * kd + r - c] = hv;
+        }
+      }
+      info = LAPACKE_dgbtrf_work(LAPACK_COL_MAJOR, (lapack_int)n, (lapack_int)n, (lapack_int)kd, (lapack_int)kd,
+                                 gb, (lapack_int)ldg, ipiv);
+      if (info < 0) {
+        return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed (info %d)", (int)info);
+      }
+      /* exactly singular pivots: replace by eps * norm (the solve stays finite) */
+      for (size_t c = 0; c < n; c++)
+        if (gb[c * ldg + 2 * kd] == 0) gb[c * ldg + 2 * kd] = eps * (onenrm > 0 ? onenrm : 1);
+      double *xv = vec + j * n;
+      /* start: a fixed vector with no special structure; the shift is
+       * accurate to a few ulps of the norm, so two solves converge */
+      for (size_t i = 0; i < n; i++) xv[i] = 1.0 + 0.25 * (double)((i * 7 + j * 3) % 11) / 11.0;
+      for (int it = 0; it < 2; it++) {
+        info = LAPACKE_dgbtrs_work(LAPACK_COL_MAJOR, 'N', (lapack_int)n, (lapack_int)kd, (lapack_int)kd, 1, gb,
+                                   (lapack_int)ldg, ipiv, xv, (lapack_int)n);
+        for (int pass = 0; pass < 2; pass++)
+          for (size_t q = cl0; q < j; q++) {
+            const double *u = vec + q * n;
+            double o = 0;
+            for (size_t i = 0; i < n; i++) o += u[i] * xv[i];
+            for (size_t i = 0; i < n; i++) xv[i] -= o * u[i];
+          }
+        double nn = 0, big = 0;
+        size_t at = 0;
+        for (size_t i = 0; i < n; i++) {
+          nn += xv[i] * xv[i];
+          if (fabs(xv[i]) > big) { big = fabs(xv[i]); at = i; }
+        }
+        nn = sqrt(nn);
+        if (!(nn > 0) || !isfinite(nn)) {
+          return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed for level %zu", j + 1);
+        }
+        double sg = xv[at] < 0 ? -1.0 : 1.0;
+        for (size_t i = 0; i < n; i++) xv[i] *= sg / nn;
+      }
+    }
+  }
+  (void)x;
+  return LVS_OK;
+}
+
+/* lowest m energies of H(p) (and vectors as complex n x m when vec != NULL) */
+static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, double *w,
+                          double complex *vec, band_scratch *bs) {
+  size_t n = md->n;
+  if (md->kd >= 0) {
+    band_scratch own = {NULL, NULL};
+    if (!bs) bs = &own;
+    int st = band_scratch_get(tctx, md, bs);
+    double *rv = NULL;
+    if (!st && vec) {
+      rv = lvsi_malloc(tctx, n * m * sizeof(double));
+      if (!rv) st = lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
+    }
+    if (!st) st = solve_band(md, p, m, w, rv, bs, tctx);
+    if (!st && vec)
+      for (size_t q = 0; q < n * m; q++) vec[q] = rv[q];
+    lvsi_free(tctx, rv);
+    band_scratch_free(tctx, &own);
+    return st;
+  }
   lvs_matrix *h = NULL, *u = NULL;
   int st = lvs_matrix_new(tctx, n, n, md->cplx, &h);
   if (st) return st;
@@ -109,17 +305,278 @@ static int solve_point(lvs_ctx *tctx, const model *md, double p, size_t m, doubl
   return st;
 }
 
+static int solve_point(lvs_ctx *tctx, const model *md, double p, size_t m, double *w, double complex *vec) {
+  return solve_point_bs(tctx, md, p, m, w, vec, NULL);
+}
+
+/* ---- journal ------------------------------------------------------------- */
+#define JMAGIC "LVSWJ01\n"
+#define JHEAD 48
+
+static uint64_t fnv(uint64_t h, const void *p, size_t len) {
+  const unsigned char *c = p;
+  for (size_t i = 0; i < len; i++) {
+    h ^= c[i];
+    h *= 1099511628211ULL;
+  }
+  return h;
+}
+#define FNV0 14695981039346656037ULL
+
+typedef struct {
+  size_t n, count, npts;
+  int cplx;
+  uint64_t hash;
+  size_t recsize;     /* bytes of one record */
+  int fd;             /* own journal (append), -1 none */
+  off_t end;          /* append offset of the own journal */
+  char *own;          /* its name */
+  int nfiles;         /* files read (own first when present) */
+  int *fds;
+  char **names;
+  int *rec_file;      /* per point: file index or -1 */
+  off_t *rec_off;
+} journal;
+
+static void put64(unsigned char *b, uint64_t v) { memcpy(b, &v, 8); }
+
+static void head_bytes(const journal *j, unsigned char *b) {
+  memcpy(b, JMAGIC, 8);
+  put64(b + 8, j->n);
+  put64(b + 16, j->count);
+  put64(b + 24, j->npts);
+  put64(b + 32, (uint64_t)j->cplx);
+  put64(b + 40, j->hash);
+}
+
+static int read_full(int fd, void *buf, size_t len, off_t off) {
+  unsigned char *c = buf;
+  while (len) {
+    ssize_t r = pread(fd, c, len, off);
+    if (r < 0 && errno == EINTR) continue;
+    if (r <= 0) return -1;
+    c += r;
+    len -= (size_t)r;
+    off += r;
+  }
+  return 0;
+}
+
+static int write_full(int fd, const void *buf, size_t len, off_t off) {
+  const unsigned char *c = buf;
+  while (len) {
+    ssize_t r = pwrite(fd, c, len, off);
+    if (r < 0 && errno == EINTR) continue;
+    if (r <= 0) return -1;
+    c += r;
+    len -= (size_t)r;
+    off += r;
+  }
+  return 0;
+}
+
+static char *dupstr(lvs_ctx *ctx, const char *s) {
+  size_t l = strlen(s);
+  char *d = lvsi_malloc(ctx, l + 1);
+  if (d) memcpy(d, s, l + 1);
+  return d;
+}
+
+/* scan one file: index its good records; returns the end of the last good
+ * record, or -1 with the error set (another sweep's file, unreadable) */
+static off_t scan_file(lvs_ctx *ctx, journal *j, int fi, unsigned char *rec) {
+  int fd = j->fds[fi];
+  struct stat stt;
+  if (fstat(fd, &stt) != 0) {
+    lvsi_fail(ctx, LVS_EINVAL, "cannot read journal '%s': %s", j->names[fi], strerror(errno));
+    return -1;
+  }
+  if (stt.st_size < JHEAD) return 0; /* empty or torn header: start anew */
+  unsigned char hb[JHEAD], want[JHEAD];
+  head_bytes(j, want);
+  if (read_full(fd, hb, JHEAD, 0) != 0 || memcmp(hb, want, JHEAD) != 0) {
+    lvsi_fail(ctx, LVS_EINVAL,
+              "journal '%s' belongs to another sweep (other model, grid or level count); remove it to start anew",
+              j->names[fi]);
+    return -1;
+  }
+  off_t off = JHEAD;
+  while (off + (off_t)j->recsize <= stt.st_size) {
+    if (read_full(fd, rec, j->recsize, off) != 0) break;
+    uint64_t k, chk;
+    memcpy(&k, rec, 8);
+    memcpy(&chk, rec + j->recsize - 8, 8);
+    if (k >= j->npts || fnv(FNV0, rec, j->recsize - 8) != chk) break;
+    if (j->rec_file[k] < 0) {
+      j->rec_file[k] = fi;
+      j->rec_off[k] = off;
+    }
+    off += (off_t)j->recsize;
+  }
+  return off;
+}
+
+static int journal_add_file(lvs_ctx *ctx, journal *j, const char *name, int fd) {
+  j->fds[j->nfiles] = fd;
+  j->names[j->nfiles] = dupstr(ctx, name);
+  if (!j->names[j->nfiles]) {
+    close(fd);
+    return lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory");
+  }
+  j->nfiles++;
+  return LVS_OK;
+}
+
+static void journal_close(lvs_ctx *ctx, journal *j) {
+  for (int i = 0; i < j->nfiles; i++) {
+    if (j->fds[i] >= 0) close(j->fds[i]);
+    lvsi_free(ctx, j->names[i]);
+  }
+  lvsi_free(ctx, j->fds);
+  lvsi_free(ctx, j->names);
+  lvsi_free(ctx, j->rec_file);
+  lvsi_free(ctx, j->rec_off);
+  lvsi_free(ctx, j->own);
+  j->fds = NULL;
+  j->names = NULL;
+  j->rec_file = NULL;
+  j->rec_off = NULL;
+  j->own = NULL;
+  j->nfiles = 0;
+  j->fd = -1;
+}
+
+/* open the own journal (base.part or base.part.K-of-N) and, for a whole
+ * run, every part file of the same sweep */
+static int journal_open(lvs_ctx *ctx, journal *j, const char *base, size_t shard, size_t shards) {
+  size_t bl = strlen(base);
+  glob_t g;
+  memset(&g, 0, sizeof g);
+  int gl = 0;
+  if (!shards) {
+    char *pat = lvsi_malloc(ctx, 2 * bl + 32);
+    if (!pat) return lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory");
+    /* escape glob specials in the base name */
+    size_t q = 0;
+    for (size_t i = 0; i < bl; i++) {
+      if (strchr("*?[\\", base[i])) pat[q++] = '\\';
+      pat[q++] = base[i];
+    }
+    strcpy(pat + q, ".part.*-of-*");
+    gl = glob(pat, 0, NULL, &g) == 0;
+    lvsi_free(ctx, pat);
+  }
+  size_t maxf = 1 + (gl ? g.gl_pathc : 0);
+  j->fds = lvsi_calloc(ctx, maxf, sizeof(int));
+  j->names = lvsi_calloc(ctx, maxf, sizeof(char *));
+  j->rec_file = lvsi_malloc(ctx, j->npts * sizeof(int));
+  j->rec_off = lvsi_malloc(ctx, j->npts * sizeof(off_t));
+  j->own = lvsi_malloc(ctx, bl + 64);
+  unsigned char *rec = lvsi_malloc(ctx, j->recsize);
+  int st = LVS_OK;
+  if (!j->fds || !j->names || !j->rec_file || !j->rec_off || !j->own || !rec) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory for the journal index");
+    goto out;
+  }
+  for (size_t k = 0; k < j->npts; k++) j->rec_file[k] = -1;
+  if (shards) snprintf(j->own, bl + 64, "%s.part.%zu-of-%zu", base, shard, shards);
+  else snprintf(j->own, bl + 64, "%s.part", base);
+  int fd = open(j->own, O_RDWR | O_CREAT | O_CLOEXEC, 0644);
+  if (fd < 0) {
+    st = lvsi_fail(ctx, LVS_EINVAL, "cannot open journal '%s': %s", j->own, strerror(errno));
+    goto out;
+  }
+  if ((st = journal_add_file(ctx, j, j->own, fd))) goto out;
+  off_t end = scan_file(ctx, j, 0, rec);
+  if (end < 0) {
+    st = lvs_errcode(ctx);
+    goto out;
+  }
+  if (end == 0) {
+    unsigned char hb[JHEAD];
+    head_bytes(j, hb);
+    if (ftruncate(fd, 0) != 0 || write_full(fd, hb, JHEAD, 0) != 0 || fsync(fd) != 0) {
+      st = lvsi_fail(ctx, LVS_EINVAL, "cannot write journal '%s': %s", j->own, strerror(errno));
+      goto out;
+    }
+    end = JHEAD;
+  } else if (ftruncate(fd, end) != 0) { /* cut a torn record */
+    st = lvsi_fail(ctx, LVS_EINVAL, "cannot write journal '%s': %s", j->own, strerror(errno));
+    goto out;
+  }
+  j->fd = fd;
+  j->end = end;
+  if (gl) {
+    for (size_t i = 0; i < g.gl_pathc; i++) {
+      int pf = open(g.gl_pathv[i], O_RDONLY | O_CLOEXEC);
+      if (pf < 0) {
+        st = lvsi_fail(ctx, LVS_EINVAL, "cannot read part file '%s': %s", g.gl_pathv[i], strerror(errno));
+        goto out;
+      }
+      if ((st = journal_add_file(ctx, j, g.gl_pathv[i], pf))) goto out;
+      if (scan_file(ctx, j, j->nfiles - 1, rec) < 0) {
+        st = lvs_errcode(ctx);
+        goto out;
+      }
+    }
+  }
+out:
+  if (gl) globfree(&g);
+  lvsi_free(ctx, rec);
+  return st;
+}
+
+/* record of point k into rec (recsize bytes) */
+static void pack_record(const journal *j, size_t k, const double *w, const double complex *u, unsigned char *rec) {
+  uint64_t kk = k;
+  memcpy(rec, &kk, 8);
+  memcpy(rec + 8, w, j->count * 8);
+  double *dv = (double *)(void *)(rec + 8 + j->count * 8);
+  size_t len = j->n * j->count;
+  if (j->cplx) memcpy(dv, u, len * sizeof(double complex));
+  else
+    for (size_t q = 0; q < len; q++) dv[q] = creal(u[q]);
+  uint64_t chk = fnv(FNV0, rec, j->recsize - 8);
+  memcpy(rec + j->recsize - 8, &chk, 8);
+}
+
+static int load_record(lvs_ctx *ctx, const journal *j, size_t k, double *w, double complex *u, unsigned char *rec) {
+  int fi = j->rec_file[k];
+  if (read_full(j->fds[fi], rec, j->recsize, j->rec_off[k]) != 0)
+    return lvsi_fail(ctx, LVS_EINVAL, "cannot read journal '%s': %s", j->names[fi], strerror(errno));
+  memcpy(w, rec + 8, j->count * 8);
+  const double *dv = (const double *)(const void *)(rec + 8 + j->count * 8);
+  size_t len = j->n * j->count;
+  if (j->cplx) memcpy(u, dv, len * sizeof(double complex));
+  else
+    for (size_t q = 0; q < len; q++) u[q] = dv[q];
+  return LVS_OK;
+}
+
 /* ---- workers ---------------------------------------------------------------- */
+typedef struct {
+  pthread_mutex_t mu;
+  journal *j;           /* NULL: no journal */
+  size_t done, total;   /* progress */
+  void (*progress)(void *ud, size_t done, size_t total);
+  void *progress_ud;
+  int io_err;
+  char io_msg[300];
+} shared_out;
+
 typedef struct {
   const model *md;
   double from, to;
   size_t steps;
-  size_t k0, k1;   /* block of points [k0, k1) */
-  double *w;       /* (k - k0) * count */
-  double complex *vec; /* (k - k0) * n * count */
+  size_t k0;            /* first point of the block */
+  const size_t *todo;   /* points to compute */
+  size_t ntodo;
+  double *w;            /* (k - k0) * count */
+  double complex *vec;  /* (k - k0) * n * count */
   int tid, nthreads;
   locked_alloc *la;
   size_t dense_cap;
+  shared_out *so;
   int st;
   char msg[512];
 } worker;
@@ -135,18 +592,76 @@ static void *work(void *arg) {
     return NULL;
   }
   lvs_ctx_set_dense_cap(tctx, wk->dense_cap);
-  for (size_t k = wk->k0 + (size_t)wk->tid; k < wk->k1; k += (size_t)wk->nthreads) {
+  shared_out *so = wk->so;
+  band_scratch bs = {NULL, NULL};
+  unsigned char *rec = NULL;
+  if (so->j) {
+    rec = lvsi_malloc(tctx, so->j->recsize);
+    if (!rec) {
+      wk->st = LVS_ENOMEM;
+      snprintf(wk->msg, sizeof wk->msg, "sweep: out of memory for a journal record");
+      lvs_ctx_free(tctx);
+      return NULL;
+    }
+  }
+  for (size_t t = (size_t)wk->tid; t < wk->ntodo; t += (size_t)wk->nthreads) {
+    size_t k = wk->todo[t];
     double p = grid_p(wk->from, wk->to, wk->steps, k);
-    int st = solve_point(tctx, md, p, md->count, wk->w + (k - wk->k0) * md->count,
-                         wk->vec + (k - wk->k0) * md->n * md->count);
+    double *w = wk->w + (k - wk->k0) * md->count;
+    double complex *u = wk->vec + (k - wk->k0) * md->n * md->count;
+    int st = solve_point_bs(tctx, md, p, md->count, w, u, &bs);
     if (st) {
       wk->st = st;
       snprintf(wk->msg, sizeof wk->msg, "at p = %.17g: %s", p, lvs_errmsg(tctx));
       break;
     }
+    if (rec) pack_record(so->j, k, w, u, rec);
+    pthread_mutex_lock(&so->mu);
+    if (rec && !so->io_err) {
+      journal *j = so->j;
+      if (write_full(j->fd, rec, j->recsize, j->end) != 0 || fdatasync(j->fd) != 0) {
+        so->io_err = 1;
+        snprintf(so->io_msg, sizeof so->io_msg, "cannot write journal '%s': %s", j->own, strerror(errno));
+      } else {
+        j->end += (off_t)j->recsize;
+      }
+    }
+    so->done++;
+    if (so->progress) so->progress(so->progress_ud, so->done, so->total);
+    int bad = so->io_err;
+    pthread_mutex_unlock(&so->mu);
+    if (bad) break;
   }
+  lvsi_free(tctx, rec);
+  band_scratch_free(tctx, &bs);
   lvs_ctx_free(tctx);
   return NULL;
+}
+
+/* compute the listed points of a block with nthreads threads */
+static int run_workers(lvs_ctx *ctx, worker *tmpl, int nthreads) {
+  worker wk[SWEEP_MAX_THREADS];
+  pthread_t th[SWEEP_MAX_THREADS];
+  int nt = nthreads;
+  if ((size_t)nt > tmpl->ntodo) nt = (int)tmpl->ntodo;
+  if (nt < 1) return LVS_OK;
+  for (int t = 0; t < nt; t++) {
+    wk[t] = *tmpl;
+    wk[t].tid = t;
+    wk[t].nthreads = nt;
+  }
+  int started = 0;
+  for (int t = 1; t < nt; t++) {
+    if (pthread_create(&th[t], NULL, work, &wk[t]) != 0) break;
+    started = t;
+  }
+  for (int t = started + 1; t < nt; t++) work(&wk[t]); /* threads that could not start */
+  work(&wk[0]);
+  for (int t = 1; t <= started; t++) pthread_join(th[t], NULL);
+  for (int t = 0; t < nt; t++)
+    if (wk[t].st) return lvsi_fail(ctx, wk[t].st, "%s", wk[t].msg);
+  if (tmpl->so->io_err) return lvsi_fail(ctx, LVS_EINVAL, "%s", tmpl->so->io_msg);
+  return LVS_OK;
 }
 
 /* ---- Hungarian method: minimize sum c[i][pi(i)] over permutations ----------
@@ -318,12 +833,80 @@ static int cmp_cross(const void *a, const void *b) {
 }
 
 /* ---- the sweep ------------------------------------------------------------ */
+static void free_used(lvs_ctx *ctx, char **used) {
+  if (!used) return;
+  for (size_t i = 0; used[i]; i++) lvsi_free(ctx, used[i]);
+  lvsi_free(ctx, used);
+}
+
 void lvs_sweep_free(lvs_sweep *s) {
   if (!s) return;
   lvs_ctx *ctx = s->ctx;
   lvsi_free(ctx, s->e);
+  lvsi_free(ctx, s->ser);
   lvsi_free(ctx, s->cross);
+  free_used(ctx, s->used);
+  lvsi_free(ctx, s->pname);
+  lvsi_free(ctx, s->punit);
+  lvsi_free(ctx, s->eunit);
   lvsi_free(ctx, s);
+}
+
+/* half-bandwidth of a dense real n x n array */
+static long bandwidth(const double *a, size_t n) {
+  long kd = 0;
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = 0; i < n; i++)
+      if (a[j * n + i] != 0) {
+        long d = (long)(i > j ? i - j : j - i);
+        if (d > kd) kd = d;
+      }
+  return kd;
+}
+
+/* series energies beside the tracked levels (see the head comment) */
+static int add_series(lvs_sweep *s, const lvs_sweep_spec *spec) {
+  lvs_ctx *ctx = s->ctx;
+  size_t count = s->count, npts = s->npts;
+  size_t *lev = lvsi_malloc(ctx, count * sizeof(size_t));
+  ranked *srt = lvsi_malloc(ctx, count * sizeof(ranked));
+  s->ser = lvsi_malloc(ctx, count * npts * sizeof(double));
+  if (!lev || !srt || !s->ser) {
+    lvsi_free(ctx, lev);
+    lvsi_free(ctx, srt);
+    return lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory for the series");
+  }
+  for (size_t a = 0; a < count; a++) lev[a] = a;
+  lvs_series *ps = NULL;
+  int st = lvs_series_new(spec->h0, spec->v, spec->series_order, lev, count, 1e-10, 0, &ps);
+  if (!st) {
+    /* grid point nearest p = 0 */
+    size_t k0 = 0;
+    double best = INFINITY;
+    for (size_t k = 0; k < npts; k++) {
+      double d = fabs(grid_p(s->from, s->to, npts - 1, k));
+      if (d < best) { best = d; k0 = k; }
+    }
+    for (size_t a = 0; a < count; a++) {
+      srt[a].e = s->e[a * npts + k0];
+      srt[a].a = a;
+    }
+    qsort(srt, count, sizeof *srt, cmp_ranked);
+    for (size_t r = 0; r < count && !st; r++) {
+      size_t a = srt[r].a;
+      for (size_t k = 0; k < npts && !st; k++)
+        st = lvs_series_at(ps, r, grid_p(s->from, s->to, npts - 1, k), &s->ser[a * npts + k]);
+    }
+  }
+  lvs_series_free(ps);
+  lvsi_free(ctx, lev);
+  lvsi_free(ctx, srt);
+  if (st) {
+    lvsi_free(ctx, s->ser);
+    s->ser = NULL;
+  }
+  s->series_order = st ? 0 : spec->series_order;
+  return st;
 }
 
 int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
@@ -350,6 +933,12 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   int nthreads = spec->threads ? spec->threads : 2;
   if (nthreads < 1 || nthreads > SWEEP_MAX_THREADS)
     return lvsi_fail(ctx, LVS_ERANGE, "threads must be from 1 to %d, got %d", SWEEP_MAX_THREADS, nthreads);
+  if (spec->series_order < 0 || spec->series_order > 1000)
+    return lvsi_fail(ctx, LVS_ERANGE, "series order must be from 0 to 1000, got %d", spec->series_order);
+  if (spec->shards && (spec->shard < 1 || spec->shard > spec->shards))
+    return lvsi_fail(ctx, LVS_ERANGE, "shard must be from 1 to %zu, got %zu", spec->shards, spec->shard);
+  if ((spec->shards || spec->merge_only) && (!spec->journal || !*spec->journal))
+    return lvsi_fail(ctx, LVS_EINVAL, "shards and merges need an output path (the journal base)");
 
   size_t count = spec->count, steps = spec->steps, npts = steps + 1;
   int cplx = lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v);
@@ -359,14 +948,22 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   lvs_matrix *dh = NULL, *dv = NULL;
   double *h0a = NULL, *va = NULL, *wblk = NULL, *work_d = NULL;
   double complex *vblk = NULL, *prev = NULL, *tmp = NULL;
-  size_t *pi = NULL, *perm = NULL, *iw = NULL;
+  size_t *pi = NULL, *perm = NULL, *iw = NULL, *todo = NULL;
   char *cw = NULL;
   ranked *srt = NULL;
+  unsigned char *rec = NULL;
   size_t ccap = 0;
   locked_alloc la;
   la.f = ctx->alloc;
   la.ud = ctx->ud;
   pthread_mutex_init(&la.mu, NULL);
+  journal jn;
+  memset(&jn, 0, sizeof jn);
+  jn.fd = -1;
+  shared_out so;
+  memset(&so, 0, sizeof so);
+  pthread_mutex_init(&so.mu, NULL);
+  int blas_threads = 0;
 
   /* dense copies of the visible blocks, both of the common kind */
   {
@@ -389,7 +986,12 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     lvs_matrix_free(dv);
     dh = dv = NULL;
   }
-  model md = {n, count, cplx, h0a, va};
+  model md = {n, count, cplx, h0a, va, -1};
+  if (!cplx && n >= 16) {
+    long k1 = bandwidth(h0a, n), k2 = bandwidth(va, n);
+    long kd = k1 > k2 ? k1 : k2;
+    if (kd >= 1 && 4 * (size_t)kd <= n) md.kd = kd;
+  }
 
   s = lvsi_calloc(ctx, 1, sizeof *s);
   if (!s) goto nomem;
@@ -402,6 +1004,53 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   s->min_overlap = 1.0;
   s->e = lvsi_malloc(ctx, count * npts * sizeof(double));
   if (!s->e) goto nomem;
+  for (size_t q = 0; q < count * npts; q++) s->e[q] = NAN;
+
+  /* journal: own file plus (whole runs) the part files of shards */
+  if (spec->journal && *spec->journal) {
+    jn.n = n;
+    jn.count = count;
+    jn.npts = npts;
+    jn.cplx = cplx;
+    uint64_t h = FNV0;
+    size_t len = n * n * (cplx ? 2 : 1);
+    uint64_t hdr[4] = {n, count, steps, (uint64_t)cplx};
+    h = fnv(h, hdr, sizeof hdr);
+    h = fnv(h, &spec->from, sizeof(double));
+    h = fnv(h, &spec->to, sizeof(double));
+    h = fnv(h, h0a, len * sizeof(double));
+    h = fnv(h, va, len * sizeof(double));
+    jn.hash = h;
+    jn.recsize = 8 * (2 + count + n * count * (cplx ? 2 : 1));
+    if ((st = journal_open(ctx, &jn, spec->journal, spec->shard, spec->shards))) goto fail;
+    so.j = &jn;
+    /* remember the files to remove after the final write */
+    s->used = lvsi_calloc(ctx, (size_t)jn.nfiles + 1, sizeof(char *));
+    if (!s->used) goto nomem;
+    for (int i = 0; i < jn.nfiles; i++)
+      if (!(s->used[i] = dupstr(ctx, jn.names[i]))) goto nomem;
+    rec = lvsi_malloc(ctx, jn.recsize);
+    if (!rec) goto nomem;
+  }
+  so.progress = spec->progress;
+  so.progress_ud = spec->progress_ud;
+  for (size_t k = 0; k < npts; k++) {
+    int mine = !spec->shards || k % spec->shards == spec->shard - 1;
+    if (!mine) continue;
+    so.total++;
+    if (so.j && jn.rec_file[k] >= 0) so.done++;
+  }
+  if (spec->merge_only && so.done < so.total) {
+    for (size_t k = 0; k < npts; k++)
+      if (jn.rec_file[k] < 0) {
+        st = lvsi_fail(ctx, LVS_EINVAL,
+                       "merge: %zu of %zu points are in no part file (first: point %zu, p = %.17g); "
+                       "run the missing shards first",
+                       so.total - so.done, so.total, k + 1, grid_p(spec->from, spec->to, steps, k));
+        goto fail;
+      }
+  }
+  if (so.progress) so.progress(so.progress_ud, so.done, so.total);
 
   /* block size: about 32 MB of vectors, at least one point per thread */
   size_t per = n * count * sizeof(double complex);
@@ -418,8 +1067,9 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   pi = lvsi_malloc(ctx, count * sizeof(size_t));
   perm = lvsi_malloc(ctx, count * sizeof(size_t));
   iw = lvsi_malloc(ctx, 2 * (count + 1) * sizeof(size_t));
+  todo = lvsi_malloc(ctx, blk * sizeof(size_t));
   cw = lvsi_malloc(ctx, count + 1);
-  if (!wblk || !vblk || !prev || !tmp || !work_d || !pi || !perm || !iw || !cw) goto nomem;
+  if (!wblk || !vblk || !prev || !tmp || !work_d || !pi || !perm || !iw || !todo || !cw) goto nomem;
   double *cost = work_d, *hu = cost + count * count, *hv = hu + count + 1, *hmin = hv + count + 1,
          *norm2 = hmin + count + 1;
 
@@ -436,32 +1086,30 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   }
   double degen_tol = 1e-10 * escale;
 
-  worker wk[SWEEP_MAX_THREADS];
-  pthread_t th[SWEEP_MAX_THREADS];
+  /* one BLAS thread always: no oversubscription, and OpenBLAS's own
+   * threading would make the rounding depend on the thread count */
+  if (openblas_get_num_threads && openblas_set_num_threads) {
+    blas_threads = openblas_get_num_threads();
+    openblas_set_num_threads(1);
+  }
   for (size_t k0 = 0; k0 < npts; k0 += blk) {
     size_t k1 = k0 + blk < npts ? k0 + blk : npts;
-    int nt = nthreads;
-    if ((size_t)nt > k1 - k0) nt = (int)(k1 - k0);
-    for (int t = 0; t < nt; t++) {
-      wk[t] = (worker){&md, spec->from, spec->to, steps, k0, k1, wblk, vblk, t, nt, &la,
-                       ctx->dense_cap, LVS_OK, {0}};
-    }
-    int started = 0;
-    for (int t = 1; t < nt; t++) {
-      if (pthread_create(&th[t], NULL, work, &wk[t]) != 0) break;
-      started = t;
-    }
-    /* threads that could not start: their points are done here */
-    if (started < nt - 1) {
-      for (int t = started + 1; t < nt; t++) work(&wk[t]);
-    }
-    work(&wk[0]);
-    for (int t = 1; t <= started; t++) pthread_join(th[t], NULL);
-    for (int t = 0; t < nt; t++)
-      if (wk[t].st) {
-        st = lvsi_fail(ctx, wk[t].st, "%s", wk[t].msg);
-        goto fail;
+    size_t ntodo = 0;
+    for (size_t k = k0; k < k1; k++) {
+      int mine = !spec->shards || k % spec->shards == spec->shard - 1;
+      if (!mine) continue;
+      if (so.j && jn.rec_file[k] >= 0) {
+        if (spec->shards) continue; /* a shard only adds to its part */
+        if ((st = load_record(ctx, &jn, k, wblk + (k - k0) * count, vblk + (k - k0) * n * count, rec)))
+          goto fail;
+      } else {
+        todo[ntodo++] = k;
       }
+    }
+    worker tmpl = {&md, spec->from, spec->to, steps, k0, todo, ntodo, wblk, vblk, 0, 1, &la,
+                   ctx->dense_cap, &so, LVS_OK, {0}};
+    if ((st = run_workers(ctx, &tmpl, nthreads))) goto fail;
+    if (spec->shards) continue;
     /* sequential tracking through the block */
     for (size_t k = k0; k < k1; k++) {
       double *w = wblk + (k - k0) * count;
@@ -495,6 +1143,15 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
       for (size_t a = 0; a < count; a++) s->e[a * npts + k] = w[perm[a]];
       memcpy(prev, u, n * count * sizeof *prev);
     }
+  }
+  if (blas_threads > 0) {
+    openblas_set_num_threads(blas_threads);
+    blas_threads = 0;
+  }
+  if (spec->shards) {
+    s->partial = 1;
+    s->done = so.done;
+    goto finish;
   }
 
   /* crossings: local minima of adjacent gaps over the grid, refined */
@@ -555,7 +1212,9 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     }
     if (s->ncross > 1) qsort(s->cross, s->ncross, sizeof *s->cross, cmp_cross);
   }
+  if (spec->series_order > 0 && (st = add_series(s, spec))) goto fail;
 
+finish:
   *out = s;
   s = NULL;
   st = LVS_OK;
@@ -565,6 +1224,8 @@ nomem:
 fail:
   lvs_sweep_free(s);
 done:
+  if (blas_threads > 0) openblas_set_num_threads(blas_threads);
+  journal_close(ctx, &jn);
   lvs_matrix_free(dh);
   lvs_matrix_free(dv);
   lvsi_free(ctx, h0a);
@@ -577,9 +1238,12 @@ done:
   lvsi_free(ctx, pi);
   lvsi_free(ctx, perm);
   lvsi_free(ctx, iw);
+  lvsi_free(ctx, todo);
   lvsi_free(ctx, cw);
   lvsi_free(ctx, srt);
+  lvsi_free(ctx, rec);
   pthread_mutex_destroy(&la.mu);
+  pthread_mutex_destroy(&so.mu);
   return st;
 }
 
@@ -591,11 +1255,46 @@ double lvs_sweep_param(const lvs_sweep *s, size_t k) {
 const double *lvs_sweep_level(const lvs_sweep *s, size_t level) {
   return level < s->count ? s->e + level * s->npts : NULL;
 }
+const double *lvs_sweep_series(const lvs_sweep *s, size_t level) {
+  return s->ser && level < s->count ? s->ser + level * s->npts : NULL;
+}
+int lvs_sweep_series_order(const lvs_sweep *s) { return s->series_order; }
 size_t lvs_sweep_ncrossings(const lvs_sweep *s) { return s->ncross; }
 const lvs_sweep_crossing *lvs_sweep_crossing_at(const lvs_sweep *s, size_t k) {
   return k < s->ncross ? &s->cross[k] : NULL;
 }
 double lvs_sweep_min_overlap(const lvs_sweep *s) { return s->min_overlap; }
+int lvs_sweep_is_partial(const lvs_sweep *s, size_t *done) {
+  if (done) *done = s->done;
+  return s->partial;
+}
+
+int lvs_sweep_remove_journals(lvs_sweep *s) {
+  if (!s->used) return LVS_OK;
+  for (size_t i = 0; s->used[i]; i++)
+    if (remove(s->used[i]) != 0 && errno != ENOENT)
+      return lvsi_fail(s->ctx, LVS_EINVAL, "cannot remove journal '%s': %s", s->used[i], strerror(errno));
+  free_used(s->ctx, s->used);
+  s->used = NULL;
+  return LVS_OK;
+}
+
+int lvs_sweep_set_labels(lvs_sweep *s, const char *param, const char *param_unit, const char *energy_unit) {
+  lvs_ctx *ctx = s->ctx;
+  const char *in[3] = {param, param_unit, energy_unit};
+  char **dst[3] = {&s->pname, &s->punit, &s->eunit};
+  for (int i = 0; i < 3; i++) {
+    if (!in[i]) continue;
+    for (const char *c = in[i]; *c; c++)
+      if (*c == '\n' || *c == '\r' || *c == ',' || *c == '"' || *c == '\\')
+        return lvsi_fail(ctx, LVS_EINVAL, "labels may not hold newlines, commas, quotes or backslashes: '%s'", in[i]);
+    char *d = dupstr(ctx, in[i]);
+    if (!d) return lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory");
+    lvsi_free(ctx, *dst[i]);
+    *dst[i] = d;
+  }
+  return LVS_OK;
+}
 
 /* ---- writers ----------------------------------------------------------------- */
 static int ends_with(const char *s, const char *suf) {
@@ -606,6 +1305,7 @@ static int ends_with(const char *s, const char *suf) {
 int lvs_sweep_write(const lvs_sweep *s, const char *path) {
   lvs_ctx *ctx = s->ctx;
   if (!path || !*path) return lvsi_fail(ctx, LVS_EINVAL, "write needs a file path");
+  if (s->partial) return lvsi_fail(ctx, LVS_EINVAL, "a shard has only part of the points: merge the parts first");
   size_t plen = strlen(path);
   char *tmpname = lvsi_malloc(ctx, plen + 5);
   if (!tmpname) return lvsi_fail(ctx, LVS_ENOMEM, "sweep write: out of memory");
@@ -619,14 +1319,33 @@ int lvs_sweep_write(const lvs_sweep *s, const char *path) {
     return st;
   }
   size_t npts = s->npts, count = s->count;
+  const char *pn = s->pname ? s->pname : "p";
+  char about[600];
+  {
+    int l = snprintf(about, sizeof about, "H(%s) = H0 + %s V", pn, pn);
+    if (s->punit && *s->punit) l += snprintf(about + l, sizeof about - (size_t)l, "; %s in %s", pn, s->punit);
+    if (s->eunit && *s->eunit) l += snprintf(about + l, sizeof about - (size_t)l, "; energies in %s", s->eunit);
+    else l += snprintf(about + l, sizeof about - (size_t)l, "; energies in the model's units");
+    if (s->ser)
+      snprintf(about + l, sizeof about - (size_t)l, "; E<k>_series: Rayleigh-Schroedinger series to order %d",
+               s->series_order);
+  }
   if (ends_with(path, ".json")) {
-    fprintf(f, "{\n  \"about\": \"H(p) = H0 + p V; energies in the model's units\",\n  \"p\": [");
+    fprintf(f, "{\n  \"about\": \"%s\",\n  \"param\": \"%s\",\n  \"p\": [", about, pn);
     for (size_t k = 0; k < npts; k++) fprintf(f, "%s%.17g", k ? ", " : "", lvs_sweep_param(s, k));
     fprintf(f, "],\n  \"levels\": [");
     for (size_t a = 0; a < count; a++) {
       fprintf(f, "%s\n    [", a ? "," : "");
       for (size_t k = 0; k < npts; k++) fprintf(f, "%s%.17g", k ? ", " : "", s->e[a * npts + k]);
       fprintf(f, "]");
+    }
+    if (s->ser) {
+      fprintf(f, "\n  ],\n  \"series_order\": %d,\n  \"series\": [", s->series_order);
+      for (size_t a = 0; a < count; a++) {
+        fprintf(f, "%s\n    [", a ? "," : "");
+        for (size_t k = 0; k < npts; k++) fprintf(f, "%s%.17g", k ? ", " : "", s->ser[a * npts + k]);
+        fprintf(f, "]");
+      }
     }
     fprintf(f, "\n  ],\n  \"crossings\": [");
     for (size_t c = 0; c < s->ncross; c++) {
@@ -636,16 +1355,21 @@ int lvs_sweep_write(const lvs_sweep *s, const char *path) {
     }
     fprintf(f, "%s]\n}\n", s->ncross ? "\n  " : "");
   } else {
-    fprintf(f, "# H(p) = H0 + p V; energies in the model's units\np");
+    fprintf(f, "# %s\n%s", about, pn);
     for (size_t a = 0; a < count; a++) fprintf(f, ",E%zu", a + 1);
+    if (s->ser)
+      for (size_t a = 0; a < count; a++) fprintf(f, ",E%zu_series", a + 1);
     fputc('\n', f);
     for (size_t k = 0; k < npts; k++) {
       fprintf(f, "%.17g", lvs_sweep_param(s, k));
       for (size_t a = 0; a < count; a++) fprintf(f, ",%.17g", s->e[a * npts + k]);
+      if (s->ser)
+        for (size_t a = 0; a < count; a++) fprintf(f, ",%.17g", s->ser[a * npts + k]);
       fputc('\n', f);
     }
   }
   int bad = ferror(f);
+  if (fflush(f) != 0 || fsync(fileno(f)) != 0) bad = 1;
   if (fclose(f) != 0) bad = 1;
   if (bad) {
     remove(tmpname);

@@ -4,6 +4,10 @@
  *                                          as a table (its `...` and the
  *                                          global `params`), numbers parsed
  *   levelshift -e CODE [name=value ...]    run a string
+ *   levelshift FILE.lua --shard K/N ...    compute shard K of N of each
+ *                                          ls.sweep with out= (also from
+ *                                          SLURM_ARRAY_TASK_ID/_COUNT/_MIN)
+ *   levelshift FILE.lua --merge ...        join the shards' part files
  *   levelshift --help | --version
  *
  * A Lua error prints "levelshift: message" and a traceback on stderr and
@@ -22,13 +26,25 @@ static void usage(FILE *f) {
           "       levelshift -e CODE [name=value ...]\n"
           "       levelshift RECIPE [name=value ...]   (a recipe by name; --recipes lists them)\n"
           "       levelshift --help | --version | --recipes\n"
+          "       levelshift FILE.lua --shard K/N [name=value ...]   (a share of each sweep's points)\n"
+          "       levelshift FILE.lua --merge [name=value ...]       (join the shards' part files)\n"
           "\n"
           "Runs a Lua 5.4 script with the levelshift module loaded as the global `ls`.\n"
           "name=value pairs reach the script as a table: its `...` and the global\n"
           "`params` (values that look like numbers become numbers).\n");
 }
 
+/* the error object ls.sweep raises when a shard's part is complete */
+static int is_shard_done(lua_State *L, int idx) {
+  if (!lua_istable(L, idx)) return 0;
+  lua_getfield(L, idx, "levelshift_shard_done");
+  int r = lua_toboolean(L, -1);
+  lua_pop(L, 1);
+  return r;
+}
+
 static int traceback(lua_State *L) {
+  if (is_shard_done(L, 1)) return 1;
   const char *msg = lua_tostring(L, 1);
   if (!msg) msg = lua_pushfstring(L, "(error object is a %s value)", luaL_typename(L, 1));
   luaL_traceback(L, L, msg, 1);
@@ -59,6 +75,11 @@ static int push_params(lua_State *L, int argc, char **argv, int first) {
 }
 
 static int report(lua_State *L, int status) {
+  if (status != LUA_OK && is_shard_done(L, -1)) {
+    lua_getfield(L, -1, "message");
+    fprintf(stderr, "levelshift: %s\n", lua_tostring(L, -1));
+    return 0;
+  }
   if (status != LUA_OK) {
     const char *msg = lua_tostring(L, -1);
     fprintf(stderr, "levelshift: %s\n", msg ? msg : "(error object is not a string)");
@@ -74,6 +95,62 @@ static int run_chunk(lua_State *L, int loadstatus, int argc, char **argv, int fi
   lua_insert(L, -3);
   int st = lua_pcall(L, 1, 0, -3);
   return report(L, st);
+}
+
+/* --shard K/N, --merge and the array-job variables -> ls._run (read by
+ * ls.sweep); the two options are taken out of argv */
+static int sweep_run_options(lua_State *L, int *argc, char **argv) {
+  long k = 0, n = 0;
+  int merge = 0, j = 2;
+  const char *tid = getenv("SLURM_ARRAY_TASK_ID"), *tcnt = getenv("SLURM_ARRAY_TASK_COUNT");
+  if (tid && tcnt && *tid && *tcnt) {
+    const char *tmin = getenv("SLURM_ARRAY_TASK_MIN");
+    long id = strtol(tid, NULL, 10), cnt = strtol(tcnt, NULL, 10), mn = tmin && *tmin ? strtol(tmin, NULL, 10) : 0;
+    k = id - mn + 1;
+    n = cnt;
+    if (n < 1 || k < 1 || k > n) {
+      fprintf(stderr, "levelshift: SLURM_ARRAY_TASK_ID=%s with COUNT=%s and MIN=%s gives no shard from 1 to %ld\n",
+              tid, tcnt, tmin ? tmin : "(unset: 0)", n);
+      return 2;
+    }
+  }
+  for (int i = 2; i < *argc; i++) {
+    if (!strcmp(argv[i], "--shard")) {
+      char c;
+      if (i + 1 >= *argc || sscanf(argv[i + 1], "%ld/%ld%c", &k, &n, &c) != 2 || n < 1 || k < 1 || k > n) {
+        fprintf(stderr, "levelshift: --shard needs K/N with 1 <= K <= N, e.g. --shard 2/8\n");
+        return 2;
+      }
+      i++;
+    } else if (!strcmp(argv[i], "--merge")) {
+      merge = 1;
+    } else {
+      argv[j++] = argv[i];
+    }
+  }
+  *argc = j;
+  if (merge && n) {
+    fprintf(stderr, "levelshift: --merge and a shard (--shard or SLURM_ARRAY_TASK_ID) exclude each other\n");
+    return 2;
+  }
+  if (!merge && !n) return 0;
+  lua_getglobal(L, "ls");
+  if (!lua_istable(L, -1)) {
+    lua_pop(L, 1);
+    return 0;
+  }
+  lua_createtable(L, 0, 3);
+  if (n) {
+    lua_pushinteger(L, k);
+    lua_setfield(L, -2, "shard");
+    lua_pushinteger(L, n);
+    lua_setfield(L, -2, "shards");
+  }
+  lua_pushboolean(L, merge);
+  lua_setfield(L, -2, "merge");
+  lua_setfield(L, -2, "_run");
+  lua_pop(L, 1);
+  return 0;
 }
 
 int main(int argc, char **argv) {
@@ -126,7 +203,8 @@ int main(int argc, char **argv) {
       rc = report(L, lua_pcall(L, 1, 0, -3));
     }
   } else {
-    rc = run_chunk(L, luaL_loadfile(L, argv[1]), argc, argv, 2);
+    rc = sweep_run_options(L, &argc, argv);
+    if (!rc) rc = run_chunk(L, luaL_loadfile(L, argv[1]), argc, argv, 2);
   }
   lvs_host_free(h);
   return rc;

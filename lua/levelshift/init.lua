@@ -70,6 +70,7 @@ function matrix_methods.column(m, j)
 end
 
 -- @@FEATURE-SUGAR@@ (feature modules are required below this line)
+require("levelshift.sweep")(ls, core)
 require("levelshift.series")(ls, core)
 require("levelshift.recipes").attach(ls)
 ls.units = require("levelshift.units")

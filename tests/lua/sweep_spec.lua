@@ -154,6 +154,196 @@ describe("sweep", function()
     assert.truthy(text:find('"levels": [1, 2]', 1, true))
   end)
 
+  it("puts RS series curves beside the exact ones (two-level, second order)", function()
+    -- H0 = diag(0, 1), V = g sigma_x: exact E = 1/2 -+ sqrt(1/4 + g^2 p^2) (closed form, common
+    -- practice); second-order RS E(0) = -g^2 p^2, E(1) = 1 + g^2 p^2 (Griffiths, Introduction to
+    -- Quantum Mechanics, 2nd ed. (2005), eq. 6.15)
+    local g = 0.3
+    local sw = ls.sweep{H0 = ls.matrix{{0, 0}, {0, 1}}, V = ls.matrix{{0, g}, {g, 0}},
+                        from = -0.5, to = 0.5, steps = 10, series = 2, param = "F", param_unit = "V/m",
+                        energy_unit = "eV"}
+    assert.are.equal(2, sw.series_order)
+    local p, e1, s1, s2 = sw.p, sw:level(1), sw:series(1), sw:series(2)
+    for k = 1, #p do
+      assert.near(0.5 - math.sqrt(0.25 + g ^ 2 * p[k] ^ 2), e1[k], 1e-14)
+      assert.near(-g ^ 2 * p[k] ^ 2, s1[k], 1e-14)
+      assert.near(1 + g ^ 2 * p[k] ^ 2, s2[k], 1e-14)
+    end
+    local path = tmpname(".csv")
+    sw:write(path)
+    local f = assert(io.open(path))
+    assert.are.equal("# H(F) = H0 + F V; F in V/m; energies in eV; E<k>_series: "
+      .. "Rayleigh-Schroedinger series to order 2", f:read("l"))
+    assert.are.equal("F,E1,E2,E1_series,E2_series", f:read("l"))
+    local a, b, c, d, e = f:read("l"):match("^([^,]+),([^,]+),([^,]+),([^,]+),([^,]+)$")
+    assert.are.equal(-0.5, tonumber(a)); assert.are.equal(e1[1], tonumber(b))
+    assert.are.equal(s1[1], tonumber(d)); assert.are.equal(s2[1], tonumber(e))
+    f:close(); os.remove(path)
+    local plain = ls.sweep{H0 = ls.matrix{{0, 0}, {0, 1}}, V = ls.matrix{{0, g}, {g, 0}}, from = 0, to = 1, steps = 2}
+    assert.is_nil(plain:series(1))
+    assert.are.equal(0, plain.series_order)
+  end)
+
+  it("takes the band path for a banded model and agrees with the dense solver", function()
+    -- quartic oscillator N + 1/2 + lambda x^4: ground level 0.559146 at lambda = 0.1 (Hioe and
+    -- Montroll, J. Math. Phys. 16, 1945 (1975), table; from memory to 6 digits); all levels equal
+    -- to the dense LAPACK solver's (common practice)
+    local o = ls.oscillator(80)
+    local H0, V = o.number + 0.5, o.x ^ 4
+    local sw = ls.sweep{H0 = H0, V = V, from = 0, to = 0.1, steps = 8, count = 6}
+    local p = sw.p
+    assert.near(0.559146, sw:level(1)[#p], 5e-7)
+    for _, k in ipairs{1, 4, 9} do
+      local E = ls.eigen(H0 + p[k] * V, {count = 6})
+      for a = 1, 6 do assert.near(E[a], sw:level(a)[k], 1e-11 * (1 + math.abs(E[a]))) end
+    end
+  end)
+
+  describe("files, plots, resume and shards", function()
+    local bin = os.getenv("LVS_BIN") or "build/levelshift"
+    local function sh(cmd)
+      local f = io.popen(cmd .. " 2>&1; echo \"rc=$?\"")
+      local out = f:read("a"); f:close()
+      return out
+    end
+    local function slurp(path)
+      local f = io.open(path, "rb"); if not f then return nil end
+      local t = f:read("a"); f:close(); return t
+    end
+    local function script(body)
+      local path = os.tmpname() .. ".lua"
+      local f = assert(io.open(path, "w")); f:write(body); f:close()
+      return path
+    end
+    -- journals and outputs in /dev/shm when there is one: fsync there is cheap, the
+    -- semantics (append, kill, rename) are the same
+    local dir = (io.open("/dev/shm/.lvs-probe", "w") and (os.remove("/dev/shm/.lvs-probe") or true))
+      and "/dev/shm/" or "/tmp/"
+    local function ftmp(suffix)
+      return dir .. "lvs-sweep-" .. os.time() .. "-" .. math.random(1, 1e9) .. suffix
+    end
+    -- an invented dense model: H0 = diag(0..n-1), V_ij = 1/(1 + |i - j|)
+    local model = [[
+local n = params.n or 40
+local h0, v = {}, {}
+for i = 1, n do
+  h0[i], v[i] = {}, {}
+  for j = 1, n do h0[i][j] = (i == j) and (i - 1) or 0; v[i][j] = 1 / (1 + math.abs(i - j)) end
+end
+local sw = ls.sweep{H0 = ls.matrix(h0), V = ls.matrix(v), from = 0, to = 2, steps = params.steps or 30,
+  count = 4, threads = params.threads or 2, out = params.out, progress = false}
+]]
+
+    it("writes the out file atomically and removes the journal", function()
+      -- write-then-rename is the POSIX atomic replacement (rename(2)); common practice
+      local out = ftmp(".csv")
+      local s = script(model)
+      local r = sh(bin .. " " .. s .. " out=" .. out)
+      assert.truthy(r:find("rc=0", 1, true), r)
+      local text = slurp(out)
+      assert.truthy(text:find("^# H%(p%) = H0 %+ p V"))
+      assert.is_nil(slurp(out .. ".part"))
+      assert.is_nil(slurp(out .. ".tmp"))
+      os.remove(out); os.remove(s)
+    end)
+
+    it("resumes a run killed by SIGKILL and ends with the same bytes", function()
+      -- the kill is real (kill -9 from the shell once the journal holds points); the resumed
+      -- run must equal an uninterrupted one byte for byte (common practice: checkpoint/restart)
+      local s = script(model)
+      local ref, out = ftmp(".csv"), ftmp(".csv")
+      local args = " n=160 steps=120 out="
+      -- reference: uninterrupted, two threads; the killed run uses one (same numbers either way)
+      assert.truthy(sh(bin .. " " .. s .. args .. ref):find("rc=0", 1, true))
+      local rec = 8 * (2 + 4 + 160 * 4)
+      local r = sh(string.format([[
+%s %s threads=1%s%s >/dev/null 2>&1 &
+pid=$!
+i=0
+while [ "$(stat -c %%s %s.part 2>/dev/null || echo 0)" -lt %d ] && [ $i -lt 2000 ]; do sleep 0.005; i=$((i+1)); done
+kill -9 $pid
+wait $pid
+echo "killed=$?"]], bin, s, args, out, out, 48 + 5 * rec))
+      assert.truthy(r:find("killed=137", 1, true), r) -- 128 + SIGKILL: it did not finish on its own
+      assert.is_nil(slurp(out)) -- no final file from the killed run
+      local part = slurp(out .. ".part")
+      local done = (#part - 48) // rec
+      assert.is_true(done >= 5 and done < 121, "points on disk: " .. done)
+      local r2 = sh(bin .. " " .. s .. args .. out)
+      assert.truthy(r2:find("rc=0", 1, true), r2)
+      assert.are.equal(slurp(ref), slurp(out))
+      assert.is_nil(slurp(out .. ".part"))
+      os.remove(ref); os.remove(out); os.remove(s)
+    end)
+
+    it("joins shards (--shard, array-job variables) into the bytes of one run", function()
+      -- deterministic round-robin shares; merge == single run byte for byte (common practice)
+      local s = script(model)
+      local ref, out = ftmp(".json"), ftmp(".json")
+      assert.truthy(sh(bin .. " " .. s .. " out=" .. ref):find("rc=0", 1, true))
+      local r1 = sh(bin .. " " .. s .. " --shard 1/3 out=" .. out)
+      assert.truthy(r1:find("shard 1/3 of " .. out, 1, true), r1)
+      assert.truthy(r1:find("rc=0", 1, true), r1)
+      -- shard 2 through the scheduler's variables (task ids 5..7, this is the second)
+      local r2 = sh("SLURM_ARRAY_TASK_ID=6 SLURM_ARRAY_TASK_COUNT=3 SLURM_ARRAY_TASK_MIN=5 "
+        .. bin .. " " .. s .. " out=" .. out)
+      assert.truthy(r2:find("shard 2/3", 1, true), r2)
+      local early = sh(bin .. " " .. s .. " --merge out=" .. out)
+      assert.truthy(early:find("points are in no part file", 1, true), early)
+      assert.truthy(early:find("rc=1", 1, true), early)
+      assert.truthy(sh(bin .. " " .. s .. " --shard 3/3 out=" .. out):find("rc=0", 1, true))
+      local m = sh(bin .. " " .. s .. " --merge out=" .. out)
+      assert.truthy(m:find("rc=0", 1, true), m)
+      assert.are.equal(slurp(ref), slurp(out))
+      for k = 1, 3 do assert.is_nil(slurp(out .. ".part." .. k .. "-of-3")) end
+      assert.is_nil(slurp(out .. ".part"))
+      local bad = sh(bin .. " " .. s .. " --shard 4/3 out=" .. out)
+      assert.truthy(bad:find("--shard needs K/N with 1 <= K <= N", 1, true), bad)
+      os.remove(ref); os.remove(out); os.remove(s)
+    end)
+
+    it("refuses a journal of another sweep", function()
+      local out = os.tmpname() .. ".csv"
+      local f = io.open(out .. ".part", "wb"); f:write(("x"):rep(100)); f:close()
+      local H0, V = two_level(0.1)
+      assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, out = out, progress = false} end,
+        "belongs to another sweep", 1, true)
+      os.remove(out .. ".part"); os.remove(out)
+    end)
+
+    it("draws SVG and PNG level diagrams with gnuplot", function()
+      -- file formats: SVG 1.1 root element <svg> (W3C, 2011); PNG signature 89 50 4E 47 0D 0A 1A 0A
+      -- (RFC 2083, 1997, section 3.1)
+      if not ls.have_gnuplot() then
+        print("\nSKIPPED: sweep plot tests: gnuplot is not installed (Debian package gnuplot-nox)")
+        local H0, V = two_level(0.1)
+        local sw = ls.sweep{H0 = H0, V = V, from = -1, to = 1, steps = 4}
+        assert.error_matches(function() sw:plot(os.tmpname() .. ".svg") end, "install the Debian package gnuplot-nox", 1, true)
+        return
+      end
+      local H0, V = ls.matrix{{0, 0}, {0, 1}}, ls.matrix{{0, 0.3}, {0.3, 0}}
+      local sw = ls.sweep{H0 = H0, V = V, from = -2, to = 2, steps = 40, series = 2, param = "F",
+                          param_unit = "kV/cm", energy_unit = "meV"}
+      local svg, png = os.tmpname() .. ".svg", os.tmpname() .. ".png"
+      sw:plot(svg, {title = "invented two-level field sweep"})
+      sw:plot(png)
+      local t = slurp(svg)
+      assert.truthy(t:find("<svg", 1, true))
+      assert.truthy(t:find("</svg>%s*$"))
+      assert.truthy(t:find("F (kV/cm)", 1, true))
+      assert.truthy(t:find("energy (meV)", 1, true))
+      assert.truthy(t:find("series, order 2", 1, true))
+      assert.truthy(t:find("crossings", 1, true))
+      local b = slurp(png)
+      assert.are.equal("\137PNG\r\n\26\n", b:sub(1, 8))
+      assert.are.equal("IHDR", b:sub(13, 16))
+      assert.is_true(#b > 2000)
+      assert.is_nil(slurp(svg .. ".tmp")); assert.is_nil(slurp(png .. ".tmp"))
+      os.remove(svg); os.remove(png)
+      assert.error_matches(function() sw:plot("x.pdf") end, "a path ending in .svg or .png expected", 1, true)
+    end)
+  end)
+
   describe("errors", function()
     local H0, V = two_level(0.1)
     it("missing H0 or V, size mismatch, non-Hermitian", function()
@@ -184,6 +374,21 @@ describe("sweep", function()
         "unknown option 'stpes'", 1, true)
       local sw = ls.sweep{H0 = H0, V = V, from = 0, to = 1, steps = 2}
       assert.error_matches(function() sw:level(3) end, "level must be from 1 to 2, got 3", 1, true)
+      assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, series = -1} end,
+        "series must be an order from 1 to 1000 (0: none), got -1", 1, true)
+      assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, out = 3} end,
+        "'out' must be a file path", 1, true)
+      assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, plot = "a.pdf"} end,
+        "'plot' must be a path ending in .svg or .png", 1, true)
+      assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, shard = "2/8"} end,
+        "a shard needs 'out'", 1, true)
+      assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, shard = "9/8", out = "x.csv"} end,
+        "shard must be from 1 to shards", 1, true)
+      assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, shard = "two", out = "x.csv"} end,
+        'shard must be "k/n"', 1, true)
+      assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, param = 5} end,
+        "'param' must be a string", 1, true)
+      assert.error_matches(function() sw:series(0) end, "level must be from 1 to 2, got 0", 1, true)
     end)
     it("an unwritable path is named in the message", function()
       local sw = ls.sweep{H0 = H0, V = V, from = 0, to = 1, steps = 2}
