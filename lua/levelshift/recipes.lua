@@ -360,13 +360,13 @@ local function report(m, show_levels, show_order)
   w(head .. "\n")
   local E0 = ls.eigen(m.H0, { vectors = false })
   for i = 1, count do
-    local line = string.format("%5d  %16.10g", i, E0[i])
+    local line = string.format("%5d  %16.10g", i, E0[i] + 0.0) -- + 0.0 turns -0 into 0
     local sum = 0
     if s then
       for k = 0, show_order do
         local e = s:energy(i, k)
         sum = sum + e
-        if k > 0 then line = line .. string.format("  %14.7g", e) end
+        if k > 0 then line = line .. string.format("  %14.7g", e + 0.0) end
       end
       line = line .. string.format("  %16.10g", sum)
     else

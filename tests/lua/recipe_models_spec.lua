@@ -162,6 +162,19 @@ describe("recipe hyperfine", function()
     for i = 1, 8 do near(ref[i], E[i], 1e-9 * A, "level " .. i) end
   end)
 
+  it("is swept from zero field by ls.sweep (H = H0 + p V)", function()
+    local m = ls.recipe("hyperfine", { field = 0.0473 })
+    local sw = ls.sweep{ H0 = m.H0, V = m.V, from = 0, to = 1, steps = 16 }
+    local E = ls.eigen(m.H0 + m.V, { vectors = false })
+    local last = #sw.p
+    -- integration check (no outside source): the sweep's end point p = 1 is the
+    -- model H0 + V itself, whose levels the Breit-Rabi test above checks
+    local top = {}
+    for k = 1, 4 do top[k] = sw:level(k)[last] end
+    top = sorted(top)
+    for k = 1, 4 do rel(E[k], top[k], 1e-9, "level " .. k) end
+  end)
+
   it("splits F = 0 and F = 1 by A at zero field", function()
     local m = ls.recipe("hyperfine", { hyperfine = 2.71, field = 0 })
     local E = ls.eigen(m.H0, { vectors = false })
