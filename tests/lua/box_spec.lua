@@ -173,6 +173,22 @@ describe("ls.box", function()
     assert.is_true(rel(xs:get(1, 3), ls.box(4, { width = L }).x:get(1, 2)) < 1e-15)
   end)
 
+  it("recipes box_field and box_step", function()
+    -- box_field: E2 of the ground state against the closed form above (same source)
+    local m = ls.recipe("box_field", { F = 0.37, width = 1.21, mass = 0.9 })
+    local s = ls.perturb(m.H0, m.V, { order = 2, levels = { 1 } })
+    assert.is_true(rel(s:energy(1, 2), -(15 - pi * pi) * 0.9 * 0.37 ^ 2 * 1.21 ^ 4 / (24 * pi ^ 4)) < 1e-10)
+    assert.is_true(math.abs(s:energy(1, 1)) < 1e-15) -- centred box: no first order
+    -- box_step: first order equals the closed form V0 [s/L - sin(2 n pi s/L)/(2 n pi)] (elementary)
+    local st = ls.recipe("box_step", { V0 = -2.3, edge = 0.41, states = 12 })
+    for n = 1, 12 do
+      assert.is_true(math.abs(st.V:get(n, n) - (-2.3) * (0.41 - math.sin(2 * n * pi * 0.41) / (2 * n * pi))) < 1e-12)
+      assert.is_true(math.abs(st.V:get(n, n) - st.first_order(n)) < 1e-12)
+    end
+    assert.error_matches(function() ls.recipe("box_step", { edge = 1.5 }) end, "parameter 'edge' %(1.5%) must be inside the box")
+    assert.error_matches(function() ls.recipe("box_field", { mass = -1 }) end, "parameter 'mass' must be positive")
+  end)
+
   it("rejects bad input with clear messages", function()
     assert.error_matches(function() ls.box(0) end, "bad argument #1 to '.-box' %(number of states N must be at least 1%)")
     assert.error_matches(function() ls.box(2.5) end, "N must be an integer")

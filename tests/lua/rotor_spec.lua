@@ -204,6 +204,21 @@ describe("ls.rotor", function()
     end
   end)
 
+  it("recipe rotor_stark", function()
+    -- the recipe's shifts against the formula above (Townes & Schawlow 1955)
+    local m = ls.recipe("rotor_stark", { B = 0.87, mu = 1.9, E = 0.13, Jmax = 8, M = -2 })
+    local s = ls.perturb(m.H0, m.V, { order = 2 })
+    for lev = 1, 3 do
+      local J = m.basis:labels(lev).J
+      assert.is_true(near(s:energy(lev, 2), stark(0.87, 1.9 * 0.13, J, -2), 1e-14))
+      assert.is_true(near(m.e2(J, -2), stark(0.87, 1.9 * 0.13, J, -2), 1e-16))
+    end
+    assert.are.equal(81, ls.recipe("rotor_stark", { Jmax = 8 }).basis:dim())
+    assert.error_matches(function() ls.recipe("rotor_stark", { Jmax = 3, M = 4 }) end, "parameter 'M' = 4 needs |M| <= Jmax = 3")
+    assert.error_matches(function() ls.recipe("rotor_stark", { M = "x" }) end, "parameter 'M' must be \"all\" or an integer")
+    assert.error_matches(function() ls.recipe("rotor_stark", { B = -1 }) end, "parameter 'B' must be positive")
+  end)
+
   it("rejects bad input with clear messages", function()
     assert.error_matches(function() ls.rotor(-1) end, "bad argument #1 to '.-rotor' %(Jmax must be at least 0%)")
     assert.error_matches(function() ls.rotor(1.5) end, "Jmax must be an integer")
