@@ -31,6 +31,7 @@
  * common practice): <l+1, m|cos theta|l, m> = sqrt(((l+1)^2 - m^2) /
  * ((2l+1)(2l+3))).
  */
+#include <cblas.h>
 #include <lapacke.h>
 #include <math.h>
 #include <stdlib.h>
@@ -53,33 +54,30 @@ static void jacobi(double alpha, size_t n, double *J) {
   }
 }
 
-/* C(n x n) = A B for square column-major matrices of size ld, top-left n x n
- * of the product taken over all ld intermediate indices. */
-static void square_mul(size_t ld, const double *A, const double *B, double *C) {
-  for (size_t j = 0; j < ld; j++)
-    for (size_t i = 0; i < ld; i++) {
+/* C = A B for banded square column-major matrices of size ld (bandwidths
+ * ba, bb; C gets bandwidth ba + bb, zeros elsewhere). */
+static void banded_mul(size_t ld, const double *A, size_t ba, const double *B, size_t bb, double *C) {
+  memset(C, 0, ld * ld * sizeof(double));
+  size_t bc = ba + bb;
+  for (size_t j = 0; j < ld; j++) {
+    size_t i0 = j > bc ? j - bc : 0, i1 = j + bc < ld ? j + bc : ld - 1;
+    for (size_t i = i0; i <= i1; i++) {
+      size_t k0 = i > ba ? i - ba : 0, k1 = i + ba < ld ? i + ba : ld - 1;
+      if (j > bb && j - bb > k0) k0 = j - bb;
+      if (j + bb < k1) k1 = j + bb;
       double s = 0.0;
-      for (size_t k = 0; k < ld; k++) s += A[i + k * ld] * B[k + j * ld];
+      for (size_t k = k0; k <= k1; k++) s += A[i + k * ld] * B[k + j * ld];
       C[i + j * ld] = s;
     }
+  }
 }
 
 /* out(na x nb) = Ca^T M Cb with M na x nb (all column-major, ld = rows). */
 static void sandwich(size_t na, size_t nb, const double *Ca, const double *M, size_t ldm,
                      const double *Cb, double *tmp, double *out) {
-  /* tmp = M Cb (na x nb) */
-  for (size_t j = 0; j < nb; j++)
-    for (size_t i = 0; i < na; i++) {
-      double s = 0.0;
-      for (size_t k = 0; k < nb; k++) s += M[i + k * ldm] * Cb[k + j * nb];
-      tmp[i + j * na] = s;
-    }
-  for (size_t j = 0; j < nb; j++)
-    for (size_t i = 0; i < na; i++) {
-      double s = 0.0;
-      for (size_t k = 0; k < na; k++) s += Ca[k + i * na] * tmp[k + j * na];
-      out[i + j * na] = s;
-    }
+  int a = (int)na, b = (int)nb;
+  cblas_dgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, a, b, b, 1.0, M, (int)ldm, Cb, b, 0.0, tmp, a);
+  cblas_dgemm(CblasColMajor, CblasTrans, CblasNoTrans, a, b, a, 1.0, Ca, a, tmp, a, 0.0, out, a);
 }
 
 typedef struct {
@@ -235,8 +233,8 @@ int lvs_coulomb_basis(lvs_ctx *ctx, const lvs_coulomb_spec *spec, lvs_basis **ou
       if (s < 0.0)
         for (size_t k = 0; k < N; k++) c[k + j * N] = -c[k + j * N];
     }
-    square_mul(P, J, J, J2);
-    square_mul(P, J2, J, J3);
+    banded_mul(P, J, 1, J, 1, J2);
+    banded_mul(P, J2, 2, J, 1, J3);
     for (size_t j = 0; j < N; j++)
       for (size_t i = 0; i < N; i++) M[i + j * N] = J2[i + j * P] / (tk * tk);
     sandwich(N, N, c, M, N, c, tmp, R1 + (size_t)l * N * N);
