@@ -128,9 +128,11 @@ local function definition(name)
     if path then
       if cache[path] then return cache[path] end
       local chunk, err = load_path(path, dir, name)
-      if not chunk then error("recipe '" .. name .. "': cannot load " .. path .. ": " .. tostring(err), 0) end
+      -- "path:12: msg" becomes "line 12: msg" (the path is named once)
+      local function at_line(m) return (tostring(m):gsub("^[^\n]-:(%d+): ", "line %1: ", 1)) end
+      if not chunk then error("recipe '" .. name .. "': cannot load " .. path .. " (" .. at_line(err) .. ")", 0) end
       local ok, def = pcall(chunk)
-      if not ok then error("recipe '" .. name .. "': error while loading " .. path .. ": " .. tostring(def), 0) end
+      if not ok then error("recipe '" .. name .. "': error while loading " .. path .. " (" .. at_line(def) .. ")", 0) end
       local bad
       if type(def) ~= "table" then bad = "does not return a table"
       elseif type(def.build) ~= "function" then bad = "has no build function"

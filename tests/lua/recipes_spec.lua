@@ -42,7 +42,10 @@ return {
 }
 ]])
 write(dir .. "/broken_demo.lua", "return { about = 'no build' , params = {} }\n")
+write(dir .. "/syntax_demo.lua", "return { about = 'unfinished'\n")
+write(dir .. "/badparam_demo.lua", "return { params = { { name = 'x', defualt = 1 } }, build = function() end }\n")
 ls.recipes.add_dir(dir)
+teardown(function() os.execute("rm -rf '" .. dir .. "'") end)
 
 describe("ls.recipe", function()
   it("builds linear_force and its series ends at second order", function()
@@ -135,6 +138,10 @@ describe("ls.recipe", function()
     bad(with("rate", 0.25), "recipe 'checks_demo': build failed on purpose")
     assert.error_matches(function() ls.recipe("broken_demo") end,
       "recipe 'broken_demo' (" .. dir .. "/broken_demo.lua) has no build function", 1, true)
+    assert.error_matches(function() ls.recipe("syntax_demo") end,
+      "recipe 'syntax_demo': cannot load " .. dir .. "/syntax_demo.lua", 1, true)
+    assert.error_matches(function() ls.recipe("badparam_demo") end,
+      "parameter 'x' has an unknown field 'defualt'", 1, true)
   end)
 
   it("lists recipes, searched folders and help", function()
