@@ -57,6 +57,11 @@ LVSI int lvsi_csc_push(lvs_matrix *m, size_t row, double complex v);
 LVSI int lvsi_mat_compact(lvs_matrix *m); /* dense if fill is high */
 LVSI int lvsi_to_dense(const lvs_matrix *a, lvs_matrix **out);
 
+/* structure (blocks.c): true bandwidth of a plain matrix; connected
+ * components of the sparsity graph of a (and b), numbered by smallest state */
+LVSI long lvsi_mat_bandwidth(const lvs_matrix *m);
+LVSI int lvsi_components(const lvs_matrix *a, const lvs_matrix *b, size_t *comp, size_t *ncomp);
+
 LVSI int lvsi_check_hermitian(const lvs_matrix *h, double tol, const char *what);
 LVSI int lvsi_basis_twoS(const lvs_basis *b);
 /* basis kinds defined in their own files (box.c, rotor.c); see basis.c */

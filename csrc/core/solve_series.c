@@ -1,0 +1,637 @@
+/* solve_series.c -- Rayleigh-Schroedinger series of one level of a large
+ * sparse or banded H0 by linear solves (Dalgarno & Lewis, Proc. R. Soc. A
+ * 233, 70 (1955); Sternheimer, Phys. Rev. 84, 244 (1951)).
+ *
+ * Only one eigenpair (E_n, n) of H0 is needed: no spectrum, no dense
+ * matrix. With intermediate normalization <n|psi(k)> = 0 (Hirschfelder,
+ * Byers Brown, Epstein, Adv. Quantum Chem. 1, 255 (1964)):
+ *     E(k)  = <n|V|psi(k-1)>
+ *     (E_n - H0) psi(k) = Q [V psi(k-1) - sum_{j=1..k} E(j) psi(k-j)],
+ * Q = 1 - |n><n|. A = E_n - H0 is singular along n, so we solve with the
+ * one-element shift of METHODS.md 1(a): M = H0 - E_n + sigma e_p e_p^T,
+ * p = argmax |n_p|, sigma = max_i |H0_ii - E_n|; then M y = -Q rhs has
+ * y_p = 0 and (H0 - E_n) y = -Q rhs exactly, and psi(k) = y - n (n.y).
+ * M keeps the band of H0, so it is factored once (dpttrf for a
+ * tridiagonal M that is positive definite, as it is for the lowest level;
+ * dgttrf otherwise; dpbtrf/dgbtrf for wider bands) and each order costs one
+ * O(n b) solve plus one product with V (sparse).
+ *
+ * The eigenpair is computed when not given: dstevr (tridiagonal, subset),
+ * or dsbevx (values only) plus inverse iteration for a wider band. Real
+ * symmetric H0 and V only. */
+#include <lapacke.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include "internal.h"
+
+struct lvs_dlseries {
+  lvs_ctx *ctx;
+  size_t n;
+  int order;
+  double *E;   /* E(0..order) */
+  double *psi; /* psi(0..order), n each, column k at psi + k n */
+  size_t band;
+  double gap;  /* distance to the nearest other level (computed pairs), or NAN */
+  const char *solver;
+};
+
+static double dot(size_t n, const double *x, const double *y) {
+  double s = 0.0;
+  for (size_t i = 0; i < n; i++) s += x[i] * y[i];
+  return s;
+}
+
+void lvs_dlseries_free(lvs_dlseries *s) {
+  if (!s) return;
+  lvs_ctx *ctx = s->ctx;
+  lvsi_free(ctx, s->E);
+  lvsi_free(ctx, s->psi);
+  lvsi_free(ctx, s);
+}
+
+size_t lvs_dlseries_dim(const lvs_dlseries *s) { return s->n; }
+int lvs_dlseries_order(const lvs_dlseries *s) { return s->order; }
+size_t lvs_dlseries_band(const lvs_dlseries *s) { return s->band; }
+double lvs_dlseries_gap(const lvs_dlseries *s) { return s->gap; }
+const char *lvs_dlseries_solver(const lvs_dlseries *s) { return s->solver; }
+
+int lvs_dlseries_energy(const lvs_dlseries *s, int k, double *e) {
+  if (k < 0 || k > s->order)
+    return lvsi_fail(s->ctx, LVS_ERANGE, "order %d out of range 0..%d", k, s->order);
+  *e = s->E[k];
+  return LVS_OK;
+}
+
+const double *lvs_dlseries_state(const lvs_dlseries *s, int k) {
+  if (k < 0 || k > s->order) return NULL;
+  return s->psi + (size_t)k * s->n;
+}
+
+int lvs_dlseries_at(const lvs_dlseries *s, double lambda, int order, double *e) {
+  if (order < 0 || order > s->order) order = s->order;
+  double acc = 0.0, p = 1.0;
+  for (int k = 0; k <= order; k++) {
+    acc += p * s->E[k];
+    p *= lambda;
+  }
+  *e = acc;
+  return LVS_OK;
+}
+
+/* Band of a plain symmetric matrix in LAPACK lower storage: ab[(i-j) + j
+ * (b+1)] = H(i, j) for j <= i <= j + b. */
+static void lower_band(const lvs_matrix *h, size_t b, double *ab) {
+  size_t n = h->rows, ld = b + 1;
+  memset(ab, 0, ld * n * sizeof(double));
+  for (size_t j = 0; j < n; j++) {
+    if (h->sparse) {
+      for (size_t k = h->cp[j]; k < h->cp[j + 1]; k++)
+        if (h->ri[k] >= j) ab[(h->ri[k] - j) + j * ld] = h->a[k];
+    } else {
+      for (size_t i = j; i < n && i <= j + b; i++) ab[(i - j) + j * ld] = h->a[i + j * n];
+    }
+  }
+}
+
+/* y = H x from the lower band (symmetric) */
+static void band_apply(size_t n, size_t b, const double *ab, const double *x, double *y) {
+  size_t ld = b + 1;
+  for (size_t i = 0; i < n; i++) y[i] = ab[i * ld] * x[i];
+  for (size_t j = 0; j < n; j++)
+    for (size_t d = 1; d <= b && j + d < n; d++) {
+      double v = ab[d + j * ld];
+      y[j + d] += v * x[j];
+      y[j] += v * x[j + d];
+    }
+}
+
+/* The factored shifted matrix M = H0 - E + sigma e_p e_p^T. */
+typedef struct {
+  size_t n, b;
+  int kind; /* 0 diagonal, 1 dpt, 2 dgt, 3 dpb, 4 dgb */
+  double *d, *e, *dl, *du, *du2, *ab;
+  lapack_int *ipiv;
+} shifted;
+
+static void shifted_free(lvs_ctx *ctx, shifted *m) {
+  lvsi_free(ctx, m->d);
+  lvsi_free(ctx, m->e);
+  lvsi_free(ctx, m->dl);
+  lvsi_free(ctx, m->du);
+  lvsi_free(ctx, m->du2);
+  lvsi_free(ctx, m->ab);
+  lvsi_free(ctx, m->ipiv);
+}
+
+static int shifted_factor(lvs_ctx *ctx, const double *hb, size_t n, size_t b, double E, size_t p,
+                          double sigma, shifted *m, const char **solver) {
+  memset(m, 0, sizeof *m);
+  m->n = n;
+  m->b = b;
+  size_t ld = b + 1;
+  lapack_int N = (lapack_int)n, info;
+  if (b == 0) {
+    m->kind = 0;
+    if (!(m->d = lvsi_malloc(ctx, n * sizeof(double)))) goto nomem;
+    for (size_t i = 0; i < n; i++) m->d[i] = hb[i] - E;
+    m->d[p] += sigma;
+    for (size_t i = 0; i < n; i++)
+      if (m->d[i] == 0.0)
+        return lvsi_fail(ctx, LVS_EINVAL, "level is degenerate with state %zu of the diagonal H0", i + 1);
+    *solver = "diagonal";
+    return LVS_OK;
+  }
+  if (b == 1) {
+    m->d = lvsi_malloc(ctx, n * sizeof(double));
+    m->e = lvsi_malloc(ctx, n * sizeof(double));
+    if (!m->d || !m->e) goto nomem;
+    for (size_t i = 0; i < n; i++) m->d[i] = hb[i * ld] - E;
+    m->d[p] += sigma;
+    for (size_t i = 0; i + 1 < n; i++) m->e[i] = hb[1 + i * ld];
+    info = LAPACKE_dpttrf(N, m->d, m->e);
+    if (info == 0) {
+      m->kind = 1;
+      *solver = "dpttrf";
+      return LVS_OK;
+    }
+    /* not positive definite (not the lowest level): LU with pivoting */
+    m->dl = lvsi_malloc(ctx, n * sizeof(double));
+    m->du = lvsi_malloc(ctx, n * sizeof(double));
+    m->du2 = lvsi_malloc(ctx, n * sizeof(double));
+    m->ipiv = lvsi_malloc(ctx, n * sizeof(lapack_int));
+    if (!m->dl || !m->du || !m->du2 || !m->ipiv) goto nomem;
+    for (size_t i = 0; i < n; i++) m->d[i] = hb[i * ld] - E;
+    m->d[p] += sigma;
+    for (size_t i = 0; i + 1 < n; i++) m->dl[i] = m->du[i] = hb[1 + i * ld];
+    info = LAPACKE_dgttrf(N, m->dl, m->d, m->du, m->du2, m->ipiv);
+    if (info < 0) return lvsi_fail(ctx, LVS_EINVAL, "dgttrf: argument %d invalid", (int)-info);
+    if (info > 0)
+      return lvsi_fail(ctx, LVS_ELAPACK,
+                       "dgttrf: shifted matrix is singular at %d (the level is degenerate, or the "
+                       "given state is not an eigenvector)", (int)info);
+    m->kind = 2;
+    *solver = "dgttrf";
+    return LVS_OK;
+  }
+  if (!(m->ab = lvsi_malloc(ctx, ld * n * sizeof(double)))) goto nomem;
+  memcpy(m->ab, hb, ld * n * sizeof(double));
+  for (size_t i = 0; i < n; i++) m->ab[i * ld] -= E;
+  m->ab[p * ld] += sigma;
+  info = LAPACKE_dpbtrf_work(LAPACK_COL_MAJOR, 'L', N, (lapack_int)b, m->ab, (lapack_int)ld);
+  if (info == 0) {
+    m->kind = 3;
+    *solver = "dpbtrf";
+    return LVS_OK;
+  }
+  lvsi_free(ctx, m->ab);
+  size_t ldl = 3 * b + 1;
+  m->ab = lvsi_calloc(ctx, ldl * n, sizeof(double));
+  m->ipiv = lvsi_malloc(ctx, n * sizeof(lapack_int));
+  if (!m->ab || !m->ipiv) goto nomem;
+  /* A(i,j) at ab[(2b + i - j) + j ldl] (kl = ku = b) */
+  for (size_t j = 0; j < n; j++)
+    for (size_t d = 0; d <= b && j + d < n; d++) {
+      double v = hb[d + j * ld];
+      if (d == 0) {
+        v -= E;
+        if (j == p) v += sigma;
+      }
+      m->ab[(2 * b + d) + j * ldl] = v;           /* (j+d, j) */
+      if (d) m->ab[(2 * b - d) + (j + d) * ldl] = v; /* (j, j+d) */
+    }
+  info = LAPACKE_dgbtrf_work(LAPACK_COL_MAJOR, N, N, (lapack_int)b, (lapack_int)b, m->ab,
+                             (lapack_int)ldl, m->ipiv);
+  if (info < 0) return lvsi_fail(ctx, LVS_EINVAL, "dgbtrf: argument %d invalid", (int)-info);
+  if (info > 0)
+    return lvsi_fail(ctx, LVS_ELAPACK,
+                     "dgbtrf: shifted matrix is singular at %d (the level is degenerate, or the "
+                     "given state is not an eigenvector)", (int)info);
+  m->kind = 4;
+  *solver = "dgbtrf";
+  return LVS_OK;
+nomem:
+  return lvsi_fail(ctx, LVS_ENOMEM, "out of memory factoring the shifted H0");
+}
+
+static int shifted_solve(lvs_ctx *ctx, const shifted *m, double *x) {
+  lapack_int N = (lapack_int)m->n, info = 0;
+  switch (m->kind) {
+    case 0:
+      for (size_t i = 0; i < m->n; i++) x[i] /= m->d[i];
+      return LVS_OK;
+    case 1: info = LAPACKE_dpttrs_work(LAPACK_COL_MAJOR, N, 1, m->d, m->e, x, N); break;
+    case 2:
+      info = LAPACKE_dgttrs_work(LAPACK_COL_MAJOR, 'N', N, 1, m->dl, m->d, m->du, m->du2, m->ipiv, x, N);
+      break;
+    case 3:
+      info = LAPACKE_dpbtrs_work(LAPACK_COL_MAJOR, 'L', N, (lapack_int)m->b, 1, m->ab,
+                                 (lapack_int)(m->b + 1), x, N);
+      break;
+    case 4:
+      info = LAPACKE_dgbtrs_work(LAPACK_COL_MAJOR, 'N', N, (lapack_int)m->b, (lapack_int)m->b, 1,
+                                 m->ab, (lapack_int)(3 * m->b + 1), m->ipiv, x, N);
+      break;
+  }
+  if (info) return lvsi_fail(ctx, LVS_ELAPACK, "banded solve failed (info %d)", (int)info);
+  return LVS_OK;
+}
+
+static int cmp_double(const void *x, const void *y) {
+  double a = *(const double *)x, b = *(const double *)y;
+  return a < b ? -1 : a > b;
+}
+
+
+/* Sturm counts of the symmetric tridiagonal (d, e2 = squared off-diagonal)
+ * at LANES shifts at once: cnt[k] = number of eigenvalues below x[k]
+ * (source: common practice, the LDL^T negative-pivot count as in LAPACK's
+ * dlaebz). The lanes are independent chains, so the divisions pipeline. */
+#define LANES 8
+#if defined(__x86_64__) && defined(__GNUC__) && !defined(__clang__)
+__attribute__((target_clones("avx2", "default")))
+#endif
+static void sturm(size_t n, const double *d, const double *e2, double pivmin, const double *x,
+                  size_t *cnt) {
+  double q[LANES], c[LANES]; /* counts as doubles: the loop vectorizes */
+  for (int k = 0; k < LANES; k++) {
+    q[k] = d[0] - x[k];
+    if (fabs(q[k]) < pivmin) q[k] = -pivmin;
+    c[k] = q[k] < 0 ? 1.0 : 0.0;
+  }
+  for (size_t i = 1; i < n; i++) {
+    double di = d[i], ei = e2[i - 1];
+    for (int k = 0; k < LANES; k++) {
+      double t = (di - x[k]) - ei / q[k];
+      t = fabs(t) < pivmin ? -pivmin : t;
+      q[k] = t;
+      c[k] += t < 0 ? 1.0 : 0.0;
+    }
+  }
+  for (int k = 0; k < LANES; k++) cnt[k] = (size_t)c[k];
+}
+
+/* Eigenpair number `level` (0-based) of a symmetric tridiagonal matrix (hb:
+ * lower band storage, ld 2): multisection with Sturm counts until the
+ * eigenvalue is alone in [a, b], then Rayleigh-quotient iteration with LU
+ * solves (dgttrf/dgttrs), accepted only when the quotient lands in [a, b].
+ * Source: common practice (Parlett, The Symmetric Eigenvalue Problem,
+ * 1980, ch. 4-5, mem). Fails with LVS_EINVAL when the level cannot be
+ * separated from a neighbour within 1e-10 of the spectral scale. */
+static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, double *E,
+                        double *vec) {
+  int st = LVS_OK;
+  double *d = lvsi_malloc(ctx, n * sizeof(double));
+  double *e2 = lvsi_malloc(ctx, n * sizeof(double));
+  double *dl = lvsi_malloc(ctx, n * sizeof(double));
+  double *dd = lvsi_malloc(ctx, n * sizeof(double));
+  double *du = lvsi_malloc(ctx, n * sizeof(double));
+  double *du2 = lvsi_malloc(ctx, n * sizeof(double));
+  lapack_int *ipiv = lvsi_malloc(ctx, n * sizeof(lapack_int));
+  if (!d || !e2 || !dl || !dd || !du || !du2 || !ipiv) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory finding the unperturbed level");
+    goto done;
+  }
+  double lo = INFINITY, hi = -INFINITY, emax = 0.0;
+  for (size_t i = 0; i < n; i++) {
+    d[i] = hb[2 * i];
+    double el = i > 0 ? fabs(hb[2 * (i - 1) + 1]) : 0.0, er = i + 1 < n ? fabs(hb[2 * i + 1]) : 0.0;
+    if (i + 1 < n) e2[i] = hb[2 * i + 1] * hb[2 * i + 1];
+    lo = fmin(lo, d[i] - el - er);
+    hi = fmax(hi, d[i] + el + er);
+    emax = fmax(emax, er);
+  }
+  double scale = fmax(fabs(lo), fabs(hi));
+  if (scale == 0.0) scale = 1.0;
+  double pivmin = 2.2250738585072014e-308 * fmax(1.0, emax * emax);
+  double a = lo - 1e-12 * scale, bb = hi + 1e-12 * scale;
+  size_t ca = 0, cb = n; /* Sturm counts at a and bb: ca <= level < cb */
+  double x[LANES];
+  size_t cnt[LANES];
+  int extra = 0, retries = 0;
+  for (;;) {
+    /* narrow [a, bb] until eigenvalue `level` is alone in it (then `extra`
+     * more passes) */
+    while (!(ca == level && cb == level + 1) || extra > 0) {
+      if (ca == level && cb == level + 1) extra--;
+      for (int k = 0; k < LANES; k++) x[k] = a + (bb - a) * (double)(k + 1) / (LANES + 1);
+      sturm(n, d, e2, pivmin, x, cnt);
+      double na = a, nb = bb;
+      size_t nca = ca, ncb = cb;
+      for (int k = LANES - 1; k >= 0; k--)
+        if (cnt[k] > level) {
+          nb = x[k];
+          ncb = cnt[k];
+        }
+      for (int k = 0; k < LANES; k++)
+        if (cnt[k] <= level) {
+          na = x[k];
+          nca = cnt[k];
+        }
+      a = na;
+      bb = nb;
+      ca = nca;
+      cb = ncb;
+      if (bb - a < 1e-10 * scale && !(ca == level && cb == level + 1)) {
+        st = lvsi_fail(ctx, LVS_EINVAL,
+                       "level %zu is degenerate (%zu eigenvalues within %.3g of %.12g); the "
+                       "linear-solve series needs a non-degenerate level (use ls.perturb)",
+                       level + 1, cb - ca, bb - a, 0.5 * (a + bb));
+        goto done;
+      }
+      if (bb - a < 1e-15 * scale) break;
+    }
+    /* Rayleigh-quotient iteration from the middle of [a, bb] */
+    double sigma = 0.5 * (a + bb);
+    for (size_t i = 0; i < n; i++) vec[i] = 1.0 + 1e-3 * (double)(i % 7);
+    double rho = sigma, rprev = INFINITY;
+    const double eps = 2.220446049250313e-16;
+    int ok = 0;
+    for (int it = 0; it < 10; it++) {
+      for (size_t i = 0; i < n; i++) {
+        dd[i] = d[i] - sigma;
+        if (i + 1 < n) dl[i] = du[i] = hb[2 * i + 1];
+      }
+      lapack_int info = LAPACKE_dgttrf((lapack_int)n, dl, dd, du, du2, ipiv);
+      if (info > 0) dd[info - 1] = pivmin; /* sigma is an eigenvalue to working precision */
+      double nv = sqrt(dot(n, vec, vec));
+      for (size_t i = 0; i < n; i++) vec[i] /= nv;
+      info = LAPACKE_dgttrs_work(LAPACK_COL_MAJOR, 'N', (lapack_int)n, 1, dl, dd, du, du2, ipiv, vec,
+                                 (lapack_int)n);
+      if (info) {
+        st = lvsi_fail(ctx, LVS_ELAPACK, "dgttrs failed (info %d)", (int)info);
+        goto done;
+      }
+      nv = sqrt(dot(n, vec, vec));
+      for (size_t i = 0; i < n; i++) vec[i] /= nv;
+      /* rho = v^T T v, residual |T v - rho v| */
+      double r2 = 0.0;
+      rho = 0.0;
+      for (size_t i = 0; i < n; i++) {
+        double tv = d[i] * vec[i];
+        if (i > 0) tv += hb[2 * (i - 1) + 1] * vec[i - 1];
+        if (i + 1 < n) tv += hb[2 * i + 1] * vec[i + 1];
+        rho += vec[i] * tv;
+        dd[i] = tv;
+      }
+      for (size_t i = 0; i < n; i++) r2 += (dd[i] - rho * vec[i]) * (dd[i] - rho * vec[i]);
+      double r = sqrt(r2);
+      if (!(rho > a && rho < bb)) break; /* converging to another level: narrow more */
+      if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-9 * scale)) {
+        ok = 1;
+        break;
+      }
+      rprev = r;
+      sigma = rho;
+    }
+    if (ok) {
+      *E = rho;
+      break;
+    }
+    if (++retries > 20) {
+      st = lvsi_fail(ctx, LVS_ENOCONV, "level %zu: eigenvector iteration did not converge", level + 1);
+      goto done;
+    }
+    extra = 2; /* narrow [a, bb] by two more multisections, then retry */
+  }
+done:
+  lvsi_free(ctx, d);
+  lvsi_free(ctx, e2);
+  lvsi_free(ctx, dl);
+  lvsi_free(ctx, dd);
+  lvsi_free(ctx, du);
+  lvsi_free(ctx, du2);
+  lvsi_free(ctx, ipiv);
+  return st;
+}
+
+/* Eigenpair number `level` (0-based, ascending) of the band matrix; also
+ * the distance to its neighbours. */
+static int find_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t b, size_t level, double *E,
+                     double *vec, double *gap) {
+  size_t ld = b + 1;
+  size_t lo = level > 0 ? level - 1 : level, hi = level + 1 < n ? level + 1 : level;
+  size_t m = hi - lo + 1;
+  double w[3];
+  int st = LVS_OK;
+  lapack_int N = (lapack_int)n, found = 0, info;
+  if (b == 0) {
+    double *d = lvsi_malloc(ctx, n * sizeof(double));
+    if (!d) return lvsi_fail(ctx, LVS_ENOMEM, "out of memory");
+    for (size_t i = 0; i < n; i++) d[i] = hb[i];
+    qsort(d, n, sizeof(double), cmp_double);
+    for (size_t k = lo; k <= hi; k++) w[k - lo] = d[k];
+    /* the state: the (level - first)-th index holding that value */
+    size_t first = level;
+    while (first > 0 && d[first - 1] == d[level]) first--;
+    size_t want = level - first, seen = 0;
+    memset(vec, 0, n * sizeof(double));
+    for (size_t i = 0; i < n; i++)
+      if (hb[i] == d[level] && seen++ == want) {
+        vec[i] = 1.0;
+        break;
+      }
+    lvsi_free(ctx, d);
+  } else if (b == 1) {
+    double ev;
+    if ((st = tridiag_pair(ctx, hb, n, level, &ev, vec))) return st;
+    lo = hi = level;
+    w[0] = ev;
+  } else {
+    double *ab = lvsi_malloc(ctx, ld * n * sizeof(double));
+    double *wf = lvsi_malloc(ctx, n * sizeof(double));
+    lapack_int *ifail = lvsi_malloc(ctx, n * sizeof(lapack_int));
+    double q = 0, z = 0;
+    if (!ab || !wf || !ifail) {
+      st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory finding the unperturbed level");
+    } else {
+      memcpy(ab, hb, ld * n * sizeof(double));
+      info = LAPACKE_dsbevx(LAPACK_COL_MAJOR, 'N', 'I', 'L', N, (lapack_int)b, ab, (lapack_int)ld,
+                            &q, 1, 0.0, 0.0, (lapack_int)lo + 1, (lapack_int)hi + 1,
+                            2 * LAPACKE_dlamch('S'), &found, wf, &z, 1, ifail);
+      if (info || found != (lapack_int)m)
+        st = lvsi_fail(ctx, LVS_ELAPACK, "dsbevx failed (info %d)", (int)info);
+      else
+        memcpy(w, wf, m * sizeof(double));
+    }
+    lvsi_free(ctx, ab);
+    lvsi_free(ctx, wf);
+    lvsi_free(ctx, ifail);
+    if (st) return st;
+    /* inverse iteration with (H - w I), LU with pivoting */
+    double ev = w[level - lo];
+    double scale = 0.0;
+    for (size_t i = 0; i < n; i++) scale = fmax(scale, fabs(hb[i * ld]));
+    double shift = ev + 1e-13 * (scale > 0 ? scale : 1.0);
+    size_t ldl = 3 * b + 1;
+    double *lu = lvsi_calloc(ctx, ldl * n, sizeof(double));
+    lapack_int *ipiv = lvsi_malloc(ctx, n * sizeof(lapack_int));
+    if (!lu || !ipiv) {
+      lvsi_free(ctx, lu);
+      lvsi_free(ctx, ipiv);
+      return lvsi_fail(ctx, LVS_ENOMEM, "out of memory in inverse iteration");
+    }
+    for (size_t j = 0; j < n; j++)
+      for (size_t d = 0; d <= b && j + d < n; d++) {
+        double v = hb[d + j * ld] - (d == 0 ? shift : 0.0);
+        lu[(2 * b + d) + j * ldl] = v;
+        if (d) lu[(2 * b - d) + (j + d) * ldl] = v;
+      }
+    info = LAPACKE_dgbtrf_work(LAPACK_COL_MAJOR, N, N, (lapack_int)b, (lapack_int)b, lu,
+                               (lapack_int)ldl, ipiv);
+    if (info > 0) lu[(2 * b) + (size_t)(info - 1) * ldl] = 1e-300; /* exact hit: nudge */
+    for (size_t i = 0; i < n; i++) vec[i] = 1.0 + 1e-3 * (double)(i % 7);
+    for (int it = 0; it < 4 && !st; it++) {
+      double nv = sqrt(dot(n, vec, vec));
+      for (size_t i = 0; i < n; i++) vec[i] /= nv;
+      info = LAPACKE_dgbtrs_work(LAPACK_COL_MAJOR, 'N', N, (lapack_int)b, (lapack_int)b, 1, lu,
+                                 (lapack_int)ldl, ipiv, vec, N);
+      if (info) st = lvsi_fail(ctx, LVS_ELAPACK, "inverse iteration failed (info %d)", (int)info);
+    }
+    double nv = sqrt(dot(n, vec, vec));
+    for (size_t i = 0; i < n; i++) vec[i] /= nv;
+    lvsi_free(ctx, lu);
+    lvsi_free(ctx, ipiv);
+    if (st) return st;
+  }
+  *E = w[level - lo];
+  double g = lo == hi ? NAN : INFINITY; /* tridiagonal: isolation checked by Sturm counts */
+  if (level > lo) g = fmin(g, w[level - lo] - w[0]);
+  if (hi > level) g = fmin(g, w[hi - lo] - w[level - lo]);
+  *gap = g;
+  /* fix the sign: largest component positive (deterministic) */
+  size_t p = 0;
+  for (size_t i = 1; i < n; i++)
+    if (fabs(vec[i]) > fabs(vec[p])) p = i;
+  if (vec[p] < 0)
+    for (size_t i = 0; i < n; i++) vec[i] = -vec[i];
+  return LVS_OK;
+}
+
+int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
+                     const lvs_dlseries_opts *opts, lvs_dlseries **out) {
+  lvs_ctx *ctx = h0->ctx;
+  *out = NULL;
+  lvs_dlseries_opts def = {0, NULL, NAN};
+  if (!opts) opts = &def;
+  size_t n = lvs_matrix_rows(h0);
+  if (n != lvs_matrix_cols(h0))
+    return lvsi_fail(ctx, LVS_EDIM, "H0 must be square, got %zux%zu", n, lvs_matrix_cols(h0));
+  if (lvs_matrix_rows(v) != n || lvs_matrix_cols(v) != n)
+    return lvsi_fail(ctx, LVS_EDIM, "V is %zux%zu but H0 is %zux%zu", lvs_matrix_rows(v),
+                     lvs_matrix_cols(v), n, n);
+  if (order < 1 || order > 1000)
+    return lvsi_fail(ctx, LVS_ERANGE, "order must be from 1 to 1000, got %d", order);
+  if (h0->cplx || v->cplx)
+    return lvsi_fail(ctx, LVS_EINVAL, "H0 and V must be real (complex operators: use ls.perturb)");
+  if (!opts->state && opts->level >= n)
+    return lvsi_fail(ctx, LVS_ERANGE, "level %zu out of range 1..%zu", opts->level + 1, n);
+  int st;
+  lvs_matrix *hp = NULL, *vp = NULL;
+  double *hb = NULL, *tmp = NULL;
+  shifted M;
+  memset(&M, 0, sizeof M);
+  lvs_dlseries *s = NULL;
+  if (h0->vis && (st = lvs_matrix_visible(h0, 0, &hp))) goto done;
+  if (v->vis && (st = lvs_matrix_visible(v, 0, &vp))) goto done;
+  const lvs_matrix *H = hp ? hp : h0, *Vm = vp ? vp : v;
+  if ((st = lvsi_check_hermitian(H, LVS_DEFAULT_HERM_TOL, "H0"))) goto done;
+  if ((st = lvsi_check_hermitian(Vm, LVS_DEFAULT_HERM_TOL, "V"))) goto done;
+  size_t b = (size_t)lvsi_mat_bandwidth(H);
+  /* the LU fallback needs 3b+1 rows of band storage; keep under the cap */
+  if ((st = lvsi_dense_ok(ctx, 3 * b + 1, n, sizeof(double), "linear-solve series (band storage)")))
+    goto done;
+  if ((st = lvsi_dense_ok(ctx, (size_t)order + 1, n, sizeof(double), "linear-solve series (states)")))
+    goto done;
+  s = lvsi_calloc(ctx, 1, sizeof *s);
+  if (!s) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory");
+    goto done;
+  }
+  s->ctx = ctx;
+  s->n = n;
+  s->order = order;
+  s->band = b;
+  s->gap = NAN;
+  s->E = lvsi_calloc(ctx, (size_t)order + 1, sizeof(double));
+  s->psi = lvsi_calloc(ctx, ((size_t)order + 1) * n, sizeof(double));
+  hb = lvsi_malloc(ctx, (b + 1) * n * sizeof(double));
+  tmp = lvsi_malloc(ctx, 2 * n * sizeof(double));
+  if (!s->E || !s->psi || !hb || !tmp) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in the linear-solve series");
+    goto done;
+  }
+  lower_band(H, b, hb);
+  double *nvec = s->psi, E0 = 0.0;
+  double scale = 0.0;
+  for (size_t i = 0; i < n; i++) scale = fmax(scale, fabs(hb[i * (b + 1)]));
+  if (b) scale = fmax(scale, 2 * fabs(hb[1]));
+  if (scale == 0.0) scale = 1.0;
+  if (!opts->state) {
+    if ((st = find_pair(ctx, hb, n, b, opts->level, &E0, nvec, &s->gap))) goto done;
+    if (s->gap < 1e-10 * scale) {
+      st = lvsi_fail(ctx, LVS_EINVAL,
+                     "level %zu is degenerate (gap %.3g to a neighbour); the linear-solve series "
+                     "needs a non-degenerate level (use ls.perturb)", opts->level + 1, s->gap);
+      goto done;
+    }
+  } else {
+    memcpy(nvec, opts->state, n * sizeof(double));
+    double nn = sqrt(dot(n, nvec, nvec));
+    if (!(nn > 0) || !isfinite(nn)) {
+      st = lvsi_fail(ctx, LVS_EINVAL, "state is zero or not finite");
+      goto done;
+    }
+    for (size_t i = 0; i < n; i++) nvec[i] /= nn;
+    band_apply(n, b, hb, nvec, tmp);
+    E0 = isnan(opts->energy) ? dot(n, nvec, tmp) : opts->energy;
+    double r = 0.0;
+    for (size_t i = 0; i < n; i++) r += (tmp[i] - E0 * nvec[i]) * (tmp[i] - E0 * nvec[i]);
+    r = sqrt(r);
+    if (r > 1e-8 * scale) {
+      st = lvsi_fail(ctx, LVS_EINVAL,
+                     "state is not an eigenvector of H0 with energy %.10g: |H0 n - E n| = %.3g "
+                     "(needs below %.3g)", E0, r, 1e-8 * scale);
+      goto done;
+    }
+  }
+  s->E[0] = E0;
+  size_t p = 0;
+  for (size_t i = 1; i < n; i++)
+    if (fabs(nvec[i]) > fabs(nvec[p])) p = i;
+  double sigma = 0.0;
+  for (size_t i = 0; i < n; i++) sigma = fmax(sigma, fabs(hb[i * (b + 1)] - E0));
+  if (sigma == 0.0) sigma = 1.0;
+  if ((st = shifted_factor(ctx, hb, n, b, E0, p, sigma, &M, &s->solver))) goto done;
+  double *vpsi = tmp;
+  for (int k = 1; k <= order; k++) {
+    const double *prev = s->psi + (size_t)(k - 1) * n;
+    if ((st = lvs_matrix_apply(Vm, 0, prev, vpsi))) goto done;
+    s->E[k] = dot(n, nvec, vpsi);
+    double *y = s->psi + (size_t)k * n;
+    /* rhs = V psi(k-1) - sum_{j=1..k} E(j) psi(k-j); y = -Q rhs */
+    for (size_t i = 0; i < n; i++) y[i] = -vpsi[i];
+    for (int j = 1; j <= k; j++) {
+      const double *pj = s->psi + (size_t)(k - j) * n;
+      double ej = s->E[j];
+      for (size_t i = 0; i < n; i++) y[i] += ej * pj[i];
+    }
+    double c = dot(n, nvec, y);
+    for (size_t i = 0; i < n; i++) y[i] -= c * nvec[i];
+    if ((st = shifted_solve(ctx, &M, y))) goto done;
+    c = dot(n, nvec, y);
+    for (size_t i = 0; i < n; i++) y[i] -= c * nvec[i];
+  }
+done:
+  shifted_free(ctx, &M);
+  lvsi_free(ctx, hb);
+  lvsi_free(ctx, tmp);
+  lvs_matrix_free(hp);
+  lvs_matrix_free(vp);
+  if (st) {
+    lvs_dlseries_free(s);
+    return st;
+  }
+  *out = s;
+  return LVS_OK;
+}
