@@ -21,9 +21,19 @@ sum over states, so second-order Stark shifts converge to the true values
 exact inside the space (Laguerre recurrences, no quadrature).
 
 V = F z couples (l, m) to (l +- 1, m) with <l+1, m|cos theta|l, m> =
-sqrt(((l+1)^2 - m^2)/((2l+1)(2l+3))). Perturbation order K needs l up to
-about K/2 + 1 above the state's own l: lmax = 3 serves n <= 2 through
-fourth order.
+sqrt(((l+1)^2 - m^2)/((2l+1)(2l+3))). Order K of shell n is complete
+when lmax >= n - 1 + floor(K/2) (the path of K dipole steps back to the
+shell climbs floor(K/2) above its largest l): the default lmax = 3 serves
+n = 1 through order 7, n = 2 through order 5, n = 3 through order 3.
+
+Which levels to trust: the shells the space holds exactly (n = 1/kappa) and
+those it has converged (1s and n = 3 at the defaults) form clean degenerate
+groups. Higher shells are approximated differently in each l, so their
+members are only nearly degenerate (splittings ~1e-8 for n = 4 at lmax = 1,
+nmax = 16): ls.perturb then treats them as separate levels and warns about
+small denominators. Take kappa = 1/n for shell n, or raise degen_tol.
+At larger F, exact diagonalization of H0 + V shows outer pseudostates
+sliding down the field's slope (the atom ionizes); no series describes them.
 
 Checks (tests/lua/hydrogen_spec.lua): alpha(1s) = 9/2, E4(1s) = -3555/64 F^4,
 n = 2: E1 = -3F, 0, 0, +3F and E2 = -(F^2/16) n^4 [17 n^2 - 3 (n1 - n2)^2

@@ -137,6 +137,15 @@ describe("hydrogen recipe", function()
     assert.equal(-221952, E4(2, 0, 0, 1))
   end)
 
+  it("reaches sixth order for 1s with the default basis", function()
+    local h = ls.recipe("hydrogen", { field = 1, m = 0 })
+    local s = ls.perturb(h.H0, h.V, { order = 6, levels = { 1 } })
+    -- from memory: E6(1s) = -2512779/512 F^6 (Silverstone, Phys. Rev. A 18,
+    -- 1853 (1978)); needs l <= 3, converges geometrically in nmax
+    assert.near(0, s:energy(1, 5), 1e-6)
+    assert.is_true(rel(s:energy(1, 6), -2512779 / 512) < 1e-5, "E6(1s) " .. s:energy(1, 6))
+  end)
+
   it("agrees with exact diagonalization of H0 + F z at small F", function()
     -- source: common practice (the series is the Taylor expansion of the
     -- exact eigenvalue); m = 0: 1s, then the n = 2 pair -+3F
