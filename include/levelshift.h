@@ -322,6 +322,8 @@ typedef struct {
  * a warning to tr when the two disagree. */
 LVS_API int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, const lvs_exact_spec *es,
                                  lvs_transition **out);
+/* steps used: the grid of a perturbative result, the final count of an exact one */
+LVS_API size_t lvs_transition_steps(const lvs_transition *tr);
 LVS_API void lvs_transition_free(lvs_transition *tr);
 LVS_API size_t lvs_transition_dim(const lvs_transition *tr);
 LVS_API int lvs_transition_order(const lvs_transition *tr); /* 0 for exact */
@@ -330,6 +332,42 @@ LVS_API int lvs_transition_amplitude(const lvs_transition *tr, size_t to, int or
 LVS_API int lvs_transition_error(const lvs_transition *tr, size_t to, double *err);
 LVS_API const char *lvs_transition_warnings(const lvs_transition *tr); /* "" when none; owned */
 LVS_API const double *lvs_transition_energies(const lvs_transition *tr); /* BORROWED */
+/* ---- Fermi's golden rule (golden.c) --------------------------------------
+ * hbar = 1. Rate from a level at `energy` into a band: constant V gives
+ * 2 pi |V|^2 rho(E); a harmonic V(t) = F e^{-iwt} + F^+ e^{iwt} gives
+ * 2 pi |F|^2 rho(E + w) (absorption) or rho(E - w) (emission). Give exactly
+ * one density of states: has_rho with rho, dos_fn (returns 0 on success), or
+ * a band of nband levels, each broadened by a normalised Lorentzian (half
+ * width `broadening`) or Gaussian (standard deviation); band_coupling (or
+ * NULL: `coupling` for every level) gives |V_k| per level. Warnings (rate
+ * against band width, broadening against spacing, recurrence) go into
+ * result.warning ("" when none). Returns LVS_EINVAL for bad input. */
+enum { LVS_GOLDEN_CONSTANT = 0, LVS_GOLDEN_ABSORPTION = 1, LVS_GOLDEN_EMISSION = 2 };
+enum { LVS_BAND_LORENTZIAN = 0, LVS_BAND_GAUSSIAN = 1 };
+typedef int (*lvs_dos_fn)(void *ud, double energy, double *rho);
+typedef struct {
+  int process;          /* LVS_GOLDEN_* */
+  double coupling;      /* |V_fi|, or |F_fi| for a harmonic perturbation */
+  double energy;        /* E_i */
+  double omega;         /* > 0 for absorption and emission */
+  int has_rho;          /* rho below is the density of states */
+  double rho;
+  lvs_dos_fn dos_fn;    /* or rho(E) from a callback */
+  void *ud;
+  const double *band;   /* or nband discrete levels (BORROWED for the call) */
+  size_t nband;
+  const double *band_coupling; /* |V_k| per band level, or NULL */
+  double broadening;
+  int shape;            /* LVS_BAND_* */
+} lvs_golden_spec;
+typedef struct {
+  double rate;          /* Gamma */
+  double rho;           /* density of states used (the broadened sum for a band) */
+  double final_energy;  /* E_i, E_i + w or E_i - w */
+  double spacing, bandwidth; /* of a band (mean spacing, max - min), else 0 */
+  char warning[512];
+} lvs_golden_result;
+LVS_API int lvs_golden_rate(lvs_ctx *ctx, const lvs_golden_spec *spec, lvs_golden_result *out);
 
 /* ---- custom bases and hydrogen in a Coulomb-Sturmian basis (basis.c, hydrogen.c)
  * A custom basis (kind LVS_BASIS_CUSTOM): n states, nlab labels each (names

@@ -9,6 +9,8 @@
  *   tr:amplitude(to [, order]) -> re, im; tr:probability(to [, order]);
  *   tr:error(to); tr:exact([steps | {steps=, tol=, method=}]); tr:steps();
  *   tr:warnings(); tr:energies(); tr:dim()
+ *   ls.golden_rule{V=, rho= | band=, E=, omega=, process=, broadening=, shape=,
+ *                  couplings=} -> rate, info (Fermi's golden rule)
  */
 #include <math.h>
 #include <stdio.h>
@@ -381,7 +383,7 @@ static int t_exact(lua_State *L) {
         return luaL_error(L, "bad argument #1 to 'exact' (field 'tol' must be a number, got %s)", luaL_typename(L, -1));
       es.tol = lua_tonumber(L, -1);
       if (!(es.tol > 0) || isinf(es.tol))
-        return luaL_error(L, "bad argument #1 to 'exact' (field 'tol' must be a positive number, got %g)", es.tol);
+        return luaL_error(L, "bad argument #1 to 'exact' (field 'tol' must be a positive number, got %f)", es.tol);
     }
     lua_pop(L, 1);
     lua_getfield(L, 2, "method");
@@ -452,6 +454,7 @@ static int t_energies(lua_State *L) {
   lvs_transition *tr = checktr(L, 1);
   size_t n = lvs_transition_dim(tr);
   const double *E = lvs_transition_energies(tr);
+  if (!E) return luaL_error(L, "energies: not kept by an exact result (ask the transition it came from)");
   lua_createtable(L, (int)n, 0);
   for (size_t k = 0; k < n; k++) {
     lua_pushnumber(L, E[k]);
@@ -489,6 +492,191 @@ static int t_index(lua_State *L) {
   return 1;
 }
 
+/* ---- Fermi's golden rule --------------------------------------------------------
+ * ls.golden_rule{V=, rho= | band={...}, E=, omega=, process=, broadening=,
+ *                shape=, couplings=} -> rate, {rho=, energy=, spacing=, warning=} */
+
+typedef struct {
+  lua_State *L;
+  int fidx;
+  char err[300];
+} doscb;
+
+static int cb_dos(void *ud, double E, double *rho) {
+  doscb *cb = ud;
+  lua_State *L = cb->L;
+  lua_pushvalue(L, cb->fidx);
+  lua_pushnumber(L, E);
+  if (lua_pcall(L, 1, 1, 0) != LUA_OK) {
+    snprintf(cb->err, sizeof cb->err, "field 'rho' failed at E = %.17g: %s", E, lua_tostring(L, -1));
+    lua_pop(L, 1);
+    return 1;
+  }
+  if (lua_type(L, -1) != LUA_TNUMBER) {
+    snprintf(cb->err, sizeof cb->err, "field 'rho' returned %s at E = %.17g (number expected)", luaL_typename(L, -1), E);
+    lua_pop(L, 1);
+    return 1;
+  }
+  *rho = lua_tonumber(L, -1);
+  lua_pop(L, 1);
+  if (!(*rho >= 0) || isinf(*rho)) {
+    snprintf(cb->err, sizeof cb->err, "field 'rho' returned %g at E = %.17g (a finite density >= 0 expected)", *rho, E);
+    return 1;
+  }
+  return 0;
+}
+
+/* reads array field `key` of table 1 into a userdata buffer (so nothing
+ * malloc'd is held across a raise); returns its length */
+static double *numarray(lua_State *L, const char *key, size_t *len) {
+  lua_getfield(L, 1, key);
+  int t = lua_gettop(L);
+  if (!lua_istable(L, t))
+    luaL_error(L, "bad argument #1 to 'golden_rule' (field '%s' must be an array of numbers, got %s)", key,
+               luaL_typename(L, t));
+  lua_Integer n = luaL_len(L, t);
+  if (n < 1 || n > 100000000)
+    luaL_error(L, "bad argument #1 to 'golden_rule' (field '%s' must hold 1 to 1e8 numbers, got %d)", key, (int)n);
+  double *buf = lua_newuserdatauv(L, (size_t)n * sizeof(double), 0);
+  for (lua_Integer k = 1; k <= n; k++) {
+    lua_rawgeti(L, t, k);
+    if (lua_type(L, -1) != LUA_TNUMBER)
+      luaL_error(L, "bad argument #1 to 'golden_rule' (field '%s' entry %d must be a number, got %s)", key, (int)k,
+                 luaL_typename(L, -1));
+    buf[k - 1] = lua_tonumber(L, -1);
+    if (!isfinite(buf[k - 1]))
+      luaL_error(L, "bad argument #1 to 'golden_rule' (field '%s' entry %d is not finite)", key, (int)k);
+    lua_pop(L, 1);
+  }
+  lua_remove(L, t); /* keep the buffer on the stack */
+  *len = (size_t)n;
+  return buf;
+}
+
+static int l_golden(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  static const char *const known[] = {"V", "rho", "band", "E", "omega", "process", "broadening", "shape", "couplings", NULL};
+  luaL_checktype(L, 1, LUA_TTABLE);
+  lvsL_checkoptions(L, 1, known, "golden_rule", 1);
+  lua_settop(L, 1);
+  lvs_golden_spec sp;
+  memset(&sp, 0, sizeof sp);
+  doscb cb;
+  memset(&cb, 0, sizeof cb);
+  cb.L = L;
+  sp.energy = needfield(L, "golden_rule", "E", 0, 0.0);
+  if (!isfinite(sp.energy)) return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'E' must be finite)");
+  /* process and omega */
+  lua_getfield(L, 1, "omega");
+  int have_omega = !lua_isnil(L, -1);
+  lua_pop(L, 1);
+  lua_getfield(L, 1, "process");
+  const char *proc = lua_isnil(L, -1) ? NULL : lua_tostring(L, -1);
+  if (!lua_isnil(L, -1) && lua_type(L, -1) != LUA_TSTRING)
+    return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'process' must be 'constant', 'absorption' or 'emission')");
+  lua_pop(L, 1);
+  if (!proc) sp.process = have_omega ? LVS_GOLDEN_ABSORPTION : LVS_GOLDEN_CONSTANT;
+  else if (strcmp(proc, "constant") == 0) sp.process = LVS_GOLDEN_CONSTANT;
+  else if (strcmp(proc, "absorption") == 0) sp.process = LVS_GOLDEN_ABSORPTION;
+  else if (strcmp(proc, "emission") == 0) sp.process = LVS_GOLDEN_EMISSION;
+  else
+    return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'process' must be 'constant', 'absorption' or 'emission', got '%s')",
+                      proc);
+  if (sp.process == LVS_GOLDEN_CONSTANT && have_omega)
+    return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' given with process 'constant')");
+  if (sp.process != LVS_GOLDEN_CONSTANT) {
+    if (!have_omega)
+      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' is required for process '%s')", proc);
+    sp.omega = needfield(L, "golden_rule", "omega", 1, 0);
+    if (!(sp.omega > 0) || isinf(sp.omega))
+      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' must be a finite number > 0, got %f)", sp.omega);
+  }
+  /* density of states */
+  lua_getfield(L, 1, "rho");
+  lua_getfield(L, 1, "band");
+  int has_rho = !lua_isnil(L, -2), has_band = !lua_isnil(L, -1);
+  lua_pop(L, 2);
+  if (has_rho == has_band)
+    return luaL_error(L, "bad argument #1 to 'golden_rule' (give one of 'rho' (a number or a function of E) and 'band')");
+  lua_getfield(L, 1, "couplings");
+  int has_couplings = !lua_isnil(L, -1);
+  lua_pop(L, 1);
+  lua_getfield(L, 1, "V");
+  int has_v = !lua_isnil(L, -1);
+  lua_pop(L, 1);
+  if (has_couplings && !has_band)
+    return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'couplings' needs a 'band')");
+  if (has_couplings == has_v)
+    return luaL_error(L, "bad argument #1 to 'golden_rule' (give the coupling 'V' (a number), or 'couplings' with a band)");
+  if (has_v) {
+    sp.coupling = needfield(L, "golden_rule", "V", 1, 0);
+    if (!isfinite(sp.coupling)) return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'V' must be finite)");
+    sp.coupling = fabs(sp.coupling);
+  }
+  if (has_rho) {
+    lua_getfield(L, 1, "rho"); /* 2 */
+    if (lua_isfunction(L, 2)) {
+      cb.fidx = 2;
+      sp.dos_fn = cb_dos;
+      sp.ud = &cb;
+    } else if (lua_type(L, 2) == LUA_TNUMBER) {
+      sp.has_rho = 1;
+      sp.rho = lua_tonumber(L, 2);
+      if (!(sp.rho >= 0) || isinf(sp.rho))
+        return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'rho' must be a finite number >= 0, got %f)", sp.rho);
+    } else {
+      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'rho' must be a number or a function of E, got %s)",
+                        luaL_typename(L, 2));
+    }
+  } else {
+    lua_pushnil(L); /* 2: placeholder */
+    size_t nb = 0, nc = 0;
+    sp.band = numarray(L, "band", &nb); /* 3 */
+    sp.nband = nb;
+    if (has_couplings) {
+      sp.band_coupling = numarray(L, "couplings", &nc); /* 4 */
+      if (nc != nb)
+        return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'couplings' has %d entries but 'band' has %d)", (int)nc,
+                          (int)nb);
+    }
+    sp.broadening = needfield(L, "golden_rule", "broadening", 1, 0);
+    if (!(sp.broadening > 0) || isinf(sp.broadening))
+      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'broadening' must be a finite number > 0, got %f)",
+                        sp.broadening);
+    lua_getfield(L, 1, "shape");
+    const char *shape = lua_isnil(L, -1) ? "lorentzian" : lua_tostring(L, -1);
+    if (!shape || lua_type(L, -1) == LUA_TNUMBER ||
+        (strcmp(shape, "lorentzian") != 0 && strcmp(shape, "gaussian") != 0))
+      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'shape' must be 'lorentzian' or 'gaussian')");
+    sp.shape = strcmp(shape, "gaussian") == 0 ? LVS_BAND_GAUSSIAN : LVS_BAND_LORENTZIAN;
+    lua_pop(L, 1);
+  }
+  lvs_golden_result r;
+  int st = lvs_golden_rate(ctx, &sp, &r);
+  if (st && cb.err[0]) {
+    lvs_clear_error(ctx);
+    return luaL_error(L, "bad argument #1 to 'golden_rule' (%s)", cb.err);
+  }
+  lvsL_check(L, ctx, st, "golden_rule");
+  lua_pushnumber(L, r.rate);
+  lua_createtable(L, 0, 6);
+  lua_pushnumber(L, r.rho);
+  lua_setfield(L, -2, "rho");
+  lua_pushnumber(L, r.final_energy);
+  lua_setfield(L, -2, "energy");
+  if (sp.band) {
+    lua_pushnumber(L, r.spacing);
+    lua_setfield(L, -2, "spacing");
+    lua_pushnumber(L, r.bandwidth);
+    lua_setfield(L, -2, "bandwidth");
+  }
+  if (r.warning[0]) {
+    lua_pushstring(L, r.warning);
+    lua_setfield(L, -2, "warning");
+  }
+  return 2;
+}
+
 void lvsL_open_transition(lua_State *L, int ctxidx) {
   int mod = lua_gettop(L);
   /* pulse metatable */
@@ -514,6 +702,6 @@ void lvsL_open_transition(lua_State *L, int ctxidx) {
   lvsL_setfuncs(L, tm, ctxidx);
   lua_setfield(L, -2, "_methods");
   lua_pop(L, 1);
-  static const luaL_Reg fns[] = {{"transition", l_transition}, {NULL, NULL}};
+  static const luaL_Reg fns[] = {{"transition", l_transition}, {"golden_rule", l_golden}, {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);
 }
