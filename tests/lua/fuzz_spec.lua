@@ -19,6 +19,9 @@ describe("hostile arguments", function()
     for k, v in pairs(ls._basis_methods) do
       if k ~= "close" then fns[#fns + 1] = { "b:" .. k, function(...) return v(b, ...) end } end
     end
+    local bx, rt = ls.box(3), ls.rotor(1) -- a box for B:potential's callback paths, a rotor's operators
+    fns[#fns + 1] = { "box:potential", function(...) return bx:potential(...) end }
+    fns[#fns + 1] = { "rotor:index", function(k) return rt[k] end }
     math.randomseed(20261202)
     local bad = {}
     for _ = 1, 3000 do
