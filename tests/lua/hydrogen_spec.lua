@@ -175,6 +175,22 @@ describe("hydrogen recipe", function()
     assert.equal(3, found)
   end)
 
+  it("prints a report from the program", function()
+    local bin = os.getenv("LVS_BIN") or "build/levelshift"
+    local f = io.popen(bin .. " hydrogen field=1e-3 m=0 2>&1; echo \"rc=$?\"")
+    local out = f:read("a")
+    f:close()
+    assert.truthy(out:find("rc=0", 1, true), out)
+    assert.truthy(out:find("recipe hydrogen", 1, true), out)
+    -- E2 of the n = 2, m = 0 pair: -84 F^2 (Bethe & Salpeter 1957, sec. 52)
+    assert.truthy(out:find("-8.4e-05", 1, true), out)
+    f = io.popen(bin .. " hydrogen lmax=-2 2>&1; echo \"rc=$?\"")
+    out = f:read("a")
+    f:close()
+    assert.truthy(out:find("parameter 'lmax' must be at least 0", 1, true), out)
+    assert.falsy(out:find("rc=0", 1, true), out)
+  end)
+
   it("rejects bad parameters with clear messages", function()
     assert.error_matches(function() ls.recipe("hydrogen", { lmax = -1 }) end,
       "recipe 'hydrogen': parameter 'lmax' must be at least 0", 1, true)
