@@ -249,7 +249,9 @@ LVS_API const char *lvs_effective_warnings(const lvs_effective *e); /* "" when n
  * members have order 0 only. split_order: 0 alone, k split at order k, -1
  * never split within the order. */
 typedef struct lvs_series lvs_series;
-LVS_API int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels, double degen_tol, int normalized, lvs_series **out);
+#define LVS_SERIES_NORMALIZED 1 /* flags: normalized states (default: intermediate normalization) */
+#define LVS_SERIES_NO_STATES 2  /* flags: energies only, no state corrections kept (less memory) */
+LVS_API int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels, double degen_tol, int flags, lvs_series **out);
 LVS_API void lvs_series_free(lvs_series *s);
 LVS_API size_t lvs_series_dim(const lvs_series *s);
 LVS_API int lvs_series_order(const lvs_series *s);

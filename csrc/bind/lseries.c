@@ -50,7 +50,7 @@ static int l_perturb(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_matrix *h0 = lvsL_checkmatrix(L, 1);
   lvs_matrix *v = lvsL_checkmatrix(L, 2);
-  static const char *const known[] = {"order", "levels", "degen_tol", "normalized", NULL};
+  static const char *const known[] = {"order", "levels", "degen_tol", "normalized", "states", NULL};
   lvsL_checkoptions(L, 3, known, "perturb", 3);
   size_t n = lvs_matrix_rows(h0);
   if (n != lvs_matrix_cols(h0)) {
@@ -72,12 +72,15 @@ static int l_perturb(lua_State *L) {
     lua_pushfstring(L, "degen_tol must be from 0 to 0.5, got %f", tol);
     return luaL_argerror(L, 3, lua_tostring(L, -1));
   }
-  int normalized = 0;
+  int normalized = 0, states = 1;
   size_t nlev = 0;
   size_t *levels = NULL;
   if (lua_istable(L, 3)) {
     lua_getfield(L, 3, "normalized");
     normalized = lua_toboolean(L, -1);
+    lua_pop(L, 1);
+    lua_getfield(L, 3, "states");
+    if (!lua_isnil(L, -1)) states = lua_toboolean(L, -1);
     lua_pop(L, 1);
     lua_getfield(L, 3, "levels");
     if (!lua_isnil(L, -1)) {
@@ -101,7 +104,8 @@ static int l_perturb(lua_State *L) {
   lvs_series **p = lua_newuserdatauv(L, sizeof *p, 2);
   *p = NULL;
   luaL_setmetatable(L, LVS_SERIES_MT);
-  int st = lvs_series_new(h0, v, (int)order, levels, nlev, tol, normalized, p);
+  int st = lvs_series_new(h0, v, (int)order, levels, nlev, tol,
+                          (normalized ? LVS_SERIES_NORMALIZED : 0) | (states ? 0 : LVS_SERIES_NO_STATES), p);
   if (st == LVS_ENOTHERM || st == LVS_EDIM) {
     int arg = strncmp(lvs_errmsg(ctx), "H0", 2) == 0 ? 1 : 2;
     lua_pushstring(L, lvs_errmsg(ctx));
@@ -150,9 +154,12 @@ static int s_state(lua_State *L) {
   size_t n = lvs_series_dim(s);
   int sorders;
   lvs_series_info(s, lev, NULL, NULL, NULL, &sorders);
+  if (sorders < 0) return luaL_argerror(L, 1, "no state corrections were kept (perturb option states = false)");
   if (k > sorders) {
-    lua_pushfstring(L, "level %d belongs to a degenerate group: its state is available at order 0 only",
-                    (int)lev + 1);
+    int split;
+    lvs_series_info(s, lev, NULL, &split, NULL, NULL);
+    lua_pushfstring(L, "level %d was split from its degenerate group at order %d: its state is available to order %d",
+                    (int)lev + 1, split, sorders);
     return luaL_argerror(L, 3, lua_tostring(L, -1));
   }
   double *psi = lua_newuserdatauv(L, 2 * n * sizeof *psi, 0);

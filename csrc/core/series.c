@@ -10,141 +10,359 @@
  *       (E_P - E_m) Omega(k)_ma = (V Omega(k-1))_ma - sum_{i=1..k-1} (Omega(i) W(k-i))_ma,
  *       W(k) = P V Omega(k-1).
  *     For a single level this is the RS recursion in intermediate
- *     normalization: E(k) = W(k), psi(k) = Omega(k). Each order costs one
- *     matvec with V plus O(k*dim).
+ *     normalization (Hirschfelder, Byers Brown, Epstein, Adv. Quantum Chem.
+ *     1, 255 (1964)): E(k) = W(k), psi(k) = Omega(k).
+ *   - Cost. Each Omega(k) is stored only on the row range it can reach: a
+ *     sparse V applied to a vector supported on rows [lo, hi) reaches the
+ *     union of its columns' row ranges. Per order a level costs one sparse
+ *     product over that range plus O(k * range); with a diagonal H0 nothing
+ *     is dense and nothing is O(dim^2) (the range never exceeds dim, so the
+ *     worst case is one product with V plus O(K * dim) per order).
  *   - For a degenerate group the eigenvalue series of the d x d matrix
  *     series M(lambda) = W(1) + lambda W(2) + ... is found recursively: M(0)
  *     is diagonalized, its eigenvalues grouped again, and each subgroup gets
  *     its own (small, dense) Bloch reduction with M(1), M(2), ... as a
  *     polynomial perturbation. A member's split order is the order at which
- *     its subgroup became a single level.
+ *     its subgroup became a single level. The same recursion gives each
+ *     member's P-space vector z(lambda) (the eigenvector of the Bloch
+ *     effective Hamiltonian), so its state is Omega(lambda) z(lambda),
+ *     brought to intermediate normalization <z(0)|psi(k)> = 0 (k >= 1) by a
+ *     series division. A member split at order s has states to order K - s
+ *     (the P-space part of psi(k) needs W(k + s)).
+ *   - States are assembled on request (lvs_series_state), not stored.
  */
+#include <cblas.h>
 #include <complex.h>
 #include <lapacke.h>
 #include <math.h>
+#include <stdint.h>
 #include <string.h>
 #include "internal.h"
 
+typedef double complex dc;
+
+/* Omega of one group: per order k = 0..nom a block of rows [lo[k], hi[k]) x d */
+typedef struct {
+  size_t g0, d;
+  double ep;
+  int nom;
+  size_t *lo, *hi;
+  dc **om;
+  dc *zbuf; /* members' z series: member i at zbuf + i (K) d, or (K+1) for d = 1 */
+} sgroup;
+
+/* one computed level */
+typedef struct {
+  double *e;    /* corrections E(0..K) */
+  int split;    /* order that split the level from its group (0: alone, -1: never) */
+  int zord;     /* highest state order available */
+  size_t group; /* group index of the level (all groups of H0, ascending) */
+  size_t gi;    /* index into grp */
+  double mind;  /* smallest |E_a - E_m| to levels outside the group */
+  const dc *z;  /* (zord+1) vectors of length d (its group's P space), in its group's zbuf */
+} slevel;
+
+/* Memory is kept proportional to what was asked for: fresh pages are what
+ * a small problem pays for most. */
 struct lvs_series {
   lvs_ctx *ctx;
   size_t n;       /* dimension */
   int K;          /* order */
-  double *e0;     /* sorted unperturbed energies, n */
-  double *e;      /* corrections, n x (K+1): e[lev*(K+1)+k] */
-  int *done;      /* level computed */
-  int *split;     /* order that split the level from its group (0: alone, -1: never) */
-  size_t *group;  /* group index of the level */
-  double *mind;   /* smallest |E_a - E_m| to levels outside the group */
-  double complex **psi; /* per level: (K+1) x n states in the original basis, or NULL */
-  int *nstates;   /* number of orders of state available (K+1, or 1) */
-  double vnorm;   /* max column 1-norm of V */
   int normalized;
+  int states;     /* state corrections kept */
+  double *e0;     /* sorted unperturbed energies, n */
+  int *slot;      /* per level: index into lev, or -1 when not computed */
+  slevel *lev;
+  size_t nlev;
+  sgroup *grp;
+  size_t ngrp;
+  size_t *perm;   /* working index -> original basis index (diagonal H0) */
+  lvs_matrix *U;  /* eigenvectors of H0 (NULL when H0 is diagonal) */
+  double vnorm;   /* max column 1-norm of V */
 };
 
-/* ---- V application in the sorted eigenbasis -------------------------- */
+/* ---- V in the working (sorted eigen-) basis ---------------------------- */
 typedef struct {
-  lvs_matrix *vb;  /* plain (sparse or dense) V in the working basis order perm */
-  size_t *perm;    /* working index i -> row/col of vb */
   size_t n;
-  double complex *xo, *yo;
-} vapply;
+  int sparse, borrowed;          /* borrowed: cp, ri, ra/za belong to the plain copy of V */
+  size_t *cp, *ri, *cmin, *cmax; /* CSC; cmin/cmax: row range of a column (cmin > cmax if empty) */
+  double *ra;                    /* real sparse values */
+  dc *za;                        /* complex sparse values */
+  double *rd;                    /* dense real, n x n */
+  dc *zd;                        /* dense complex, n x n */
+  /* matrix-free U^H V U (few columns, few orders): U, V dense, real (ur, vr) or complex */
+  int mf;
+  const double *ur, *vr;
+  dc *uz, *vz;                   /* complex copies (owned) when not both real */
+  dc *t1, *t2;                   /* scratch, n each */
+} wop;
 
-static int vapply_do(vapply *a, const double complex *x, double complex *y) {
-  for (size_t i = 0; i < a->n; i++) a->xo[a->perm[i]] = x[i];
-  int st = lvs_matrix_apply(a->vb, 1, (const double *)a->xo, (double *)a->yo);
-  if (st) return st;
-  for (size_t i = 0; i < a->n; i++) y[i] = a->yo[a->perm[i]];
+static void wop_free(lvs_ctx *ctx, wop *w) {
+  if (!w->borrowed) {
+    lvsi_free(ctx, w->cp);
+    lvsi_free(ctx, w->ri);
+    lvsi_free(ctx, w->ra);
+    lvsi_free(ctx, w->za);
+  }
+  lvsi_free(ctx, w->cmin);
+  lvsi_free(ctx, w->cmax);
+  lvsi_free(ctx, w->rd);
+  lvsi_free(ctx, w->zd);
+  lvsi_free(ctx, w->uz);
+  lvsi_free(ctx, w->vz);
+  lvsi_free(ctx, w->t1);
+  lvsi_free(ctx, w->t2);
+}
+
+/* rows reached by V from columns [lo, hi) */
+static void wop_range(const wop *w, size_t lo, size_t hi, size_t *ylo, size_t *yhi) {
+  if (!w->sparse) {
+    *ylo = 0;
+    *yhi = lo < hi ? w->n : 0;
+    return;
+  }
+  size_t a = SIZE_MAX, b = 0;
+  for (size_t j = lo; j < hi; j++)
+    if (w->cmin[j] <= w->cmax[j]) {
+      if (w->cmin[j] < a) a = w->cmin[j];
+      if (w->cmax[j] + 1 > b) b = w->cmax[j] + 1;
+    }
+  if (a == SIZE_MAX) a = b = 0;
+  *ylo = a;
+  *yhi = b;
+}
+
+/* y[i - ylo] = (V x)_i for i in [ylo, yhi); x[j - lo] holds the entries on [lo, hi).
+ * y must span the range from wop_range and be zeroed. */
+static void wop_apply(const wop *w, const dc *x, size_t lo, size_t hi, dc *y, size_t ylo) {
+  if (lo >= hi) return;
+  if (w->mf) { /* y = U^H (V (U x)); x is on [lo, hi) */
+    int n = (int)w->n, kk = (int)(hi - lo);
+    if (w->ur) { /* real U and V on the interleaved parts: (2 x n) products */
+      cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, 2, n, kk, 1.0, (const double *)x, 2, w->ur + lo * w->n, n,
+                  0.0, (double *)w->t1, 2);
+      cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, 2, n, n, 1.0, (const double *)w->t1, 2, w->vr, n, 0.0,
+                  (double *)w->t2, 2);
+      cblas_dgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, 2, n, n, 1.0, (const double *)w->t2, 2, w->ur, n, 1.0,
+                  (double *)y, 2);
+    } else {
+      dc one = 1.0, zero = 0.0;
+      cblas_zgemv(CblasColMajor, CblasNoTrans, n, kk, &one, w->uz + lo * w->n, n, x, 1, &zero, w->t1, 1);
+      cblas_zgemv(CblasColMajor, CblasNoTrans, n, n, &one, w->vz, n, w->t1, 1, &zero, w->t2, 1);
+      cblas_zgemv(CblasColMajor, CblasConjTrans, n, n, &one, w->uz, n, w->t2, 1, &one, y, 1);
+    }
+    return;
+  }
+  if (w->sparse && w->ra) {
+    for (size_t j = lo; j < hi; j++) {
+      dc xj = x[j - lo];
+      if (xj == 0) continue;
+      for (size_t k = w->cp[j]; k < w->cp[j + 1]; k++) y[w->ri[k] - ylo] += w->ra[k] * xj;
+    }
+  } else if (w->sparse) {
+    for (size_t j = lo; j < hi; j++) {
+      dc xj = x[j - lo];
+      if (xj == 0) continue;
+      for (size_t k = w->cp[j]; k < w->cp[j + 1]; k++) y[w->ri[k] - ylo] += w->za[k] * xj;
+    }
+  } else if (w->rd) {
+    /* real V times a complex vector: (2 x n) = (2 x kk) (n x kk)^T on the interleaved parts */
+    cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, 2, (int)w->n, (int)(hi - lo), 1.0, (const double *)x, 2,
+                w->rd + lo * w->n, (int)w->n, 1.0, (double *)y, 2);
+  } else {
+    dc one = 1.0;
+    cblas_zgemv(CblasColMajor, CblasNoTrans, (int)w->n, (int)(hi - lo), &one, w->zd + lo * w->n, (int)w->n, x, 1,
+                &one, y, 1);
+  }
+}
+
+/* C = alpha op(A) B + beta C for complex column-major blocks; when real is
+ * set the imaginary parts are known to vanish and dgemm does the work. */
+static int gemm(lvs_ctx *ctx, int real, int conjA, size_t m, size_t nn, size_t kk, double alpha, const dc *A,
+                size_t lda, const dc *B, size_t ldb, double beta, dc *C, size_t ldc) {
+  if (!m || !nn) return LVS_OK;
+  if (!real) {
+    dc al = alpha, be = beta;
+    cblas_zgemm(CblasColMajor, conjA ? CblasConjTrans : CblasNoTrans, CblasNoTrans, (int)m, (int)nn, (int)kk, &al, A,
+                (int)lda, B, (int)ldb, &be, C, (int)ldc);
+    return LVS_OK;
+  }
+  size_t ar = conjA ? kk : m, ac = conjA ? m : kk;
+  double *a = lvsi_malloc(ctx, (ar * ac + kk * nn + m * nn + 1) * sizeof *a);
+  if (!a) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  double *b = a + ar * ac, *c = b + kk * nn;
+  for (size_t j = 0; j < ac; j++)
+    for (size_t i = 0; i < ar; i++) a[i + j * ar] = creal(A[i + j * lda]);
+  for (size_t j = 0; j < nn; j++)
+    for (size_t i = 0; i < kk; i++) b[i + j * kk] = creal(B[i + j * ldb]);
+  for (size_t j = 0; j < nn; j++)
+    for (size_t i = 0; i < m; i++) c[i + j * m] = beta != 0 ? creal(C[i + j * ldc]) : 0.0;
+  cblas_dgemm(CblasColMajor, conjA ? CblasTrans : CblasNoTrans, CblasNoTrans, (int)m, (int)nn, (int)kk, alpha, a,
+              (int)ar, b, (int)kk, beta, c, (int)m);
+  for (size_t j = 0; j < nn; j++)
+    for (size_t i = 0; i < m; i++) C[i + j * ldc] = c[i + j * m];
+  lvsi_free(ctx, a);
   return LVS_OK;
 }
 
-/* Bloch reduction of the full problem onto P (d indices in sorted basis).
- * om: (K+1) blocks of n x d; w: (K+1) blocks of d x d (w[0] unused). */
-static int bloch_big(lvs_ctx *ctx, vapply *va, const double *E, double ep, const size_t *P, size_t d,
-                     int K, double complex *om, double complex *w, double *mind) {
-  size_t n = va->n;
-  unsigned char *inP = lvsi_calloc(ctx, n, 1);
-  double complex *y = lvsi_malloc(ctx, n * sizeof *y);
-  if (!inP || !y) {
-    lvsi_free(ctx, inP);
-    lvsi_free(ctx, y);
-    return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-  }
-  for (size_t b = 0; b < d; b++) inP[P[b]] = 1;
-  double md = INFINITY;
-  for (size_t m = 0; m < n; m++)
-    if (!inP[m] && fabs(ep - E[m]) < md) md = fabs(ep - E[m]);
-  *mind = md;
-  memset(om, 0, (size_t)(K + 1) * n * d * sizeof *om);
-  memset(w, 0, (size_t)(K + 1) * d * d * sizeof *w);
-  for (size_t a = 0; a < d; a++) om[a * n + P[a]] = 1.0;
+/* ---- Bloch reduction of the whole problem onto one group -------------- */
+/* Fills g->om[1..nom] (om[0] is the identity on P, not stored) and W(k)
+ * (d x d, column-major) at W + (k-1) d^2, k = 1..K. Omega(k) is written in
+ * place: its row range is known before V is applied. */
+static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, int K, dc *W) {
+  size_t d = g->d, g0 = g->g0, g1 = g0 + d, dd = d * d;
   int st = LVS_OK;
+  g->lo[0] = g0;
+  g->hi[0] = g1;
+  dc *x0 = NULL, *tmp = NULL;
+  if (d > 1) { /* columns of the identity on P, for the first product */
+    x0 = lvsi_calloc(ctx, d, sizeof *x0);
+    if (!x0) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  }
   for (int k = 1; k <= K && !st; k++) {
-    double complex *omk = om + (size_t)k * n * d, *wk = w + (size_t)k * d * d;
-    for (size_t a = 0; a < d && !st; a++) {
-      st = vapply_do(va, om + ((size_t)(k - 1) * d + a) * n, y);
-      if (st) break;
-      for (size_t b = 0; b < d; b++) wk[a * d + b] = y[P[b]];
-      for (size_t m = 0; m < n; m++) {
-        if (inP[m]) continue;
-        double complex r = y[m];
-        for (int i = 1; i < k; i++) {
-          const double complex *omi = om + (size_t)i * n * d, *wki = w + (size_t)(k - i) * d * d;
-          for (size_t b = 0; b < d; b++) r -= omi[b * n + m] * wki[a * d + b];
+    size_t plo = g->lo[k - 1], phi = g->hi[k - 1], pn = phi - plo, ylo, yhi;
+    wop_range(V, plo, phi, &ylo, &yhi);
+    dc *Wk = W + (size_t)(k - 1) * dd;
+    int last = k > g->nom; /* only W(k) is wanted: P rows of V Omega(k-1) */
+    size_t lo = ylo, hi = yhi;
+    if (last) {
+      lo = g0, hi = g1;
+    } else {
+      if (lo >= hi) lo = SIZE_MAX, hi = 0;
+      for (int i = 1; i < k; i++)
+        if (g->lo[i] < g->hi[i]) {
+          if (g->lo[i] < lo) lo = g->lo[i];
+          if (g->hi[i] > hi) hi = g->hi[i];
         }
-        omk[a * n + m] = r / (ep - E[m]);
+      if (lo >= hi) lo = hi = g0;
+    }
+    size_t on = hi - lo;
+    /* y = V Omega(k-1) lands in the block at rows [lo, hi); a product's rows
+     * outside that block go through a scratch column (last order only) */
+    int clip = ylo < lo || yhi > hi;
+    dc *ok = lvsi_calloc(ctx, on * d + 1, sizeof(dc));
+    if (clip && !tmp) tmp = lvsi_malloc(ctx, (V->n + 1) * sizeof *tmp);
+    if (!ok || (clip && !tmp)) {
+      lvsi_free(ctx, ok);
+      st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
+      break;
+    }
+    for (size_t a = 0; a < d; a++) {
+      const dc *x;
+      if (k == 1) {
+        if (d == 1) {
+          static const dc one1 = 1.0;
+          x = &one1;
+        } else {
+          if (a) x0[a - 1] = 0;
+          x0[a] = 1.0;
+          x = x0;
+        }
+      } else {
+        x = g->om[k - 1] + a * pn;
+      }
+      if (!clip) {
+        wop_apply(V, x, plo, phi, ok + a * on + (ylo - lo), ylo);
+      } else {
+        memset(tmp, 0, (yhi - ylo) * sizeof *tmp);
+        wop_apply(V, x, plo, phi, tmp, ylo);
+        for (size_t r = lo; r < hi; r++)
+          if (r >= ylo && r < yhi) ok[a * on + (r - lo)] = tmp[r - ylo];
+      }
+    }
+    for (size_t a = 0; a < d; a++)
+      for (size_t b = 0; b < d; b++) {
+        size_t r = g0 + b;
+        Wk[b + a * d] = (r >= lo && r < hi) ? ok[r - lo + a * on] : 0.0;
+      }
+    if (last) {
+      lvsi_free(ctx, ok);
+      continue;
+    }
+    g->om[k] = ok;
+    g->lo[k] = lo;
+    g->hi[k] = hi;
+    for (int i = 1; i < k; i++) {
+      size_t il = g->lo[i], in = g->hi[i] - il;
+      if (!in) continue;
+      const dc *oi = g->om[i], *wk = W + (size_t)(k - i - 1) * dd;
+      if (d == 1) {
+        dc c = wk[0];
+        dc *dst = ok + (il - lo);
+        for (size_t r = 0; r < in; r++) dst[r] -= oi[r] * c;
+      } else {
+        dc mone = -1.0, one = 1.0;
+        cblas_zgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, (int)in, (int)d, (int)d, &mone, oi, (int)in, wk,
+                    (int)d, &one, ok + (il - lo), (int)on);
+      }
+    }
+    for (size_t r = 0; r < on; r++) {
+      size_t m = lo + r;
+      if (m >= g0 && m < g1) {
+        for (size_t a = 0; a < d; a++) ok[r + a * on] = 0.0;
+      } else {
+        double den = g->ep - E[m];
+        for (size_t a = 0; a < d; a++) ok[r + a * on] /= den;
       }
     }
   }
-  lvsi_free(ctx, inP);
-  lvsi_free(ctx, y);
+  lvsi_free(ctx, x0);
+  lvsi_free(ctx, tmp);
   return st;
 }
 
 /* ---- eigenvalue series of a small matrix series ----------------------- */
-/* M: Kp+1 blocks d x d (column-major). mu: d x (Kp+1) (mu[i*(Kp+1)+k]),
- * z: d x d zeroth-order vectors (columns), split: per member. ord0 is the
- * energy order that M[0] stands for. */
-static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const double complex *M, double tol, int ord0,
-                     double *mu, double complex *z, int *split) {
-  size_t dd = d * d;
-  if (d == 1) {
-    for (int k = 0; k <= Kp; k++) mu[k] = creal(M[(size_t)k]);
-    z[0] = 1.0;
-    split[0] = ord0 - 1 > 0 ? ord0 - 1 : 0; /* caller decides; placeholder */
-    return LVS_OK;
-  }
-  int st = LVS_OK;
-  double complex *c = lvsi_malloc(ctx, dd * sizeof *c);
-  double *m = lvsi_malloc(ctx, d * sizeof *m);
-  double complex *R = lvsi_malloc(ctx, (size_t)(Kp + 1) * dd * sizeof *R);
-  double complex *t = lvsi_malloc(ctx, dd * sizeof *t);
-  if (!c || !m || !R || !t) {
+/* M: Kp+1 blocks d x d (column-major), d >= 2. Per member i (ascending):
+ * mu[i*(Kp+1)+k], split[i], zord[i] and the eigenvector series
+ * z[(i*(Kp+1)+k)*d + l], k = 0..zord[i]. ord0 is the energy order that M[0]
+ * stands for. */
+static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, int ord0, double *mu, dc *z,
+                     int *split, int *zord) {
+  /* z == NULL: eigenvalues only (no eigenvector series) */
+  size_t dd = d * d, nk = (size_t)Kp + 1;
+  int st = LVS_OK, real = 1;
+  for (size_t q = 0; q < nk * dd && real; q++)
+    if (cimag(M[q]) != 0) real = 0;
+  dc *c = lvsi_malloc(ctx, dd * sizeof *c);
+  double *m = lvsi_malloc(ctx, d * sizeof *m), *rc = lvsi_malloc(ctx, dd * sizeof *rc);
+  /* R, OM, WA hold orders 1..Kp (block k at k-1): R(0) = diag(m), OM(0) = 1 */
+  size_t kb = Kp > 0 ? (size_t)Kp : 1;
+  dc *R = lvsi_malloc(ctx, kb * dd * sizeof *R), *T = lvsi_malloc(ctx, dd * sizeof *T);
+  dc *OM = lvsi_malloc(ctx, kb * dd * sizeof *OM), *WA = lvsi_malloc(ctx, kb * dd * sizeof *WA);
+  dc *UU = Kp > 0 && z ? lvsi_calloc(ctx, nk * dd, sizeof *UU) : lvsi_malloc(ctx, sizeof *UU);
+  size_t *sg = lvsi_malloc(ctx, d * sizeof *sg);
+  double *mean = lvsi_malloc(ctx, d * sizeof *mean);
+  double *smu = NULL;
+  dc *sM = NULL, *sz = NULL;
+  int *ss = NULL, *szo = NULL;
+  if (!c || !m || !rc || !R || !T || !OM || !WA || !UU || !sg || !mean) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
     goto done;
   }
   /* Hermitian part of M[0] (exactly Hermitian at the first two levels) */
-  for (size_t j = 0; j < d; j++)
-    for (size_t i = 0; i < d; i++) c[j * d + i] = 0.5 * (M[j * d + i] + conj(M[i * d + j]));
-  if (LAPACKE_zheev(LAPACK_COL_MAJOR, 'V', 'L', (lapack_int)d, (lapack_complex_double *)c, (lapack_int)d, m)) {
-    st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: zheev failed on a degenerate group");
-    goto done;
+  if (real) {
+    for (size_t j = 0; j < d; j++)
+      for (size_t i = 0; i < d; i++) rc[j * d + i] = 0.5 * creal(M[j * d + i] + M[i * d + j]);
+    if (LAPACKE_dsyevd(LAPACK_COL_MAJOR, 'V', 'L', (lapack_int)d, rc, (lapack_int)d, m)) {
+      st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: dsyevd failed on a degenerate group");
+      goto done;
+    }
+    for (size_t q = 0; q < dd; q++) c[q] = rc[q];
+  } else {
+    for (size_t j = 0; j < d; j++)
+      for (size_t i = 0; i < d; i++) c[j * d + i] = 0.5 * (M[j * d + i] + conj(M[i * d + j]));
+    if (LAPACKE_zheevd(LAPACK_COL_MAJOR, 'V', 'L', (lapack_int)d, (lapack_complex_double *)c, (lapack_int)d, m)) {
+      st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: zheevd failed on a degenerate group");
+      goto done;
+    }
   }
-  /* R[k] = C^H M[k] C */
-  for (int k = 0; k <= Kp; k++) {
-    const double complex *Mk = M + (size_t)k * dd;
-    double complex *Rk = R + (size_t)k * dd;
-    for (size_t j = 0; j < d; j++)
-      for (size_t i = 0; i < d; i++) {
-        double complex s = 0;
-        for (size_t l = 0; l < d; l++) s += Mk[l * d + i] * c[j * d + l];
-        t[j * d + i] = s;
-      }
-    for (size_t j = 0; j < d; j++)
-      for (size_t i = 0; i < d; i++) {
-        double complex s = 0;
-        for (size_t l = 0; l < d; l++) s += conj(c[i * d + l]) * t[j * d + l];
-        Rk[j * d + i] = s;
-      }
+  /* R(k) = C^H M[k] C */
+#define RB(k) (R + (size_t)((k) - 1) * dd)
+#define OMB(k) (OM + (size_t)((k) - 1) * dd)
+#define WAB(k) (WA + (size_t)((k) - 1) * dd)
+  for (int k = 1; k <= Kp; k++) {
+    if ((st = gemm(ctx, real, 0, d, d, d, 1.0, M + (size_t)k * dd, d, c, d, 0.0, T, d))) goto done;
+    if ((st = gemm(ctx, real, 1, d, d, d, 1.0, c, d, T, d, 0.0, RB(k), d))) goto done;
   }
   double scale = 0;
   for (size_t i = 0; i < d; i++) scale = fmax(scale, fabs(m[i]));
@@ -152,89 +370,117 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const double complex *M, do
   /* also relative to the size of the whole series, so tiny rounding
    * eigenvalues of an all-zero block count as equal */
   double ms = 0;
-  for (size_t q = 0; q < (size_t)(Kp + 1) * dd; q++) ms = fmax(ms, cabs(R[q]));
+  for (size_t q = 0; q < dd; q++) ms = fmax(ms, cabs(M[q]));
+  for (size_t q = 0; q < (size_t)Kp * dd; q++) ms = fmax(ms, cabs(R[q]));
   double atol = tol * fmax(scale, ms) + 1e-14 * ms;
-  size_t g0 = 0;
-  while (g0 < d && !st) {
+  /* subgroups of equal eigenvalues */
+  size_t ng = 0;
+  for (size_t g0 = 0; g0 < d;) {
     size_t g1 = g0 + 1;
     while (g1 < d && m[g1] - m[g1 - 1] <= atol) g1++;
-    size_t gd = g1 - g0;
-    double mean = 0;
-    for (size_t i = g0; i < g1; i++) mean += m[i] / (double)gd;
-    if (Kp == 0) {
-      for (size_t i = g0; i < g1; i++) {
-        mu[i] = gd == 1 ? m[i] : mean;
-        split[i] = gd == 1 ? ord0 : -1;
-        for (size_t l = 0; l < d; l++) z[i * d + l] = c[i * d + l];
-      }
-      g0 = g1;
-      continue;
-    }
-    /* small Bloch: H0 = diag(m) with the group at 'mean', V_j = R[j] */
-    double complex *om = lvsi_calloc(ctx, (size_t)(Kp + 1) * d * gd, sizeof *om);
-    double complex *w = lvsi_calloc(ctx, (size_t)(Kp + 1) * gd * gd, sizeof *w);
-    double *sub = lvsi_malloc(ctx, gd * (size_t)Kp * sizeof *sub);
-    double complex *zs = lvsi_malloc(ctx, gd * gd * sizeof *zs);
-    int *ss = lvsi_malloc(ctx, gd * sizeof *ss);
-    if (!om || !w || !sub || !zs || !ss) {
-      st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-    } else {
-      for (size_t a = 0; a < gd; a++) om[a * d + g0 + a] = 1.0;
-      for (int k = 1; k <= Kp; k++) {
-        double complex *omk = om + (size_t)k * d * gd, *wk = w + (size_t)k * gd * gd;
-        for (size_t a = 0; a < gd; a++) {
-          for (size_t r = 0; r < d; r++) {
-            double complex y = 0;
-            for (int j = 1; j <= k; j++) {
-              const double complex *Rj = R + (size_t)j * dd, *omp = om + (size_t)(k - j) * d * gd + a * d;
-              for (size_t l = 0; l < d; l++) y += Rj[l * d + r] * omp[l];
-            }
-            if (r >= g0 && r < g1) {
-              wk[a * gd + (r - g0)] = y;
-              continue;
-            }
-            for (int i = 1; i < k; i++) {
-              const double complex *omi = om + (size_t)i * d * gd, *wki = w + (size_t)(k - i) * gd * gd;
-              for (size_t b = 0; b < gd; b++) y -= omi[b * d + r] * wki[a * gd + b];
-            }
-            omk[a * d + r] = y / (mean - m[r]);
-          }
-        }
-      }
-      if (gd == 1) {
-        mu[g0 * (size_t)(Kp + 1)] = m[g0];
-        for (int k = 1; k <= Kp; k++) mu[g0 * (size_t)(Kp + 1) + (size_t)k] = creal(w[(size_t)k]);
-        split[g0] = ord0;
-        for (size_t l = 0; l < d; l++) z[g0 * d + l] = c[g0 * d + l];
-      } else {
-        st = eigseries(ctx, gd, Kp - 1, w + gd * gd, tol, ord0 + 1, sub, zs, ss);
-        if (!st) {
-          for (size_t i = 0; i < gd; i++) {
-            double *mi = mu + (g0 + i) * (size_t)(Kp + 1);
-            mi[0] = mean;
-            for (int k = 1; k <= Kp; k++) mi[k] = sub[i * (size_t)Kp + (size_t)(k - 1)];
-            split[g0 + i] = ss[i];
-            for (size_t l = 0; l < d; l++) {
-              double complex s = 0;
-              for (size_t b = 0; b < gd; b++) s += c[(g0 + b) * d + l] * zs[i * gd + b];
-              z[(g0 + i) * d + l] = s;
-            }
-          }
-        }
-      }
-    }
-    lvsi_free(ctx, om);
-    lvsi_free(ctx, w);
-    lvsi_free(ctx, sub);
-    lvsi_free(ctx, zs);
-    lvsi_free(ctx, ss);
+    double s = 0;
+    for (size_t i = g0; i < g1; i++) s += m[i] / (double)(g1 - g0);
+    mean[ng] = s;
+    for (size_t i = g0; i < g1; i++) sg[i] = ng;
+    ng++;
     g0 = g1;
   }
+  if (Kp == 0) {
+    for (size_t i = 0; i < d; i++) {
+      int alone = (i == 0 || sg[i - 1] != sg[i]) && (i + 1 == d || sg[i + 1] != sg[i]);
+      mu[i] = alone ? m[i] : mean[sg[i]];
+      split[i] = alone ? ord0 : -1;
+      zord[i] = 0;
+      if (z)
+        for (size_t l = 0; l < d; l++) z[i * d + l] = c[i * d + l];
+    }
+    goto done;
+  }
+  /* one Bloch reduction for all subgroups at once: OM[k] (d x d) holds each
+   * subgroup's wave operator in its own columns, WA[k] is block diagonal */
+  for (int k = 1; k <= Kp; k++) {
+    dc *Y = T;
+    memcpy(Y, RB(k), dd * sizeof *Y);
+    for (int j = 1; j < k; j++)
+      if ((st = gemm(ctx, real, 0, d, d, d, 1.0, RB(j), d, OMB(k - j), d, 1.0, Y, d))) goto done;
+    dc *Wk = WAB(k), *Ok = OMB(k);
+    for (size_t a = 0; a < d; a++)
+      for (size_t r = 0; r < d; r++) Wk[a * d + r] = sg[r] == sg[a] ? Y[a * d + r] : 0.0;
+    if (k == Kp && !z) break; /* OM(Kp) only serves the eigenvectors */
+    for (int i = 1; i < k; i++)
+      if ((st = gemm(ctx, real, 0, d, d, d, -1.0, OMB(i), d, WAB(k - i), d, 1.0, Y, d))) goto done;
+    for (size_t a = 0; a < d; a++)
+      for (size_t r = 0; r < d; r++) Ok[a * d + r] = sg[r] == sg[a] ? 0.0 : Y[a * d + r] / (mean[sg[a]] - m[r]);
+  }
+  /* per subgroup: energies, split orders and u_k (eigenvector series in the
+   * basis of M(0)'s eigenvectors), UU[k] column i */
+  for (size_t g0 = 0; g0 < d;) {
+    size_t g1 = g0 + 1;
+    while (g1 < d && sg[g1] == sg[g0]) g1++;
+    size_t gd = g1 - g0;
+    if (gd == 1) {
+      mu[g0 * nk] = m[g0];
+      for (int k = 1; k <= Kp; k++) mu[g0 * nk + (size_t)k] = creal(WAB(k)[g0 * d + g0]);
+      split[g0] = ord0;
+      zord[g0] = Kp;
+      if (z) {
+        UU[g0 * d + g0] = 1.0;
+        for (int k = 1; k <= Kp; k++) memcpy(UU + (size_t)k * dd + g0 * d, OMB(k) + g0 * d, d * sizeof(dc));
+      }
+    } else {
+      size_t gg = gd * gd, sk = (size_t)Kp;
+      sM = lvsi_malloc(ctx, sk * gg * sizeof *sM);
+      smu = lvsi_malloc(ctx, gd * sk * sizeof *smu);
+      sz = z ? lvsi_malloc(ctx, gd * sk * gd * sizeof *sz) : NULL;
+      ss = lvsi_malloc(ctx, gd * sizeof *ss);
+      szo = lvsi_malloc(ctx, gd * sizeof *szo);
+      if (!sM || !smu || (z && !sz) || !ss || !szo) {
+        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+        goto done;
+      }
+      for (int k = 1; k <= Kp; k++)
+        for (size_t b = 0; b < gd; b++)
+          for (size_t a = 0; a < gd; a++)
+            sM[(size_t)(k - 1) * gg + b * gd + a] = WAB(k)[(g0 + b) * d + g0 + a];
+      if ((st = eigseries(ctx, gd, Kp - 1, sM, tol, ord0 + 1, smu, sz, ss, szo))) goto done;
+      for (size_t i = 0; i < gd; i++) {
+        size_t a = g0 + i;
+        mu[a * nk] = mean[sg[g0]];
+        for (int k = 1; k <= Kp; k++) mu[a * nk + (size_t)k] = smu[i * sk + (size_t)(k - 1)];
+        split[a] = ss[i];
+        zord[a] = szo[i];
+        /* u_k = sum_j OM[k-j][:, g0..g1) phi_j */
+        for (int k = 0; z && k <= szo[i]; k++) {
+          dc *u = UU + (size_t)k * dd + a * d;
+          for (size_t b = 0; b < gd; b++) u[g0 + b] += sz[(i * sk + (size_t)k) * gd + b]; /* OM(0) phi_k */
+          for (int j = 0; j < k; j++) {
+            const dc *phi = sz + (i * sk + (size_t)j) * gd, *O = OMB(k - j);
+            for (size_t b = 0; b < gd; b++) {
+              dc p = phi[b];
+              if (p == 0) continue;
+              const dc *col = O + (g0 + b) * d;
+              for (size_t r = 0; r < d; r++) u[r] += col[r] * p;
+            }
+          }
+        }
+      }
+      lvsi_free(ctx, sM), lvsi_free(ctx, smu), lvsi_free(ctx, sz), lvsi_free(ctx, ss), lvsi_free(ctx, szo);
+      sM = NULL, smu = NULL, sz = NULL, ss = NULL, szo = NULL;
+    }
+    g0 = g1;
+  }
+#undef RB
+#undef OMB
+#undef WAB
+  /* z_k = C u_k */
+  for (int k = 0; z && k <= Kp; k++) {
+    if ((st = gemm(ctx, real, 0, d, d, d, 1.0, c, d, UU + (size_t)k * dd, d, 0.0, T, d))) goto done;
+    for (size_t i = 0; i < d; i++) memcpy(z + (i * nk + (size_t)k) * d, T + i * d, d * sizeof(dc));
+  }
 done:
-  lvsi_free(ctx, c);
-  lvsi_free(ctx, m);
-  lvsi_free(ctx, R);
-  lvsi_free(ctx, t);
+  lvsi_free(ctx, c), lvsi_free(ctx, m), lvsi_free(ctx, rc), lvsi_free(ctx, R), lvsi_free(ctx, T);
+  lvsi_free(ctx, OM), lvsi_free(ctx, WA), lvsi_free(ctx, UU), lvsi_free(ctx, sg), lvsi_free(ctx, mean);
+  lvsi_free(ctx, sM), lvsi_free(ctx, smu), lvsi_free(ctx, sz), lvsi_free(ctx, ss), lvsi_free(ctx, szo);
   return st;
 }
 
@@ -242,16 +488,22 @@ done:
 void lvs_series_free(lvs_series *s) {
   if (!s) return;
   lvs_ctx *ctx = s->ctx;
-  if (s->psi)
-    for (size_t i = 0; i < s->n; i++) lvsi_free(ctx, s->psi[i]);
-  lvsi_free(ctx, s->psi);
+  for (size_t i = 0; i < s->nlev; i++) lvsi_free(ctx, s->lev[i].e);
+  for (size_t g = 0; g < s->ngrp; g++) {
+    sgroup *gr = &s->grp[g];
+    if (gr->om)
+      for (int k = 0; k <= gr->nom; k++) lvsi_free(ctx, gr->om[k]);
+    lvsi_free(ctx, gr->om);
+    lvsi_free(ctx, gr->zbuf);
+    lvsi_free(ctx, gr->lo);
+    lvsi_free(ctx, gr->hi);
+  }
+  lvsi_free(ctx, s->grp);
+  lvsi_free(ctx, s->lev);
+  lvsi_free(ctx, s->slot);
   lvsi_free(ctx, s->e0);
-  lvsi_free(ctx, s->e);
-  lvsi_free(ctx, s->done);
-  lvsi_free(ctx, s->split);
-  lvsi_free(ctx, s->group);
-  lvsi_free(ctx, s->mind);
-  lvsi_free(ctx, s->nstates);
+  lvsi_free(ctx, s->perm);
+  lvs_matrix_free(s->U);
   lvsi_free(ctx, s);
 }
 
@@ -262,8 +514,10 @@ static double colnorm1(const lvs_matrix *v) {
     if (v->sparse) {
       for (size_t k = v->cp[j]; k < v->cp[j + 1]; k++)
         sum += v->cplx ? hypot(v->a[2 * k], v->a[2 * k + 1]) : fabs(v->a[k]);
+    } else if (v->cplx) {
+      for (size_t i = 0; i < v->rows; i++) sum += hypot(v->a[2 * (i + j * v->rows)], v->a[2 * (i + j * v->rows) + 1]);
     } else {
-      for (size_t i = 0; i < v->rows; i++) sum += cabs(lvsi_mat_at(v, i, j));
+      for (size_t i = 0; i < v->rows; i++) sum += fabs(v->a[i + j * v->rows]);
     }
     if (sum > best) best = sum;
   }
@@ -281,268 +535,415 @@ static int cmp_ekey(const void *a, const void *b) {
   return (x->i > y->i) - (x->i < y->i);
 }
 
-int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels,
-                   size_t nlevels, double degen_tol, int normalized, lvs_series **out) {
+/* entry (i, j) of a plain matrix as complex */
+static dc plain_at(const lvs_matrix *m, size_t i, size_t j) { return lvsi_mat_at(m, i, j); }
+
+/* Is the plain matrix h diagonal? Then its diagonal goes to diagv. */
+static int plain_diagonal(const lvs_matrix *h, double *diagv) {
+  size_t n = h->rows;
+  if (h->sparse) {
+    for (size_t i = 0; i < n; i++) diagv[i] = 0;
+    for (size_t j = 0; j < n; j++)
+      for (size_t k = h->cp[j]; k < h->cp[j + 1]; k++) {
+        double re = h->a[h->cplx ? 2 * k : k], im = h->cplx ? h->a[2 * k + 1] : 0.0;
+        if (h->ri[k] == j)
+          diagv[j] = re;
+        else if (re != 0 || im != 0)
+          return 0;
+      }
+    return 1;
+  }
+  for (size_t j = 0; j < n; j++) {
+    for (size_t i = 0; i < n; i++)
+      if (i != j && plain_at(h, i, j) != 0) return 0;
+    diagv[j] = creal(plain_at(h, j, j));
+  }
+  return 1;
+}
+
+/* working V for a diagonal H0: V permuted to ascending E (the plain copy's
+ * arrays are borrowed when the order is already ascending) */
+static int wop_permuted(lvs_ctx *ctx, const lvs_matrix *vp, const size_t *perm, wop *w) {
+  size_t n = vp->rows;
+  w->n = n;
+  if (vp->sparse) {
+    int ident = 1;
+    for (size_t i = 0; i < n && ident; i++) ident = perm[i] == i;
+    w->sparse = 1;
+    w->cmin = lvsi_malloc(ctx, (n + 1) * sizeof *w->cmin);
+    w->cmax = lvsi_malloc(ctx, (n + 1) * sizeof *w->cmax);
+    if (!w->cmin || !w->cmax) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    if (ident) {
+      w->borrowed = 1;
+      w->cp = vp->cp;
+      w->ri = vp->ri;
+      if (vp->cplx)
+        w->za = (dc *)vp->a;
+      else
+        w->ra = vp->a;
+      for (size_t j = 0; j < n; j++) {
+        size_t a = SIZE_MAX, b = 0;
+        for (size_t k = vp->cp[j]; k < vp->cp[j + 1]; k++) {
+          if (vp->ri[k] < a) a = vp->ri[k];
+          if (vp->ri[k] > b) b = vp->ri[k];
+        }
+        w->cmin[j] = a;
+        w->cmax[j] = a == SIZE_MAX ? 0 : b;
+      }
+      return LVS_OK;
+    }
+    size_t *inv = lvsi_malloc(ctx, n * sizeof *inv);
+    w->cp = lvsi_malloc(ctx, (n + 1) * sizeof *w->cp);
+    w->ri = lvsi_malloc(ctx, (vp->nnz + 1) * sizeof *w->ri);
+    if (vp->cplx)
+      w->za = lvsi_malloc(ctx, (vp->nnz + 1) * sizeof *w->za);
+    else
+      w->ra = lvsi_malloc(ctx, (vp->nnz + 1) * sizeof *w->ra);
+    if (!inv || !w->cp || !w->ri || !(w->za || w->ra)) {
+      lvsi_free(ctx, inv);
+      return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    }
+    for (size_t i = 0; i < n; i++) inv[perm[i]] = i;
+    size_t q = 0;
+    for (size_t j = 0; j < n; j++) {
+      size_t oj = perm[j], a = SIZE_MAX, b = 0;
+      w->cp[j] = q;
+      for (size_t k = vp->cp[oj]; k < vp->cp[oj + 1]; k++) {
+        size_t r = inv[vp->ri[k]];
+        w->ri[q] = r;
+        if (vp->cplx)
+          w->za[q++] = CMPLX(vp->a[2 * k], vp->a[2 * k + 1]);
+        else
+          w->ra[q++] = vp->a[k];
+        if (r < a) a = r;
+        if (r > b) b = r;
+      }
+      w->cmin[j] = a;
+      w->cmax[j] = a == SIZE_MAX ? 0 : b;
+    }
+    w->cp[n] = q;
+    lvsi_free(ctx, inv);
+    return LVS_OK;
+  }
+  int st = lvsi_dense_ok(ctx, n, n, vp->cplx ? 16 : 8, "perturb (V)");
+  if (st) return st;
+  if (vp->cplx) {
+    w->zd = lvsi_malloc(ctx, n * n * sizeof *w->zd);
+    if (!w->zd) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    for (size_t j = 0; j < n; j++)
+      for (size_t i = 0; i < n; i++) w->zd[i + j * n] = plain_at(vp, perm[i], perm[j]);
+  } else {
+    w->rd = lvsi_malloc(ctx, n * n * sizeof *w->rd);
+    if (!w->rd) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    for (size_t j = 0; j < n; j++)
+      for (size_t i = 0; i < n; i++) w->rd[i + j * n] = vp->a[perm[i] + perm[j] * n];
+  }
+  return LVS_OK;
+}
+
+/* working V for a general H0: U^H V U, formed (two n^3 products) or, when
+ * few columns times few orders are needed, applied as three dense
+ * matrix-vector products per column and order. *vd_keep receives the
+ * dense V the matrix-free form refers to. */
+static int wop_rotated(lvs_ctx *ctx, const lvs_matrix *v, const lvs_matrix *U, size_t applies, wop *w,
+                       lvs_matrix **vd_keep) {
+  size_t n = U->rows;
+  w->n = n;
+  lvs_matrix *vd = NULL;
+  int st = lvsi_dense_ok(ctx, n, n, 16, "perturb (V in the eigenbasis of H0)");
+  if (st) return st;
+  if (!v->sparse && !v->vis) {
+    vd = (lvs_matrix *)v; /* already plain dense: use it as it is */
+  } else if ((st = lvs_matrix_visible(v, 1, &vd))) {
+    return st;
+  }
+  if (applies * 3 < 2 * n) {
+    w->mf = 1;
+    if (!vd->cplx && !U->cplx) {
+      w->ur = U->a;
+      w->vr = vd->a;
+    } else {
+      w->uz = lvsi_malloc(ctx, n * n * sizeof *w->uz);
+      w->vz = lvsi_malloc(ctx, n * n * sizeof *w->vz);
+      if (!w->uz || !w->vz) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+      for (size_t q = 0; q < n * n; q++) {
+        w->vz[q] = vd->cplx ? CMPLX(vd->a[2 * q], vd->a[2 * q + 1]) : vd->a[q];
+        w->uz[q] = U->cplx ? CMPLX(U->a[2 * q], U->a[2 * q + 1]) : U->a[q];
+      }
+    }
+    w->t1 = lvsi_malloc(ctx, n * sizeof *w->t1);
+    w->t2 = lvsi_malloc(ctx, n * sizeof *w->t2);
+    if (!w->t1 || !w->t2) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    if (vd != v) *vd_keep = vd;
+    return LVS_OK;
+  }
+  if (!vd->cplx && !U->cplx) {
+    double *t = lvsi_malloc(ctx, n * n * sizeof *t);
+    w->rd = lvsi_malloc(ctx, n * n * sizeof *w->rd);
+    if (!t || !w->rd) {
+      lvsi_free(ctx, t);
+      if (vd != v) lvs_matrix_free(vd);
+      return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    }
+    cblas_dgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, (int)n, (int)n, (int)n, 1.0, vd->a, (int)n, U->a, (int)n,
+                0.0, t, (int)n);
+    cblas_dgemm(CblasColMajor, CblasTrans, CblasNoTrans, (int)n, (int)n, (int)n, 1.0, U->a, (int)n, t, (int)n, 0.0,
+                w->rd, (int)n);
+    lvsi_free(ctx, t);
+  } else {
+    dc *vz = lvsi_malloc(ctx, n * n * sizeof *vz), *uz = lvsi_malloc(ctx, n * n * sizeof *uz),
+       *t = lvsi_malloc(ctx, n * n * sizeof *t);
+    w->zd = lvsi_malloc(ctx, n * n * sizeof *w->zd);
+    if (!vz || !uz || !t || !w->zd) {
+      lvsi_free(ctx, vz), lvsi_free(ctx, uz), lvsi_free(ctx, t);
+      if (vd != v) lvs_matrix_free(vd);
+      return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    }
+    for (size_t q = 0; q < n * n; q++) {
+      vz[q] = vd->cplx ? CMPLX(vd->a[2 * q], vd->a[2 * q + 1]) : vd->a[q];
+      uz[q] = U->cplx ? CMPLX(U->a[2 * q], U->a[2 * q + 1]) : U->a[q];
+    }
+    dc one = 1.0, zero = 0.0;
+    cblas_zgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, (int)n, (int)n, (int)n, &one, vz, (int)n, uz, (int)n,
+                &zero, t, (int)n);
+    cblas_zgemm(CblasColMajor, CblasConjTrans, CblasNoTrans, (int)n, (int)n, (int)n, &one, uz, (int)n, t, (int)n,
+                &zero, w->zd, (int)n);
+    lvsi_free(ctx, vz), lvsi_free(ctx, uz), lvsi_free(ctx, t);
+  }
+  if (vd != v) lvs_matrix_free(vd);
+  return LVS_OK;
+}
+
+int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels,
+                   double degen_tol, int flags, lvs_series **out) {
   lvs_ctx *ctx = h0->ctx;
   *out = NULL;
-  int st = lvsi_check_hermitian(h0, LVS_DEFAULT_HERM_TOL, "H0");
-  if (st) return st;
   size_t n = lvs_matrix_rows(h0);
+  if (n != lvs_matrix_cols(h0)) return lvsi_fail(ctx, LVS_EDIM, "H0 must be square, got %zux%zu", n, lvs_matrix_cols(h0));
   if (lvs_matrix_rows(v) != n || lvs_matrix_cols(v) != n)
     return lvsi_fail(ctx, LVS_EDIM, "V is %zux%zu but H0 is %zux%zu", lvs_matrix_rows(v), lvs_matrix_cols(v), n, n);
-  if ((st = lvsi_check_hermitian(v, LVS_DEFAULT_HERM_TOL, "V"))) return st;
   if (order < 1 || order > 1000) return lvsi_fail(ctx, LVS_ERANGE, "order must be from 1 to 1000, got %d", order);
   if (!(degen_tol >= 0) || degen_tol > 0.5)
     return lvsi_fail(ctx, LVS_EINVAL, "degen_tol must be from 0 to 0.5, got %g", degen_tol);
   for (size_t i = 0; i < nlevels; i++)
     if (levels[i] >= n) return lvsi_fail(ctx, LVS_ERANGE, "level %zu is out of range 1..%zu", levels[i] + 1, n);
+  /* plain copies (sparse stays sparse); the Hermitian checks on them cost
+   * O(stored entries), not O(n^2) for a padded sparse operator */
+  lvs_matrix *hp = NULL, *vp = NULL, *vkeep = NULL;
+  int st;
+  if (h0->vis)
+    st = lvs_matrix_visible(h0, 0, &hp);
+  else
+    hp = (lvs_matrix *)h0, st = LVS_OK; /* plain already: read it in place */
+  if (st) return st;
+  if (!st) st = lvsi_check_hermitian(hp, LVS_DEFAULT_HERM_TOL, "H0");
+  if (!st) {
+    if (v->vis)
+      st = lvs_matrix_visible(v, 0, &vp);
+    else
+      vp = (lvs_matrix *)v;
+  }
+  if (!st) st = lvsi_check_hermitian(vp, LVS_DEFAULT_HERM_TOL, "V");
+  if (st) {
+    if (hp != h0) lvs_matrix_free(hp);
+    if (vp != v) lvs_matrix_free(vp);
+    return st;
+  }
   int K = order;
+  size_t nk = (size_t)K + 1;
   lvs_series *s = lvsi_calloc(ctx, 1, sizeof *s);
-  if (!s) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  wop w;
+  memset(&w, 0, sizeof w);
+  unsigned char *want = NULL;
+  ekey *raw = NULL;
+  dc *W = NULL, *zz = NULL;
+  double *mu = NULL;
+  int *sp = NULL, *zo = NULL;
+  if (!s) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    goto fail;
+  }
   s->ctx = ctx;
   s->n = n;
   s->K = K;
-  s->normalized = normalized;
-  s->e0 = lvsi_calloc(ctx, n, sizeof *s->e0);
-  s->e = lvsi_calloc(ctx, n * (size_t)(K + 1), sizeof *s->e);
-  s->done = lvsi_calloc(ctx, n, sizeof *s->done);
-  s->split = lvsi_calloc(ctx, n, sizeof *s->split);
-  s->group = lvsi_calloc(ctx, n, sizeof *s->group);
-  s->mind = lvsi_calloc(ctx, n, sizeof *s->mind);
-  s->nstates = lvsi_calloc(ctx, n, sizeof *s->nstates);
-  s->psi = lvsi_calloc(ctx, n, sizeof *s->psi);
-  lvs_matrix *hp = NULL, *vb = NULL, *U = NULL, *tmp = NULL, *uadj = NULL;
-  size_t *perm = NULL, *P = NULL;
-  unsigned char *want = NULL;
-  double complex *xo = NULL, *yo = NULL, *om = NULL, *w = NULL, *zz = NULL, *y = NULL;
-  double *mu = NULL;
-  int *sp = NULL;
-  if (!s->e0 || !s->e || !s->done || !s->split || !s->group || !s->mind || !s->nstates || !s->psi) {
-    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-    goto fail;
-  }
-  perm = lvsi_malloc(ctx, n * sizeof *perm);
+  s->normalized = (flags & LVS_SERIES_NORMALIZED) != 0;
+  s->states = (flags & LVS_SERIES_NO_STATES) == 0;
+  s->e0 = lvsi_malloc(ctx, n * sizeof *s->e0);
+  s->slot = lvsi_malloc(ctx, n * sizeof *s->slot);
+  s->perm = lvsi_malloc(ctx, n * sizeof *s->perm);
   want = lvsi_calloc(ctx, n, 1);
-  xo = lvsi_malloc(ctx, n * sizeof *xo);
-  yo = lvsi_malloc(ctx, n * sizeof *yo);
-  y = lvsi_malloc(ctx, n * sizeof *y);
-  if (!perm || !want || !xo || !yo || !y) {
+  if (!s->e0 || !s->slot || !s->perm || !want) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
     goto fail;
   }
-  /* is H0 diagonal? */
-  if ((st = lvs_matrix_visible(h0, 0, &hp))) goto fail;
-  int diag = 1;
-  if (hp->sparse) {
-    for (size_t j = 0; j < n && diag; j++)
-      for (size_t k = hp->cp[j]; k < hp->cp[j + 1]; k++)
-        if (hp->ri[k] != j && (hp->a[hp->cplx ? 2 * k : k] != 0 || (hp->cplx && hp->a[2 * k + 1] != 0))) diag = 0;
-  } else {
-    for (size_t j = 0; j < n && diag; j++)
-      for (size_t i = 0; i < n; i++)
-        if (i != j && lvsi_mat_at(hp, i, j) != 0) {
-          diag = 0;
-          break;
-        }
-  }
-  double *ediag = s->e0;
-  if (diag) {
-    ekey *raw = lvsi_malloc(ctx, n * sizeof *raw);
+  double *E = s->e0;
+  if (plain_diagonal(hp, E)) {
+    raw = lvsi_malloc(ctx, n * sizeof *raw);
     if (!raw) {
       st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
       goto fail;
     }
-    for (size_t i = 0; i < n; i++) {
-      raw[i].e = creal(lvsi_mat_at(hp, i, i));
-      raw[i].i = i;
-    }
+    for (size_t i = 0; i < n; i++) raw[i].e = E[i], raw[i].i = i;
     qsort(raw, n, sizeof *raw, cmp_ekey);
-    for (size_t i = 0; i < n; i++) {
-      ediag[i] = raw[i].e;
-      perm[i] = raw[i].i;
-    }
+    for (size_t i = 0; i < n; i++) E[i] = raw[i].e, s->perm[i] = raw[i].i;
     lvsi_free(ctx, raw);
-    if ((st = lvs_matrix_visible(v, 0, &vb))) goto fail; /* stays sparse when sparse */
+    raw = NULL;
+    if ((st = wop_permuted(ctx, vp, s->perm, &w))) goto fail;
   } else {
-    if ((st = lvs_eigen(h0, 0, 1, ediag, &U))) goto fail;
-    for (size_t i = 0; i < n; i++) perm[i] = i;
-    if ((st = lvs_matrix_adj(U, &uadj))) goto fail;
-    if ((st = lvs_matrix_mul(v, U, &tmp))) goto fail;
-    lvs_matrix *vr = NULL;
-    if ((st = lvs_matrix_mul(uadj, tmp, &vr))) goto fail;
-    st = lvs_matrix_visible(vr, 1, &vb);
-    lvs_matrix_free(vr);
-    if (st) goto fail;
+    for (size_t i = 0; i < n; i++) s->perm[i] = i;
+    if ((st = lvs_eigen(hp, 0, 1, E, &s->U))) goto fail;
+    /* columns to apply V to: the wanted levels' groups, counted loosely
+     * (a group is found only after the eigenvalues are known) */
+    size_t applies = (nlevels ? nlevels : n) * (size_t)K;
+    if ((st = wop_rotated(ctx, vp, s->U, applies, &w, &vkeep))) goto fail;
   }
-  {
-    lvs_matrix *vp = NULL;
-    if ((st = lvs_matrix_visible(v, 0, &vp))) goto fail;
-    s->vnorm = colnorm1(vp);
-    lvs_matrix_free(vp);
-  }
-  vapply va = {vb, perm, n, xo, yo};
+  s->vnorm = colnorm1(vp);
   if (nlevels == 0)
     memset(want, 1, n);
   else
     for (size_t i = 0; i < nlevels; i++) want[levels[i]] = 1;
-  /* groups */
-  double emin = ediag[0], emax = ediag[n - 1], big = 0;
-  for (size_t i = 0; i < n; i++) big = fmax(big, fabs(ediag[i]));
-  double gtol = degen_tol * fmax(emax - emin, big);
-  size_t g0 = 0, gid = 0;
-  while (g0 < n) {
+  /* groups: count what is needed first */
+  double big = 0;
+  for (size_t i = 0; i < n; i++) big = fmax(big, fabs(E[i]));
+  double gtol = degen_tol * fmax(E[n - 1] - E[0], big);
+  size_t ngneed = 0, nlneed = 0;
+  for (size_t g0 = 0; g0 < n;) {
     size_t g1 = g0 + 1;
-    while (g1 < n && ediag[g1] - ediag[g1 - 1] <= gtol) g1++;
-    size_t d = g1 - g0;
+    while (g1 < n && E[g1] - E[g1 - 1] <= gtol) g1++;
     int need = 0;
-    for (size_t i = g0; i < g1; i++) {
-      s->group[i] = gid;
-      need |= want[i];
-    }
+    for (size_t i = g0; i < g1; i++) need |= want[i];
+    if (need) ngneed++, nlneed += g1 - g0;
+    g0 = g1;
+  }
+  s->grp = lvsi_calloc(ctx, ngneed, sizeof *s->grp);
+  s->lev = lvsi_calloc(ctx, nlneed, sizeof *s->lev);
+  if (!s->grp || !s->lev) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    goto fail;
+  }
+  for (size_t i = 0; i < n; i++) s->slot[i] = -1;
+  size_t gid = 0;
+  for (size_t g0 = 0; g0 < n; gid++) {
+    size_t g1 = g0 + 1;
+    while (g1 < n && E[g1] - E[g1 - 1] <= gtol) g1++;
+    size_t d = g1 - g0, dd = d * d;
+    int need = 0;
+    for (size_t i = g0; i < g1; i++) need |= want[i];
     if (!need) {
       g0 = g1;
-      gid++;
       continue;
     }
+    sgroup *g = &s->grp[s->ngrp++];
+    g->g0 = g0;
+    g->d = d;
     double ep = 0;
-    for (size_t i = g0; i < g1; i++) ep += ediag[i] / (double)d;
-    P = lvsi_malloc(ctx, d * sizeof *P);
-    om = lvsi_malloc(ctx, (size_t)(K + 1) * n * d * sizeof *om);
-    w = lvsi_malloc(ctx, (size_t)(K + 1) * d * d * sizeof *w);
-    if (!P || !om || !w) {
+    for (size_t i = g0; i < g1; i++) ep += E[i] / (double)d;
+    g->ep = ep;
+    g->nom = d == 1 && s->states ? K : K - 1;
+    g->om = lvsi_calloc(ctx, nk, sizeof *g->om);
+    g->lo = lvsi_calloc(ctx, nk, sizeof *g->lo);
+    g->hi = lvsi_calloc(ctx, nk, sizeof *g->hi);
+    W = lvsi_calloc(ctx, (size_t)K * dd, sizeof *W);
+    if (!g->om || !g->lo || !g->hi || !W) {
       st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
       goto fail;
     }
-    for (size_t a = 0; a < d; a++) P[a] = g0 + a;
+    if ((st = bloch_group(ctx, &w, E, g, K, W))) goto fail;
+    /* nearest level outside the group (E is sorted) */
     double md = INFINITY;
-    if ((st = bloch_big(ctx, &va, ediag, ep, P, d, K, om, w, &md))) goto fail;
-    if (d == 1) {
-      double *e = s->e + g0 * (size_t)(K + 1);
-      e[0] = ep;
-      for (int k = 1; k <= K; k++) e[k] = creal(w[k]);
-      s->split[g0] = 0;
-      s->mind[g0] = md;
-      s->done[g0] = 1;
-      /* states: psi(k) = Omega(k) e_n, optionally normalized */
-      double complex *ps = lvsi_malloc(ctx, (size_t)(K + 1) * n * sizeof *ps);
-      if (!ps) {
-        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (states)");
+    if (g0 > 0) md = fabs(ep - E[g0 - 1]);
+    if (g1 < n) md = fmin(md, fabs(E[g1] - ep));
+    for (size_t i = g0; i < g1; i++) {
+      slevel *L = &s->lev[s->nlev];
+      s->slot[i] = (int)s->nlev++;
+      L->group = gid;
+      L->gi = s->ngrp - 1;
+      L->mind = md;
+      L->e = lvsi_malloc(ctx, nk * sizeof *L->e);
+      if (!L->e) {
+        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
         goto fail;
       }
-      if (normalized) {
-        double complex *sk = lvsi_calloc(ctx, (size_t)K + 1, sizeof *sk), *ck = lvsi_calloc(ctx, (size_t)K + 1, sizeof *ck);
-        if (!sk || !ck) {
-          lvsi_free(ctx, sk);
-          lvsi_free(ctx, ck);
-          lvsi_free(ctx, ps);
-          st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (states)");
-          goto fail;
-        }
-        for (int k = 1; k <= K; k++)
-          for (int j = 1; j < k; j++) {
-            const double complex *a = om + (size_t)j * n, *b = om + (size_t)(k - j) * n;
-            for (size_t q = 0; q < n; q++) sk[k] += conj(a[q]) * b[q];
-          }
-        ck[0] = 1;
-        for (int k = 1; k <= K; k++) {
-          double complex acc = 0;
-          for (int j = 1; j <= k; j++) acc += ((double)j / 2.0 - (double)k) * sk[j] * ck[k - j];
-          ck[k] = acc / (double)k;
-        }
-        for (int k = 0; k <= K; k++)
-          for (size_t q = 0; q < n; q++) {
-            double complex acc = 0;
-            for (int j = 0; j <= k; j++) acc += ck[j] * om[(size_t)(k - j) * n + q];
-            ps[(size_t)k * n + q] = acc;
-          }
-        lvsi_free(ctx, sk);
-        lvsi_free(ctx, ck);
-      } else {
-        memcpy(ps, om, (size_t)(K + 1) * n * sizeof *ps);
-      }
-      /* back to the original basis */
-      for (int k = 0; k <= K && !st; k++) {
-        double complex *pk = ps + (size_t)k * n;
-        if (U) {
-          memcpy(xo, pk, n * sizeof *xo);
-          st = lvs_matrix_apply(U, 1, (const double *)xo, (double *)pk);
-        } else {
-          for (size_t q = 0; q < n; q++) xo[perm[q]] = pk[q];
-          memcpy(pk, xo, n * sizeof *pk);
-        }
-      }
-      s->psi[g0] = ps;
-      s->nstates[g0] = K + 1;
-      if (st) goto fail;
-    } else {
-      mu = lvsi_malloc(ctx, d * (size_t)K * sizeof *mu);
-      zz = lvsi_malloc(ctx, d * d * sizeof *zz);
+      L->e[0] = ep;
+    }
+    if (d == 1) {
+      slevel *L = &s->lev[s->slot[g0]];
+      for (int k = 1; k <= K; k++) L->e[k] = creal(W[k - 1]);
+      L->split = 0;
+      L->zord = s->states ? K : -1;
+    } else if (!s->states) {
+      size_t kp = (size_t)K;
+      mu = lvsi_malloc(ctx, d * kp * sizeof *mu);
       sp = lvsi_malloc(ctx, d * sizeof *sp);
-      if (!mu || !zz || !sp) {
+      zo = lvsi_malloc(ctx, d * sizeof *zo);
+      if (!mu || !sp || !zo) {
         st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
         goto fail;
       }
       double stol = degen_tol > 0 ? degen_tol : 1e-10;
-      if ((st = eigseries(ctx, d, K - 1, w + d * d, stol, 1, mu, zz, sp))) goto fail;
+      if ((st = eigseries(ctx, d, K - 1, W, stol, 1, mu, NULL, sp, zo))) goto fail;
       for (size_t i = 0; i < d; i++) {
-        size_t lev = g0 + i;
-        double *e = s->e + lev * (size_t)(K + 1);
-        e[0] = ep;
-        for (int k = 1; k <= K; k++) e[k] = mu[i * (size_t)K + (size_t)(k - 1)];
-        s->split[lev] = sp[i];
-        s->mind[lev] = md;
-        s->done[lev] = 1;
-        double complex *ps = lvsi_calloc(ctx, n, sizeof *ps);
-        if (!ps) {
-          st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (states)");
-          goto fail;
-        }
-        for (size_t a = 0; a < d; a++) y[a] = zz[i * d + a];
-        memset(xo, 0, n * sizeof *xo);
-        for (size_t a = 0; a < d; a++) xo[P[a]] = y[a];
-        if (U) {
-          st = lvs_matrix_apply(U, 1, (const double *)xo, (double *)ps);
-        } else {
-          for (size_t q = 0; q < n; q++) ps[perm[q]] = xo[q];
-        }
-        s->psi[lev] = ps;
-        s->nstates[lev] = 1;
-        if (st) goto fail;
+        slevel *L = &s->lev[s->slot[g0 + i]];
+        for (int k = 1; k <= K; k++) L->e[k] = mu[i * kp + (size_t)(k - 1)];
+        L->split = sp[i];
+        L->zord = -1;
       }
-      lvsi_free(ctx, mu);
-      lvsi_free(ctx, zz);
-      lvsi_free(ctx, sp);
-      mu = NULL;
-      zz = NULL;
-      sp = NULL;
+      lvsi_free(ctx, mu), lvsi_free(ctx, sp), lvsi_free(ctx, zo);
+      mu = NULL, sp = NULL, zo = NULL;
     }
-    lvsi_free(ctx, P);
-    lvsi_free(ctx, om);
-    lvsi_free(ctx, w);
-    P = NULL;
-    om = NULL;
-    w = NULL;
+    if (!s->states) { /* Omega served the energies only */
+      for (int k = 1; k <= g->nom; k++) {
+        lvsi_free(ctx, g->om[k]);
+        g->om[k] = NULL;
+      }
+    } else if (d == 1) {
+      slevel *L = &s->lev[s->slot[g0]];
+      g->zbuf = lvsi_calloc(ctx, nk, sizeof(dc));
+      if (!g->zbuf) {
+        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+        goto fail;
+      }
+      g->zbuf[0] = 1.0;
+      L->z = g->zbuf;
+    } else {
+      size_t kp = (size_t)K;
+      mu = lvsi_malloc(ctx, d * kp * sizeof *mu);
+      zz = g->zbuf = lvsi_calloc(ctx, d * kp * d, sizeof *zz);
+      sp = lvsi_malloc(ctx, d * sizeof *sp);
+      zo = lvsi_malloc(ctx, d * sizeof *zo);
+      if (!mu || !zz || !sp || !zo) {
+        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+        goto fail;
+      }
+      double stol = degen_tol > 0 ? degen_tol : 1e-10;
+      if ((st = eigseries(ctx, d, K - 1, W, stol, 1, mu, zz, sp, zo))) goto fail;
+      for (size_t i = 0; i < d; i++) {
+        slevel *L = &s->lev[s->slot[g0 + i]];
+        for (int k = 1; k <= K; k++) L->e[k] = mu[i * kp + (size_t)(k - 1)];
+        L->split = sp[i];
+        L->zord = zo[i];
+        L->z = zz + i * kp * d;
+      }
+      zz = NULL; /* owned by the group */
+      lvsi_free(ctx, mu), lvsi_free(ctx, sp), lvsi_free(ctx, zo);
+      mu = NULL, zz = NULL, sp = NULL, zo = NULL;
+    }
+    lvsi_free(ctx, W);
+    W = NULL;
     g0 = g1;
-    gid++;
   }
   st = LVS_OK;
 fail:
-  lvs_matrix_free(hp);
-  lvs_matrix_free(vb);
-  lvs_matrix_free(U);
-  lvs_matrix_free(tmp);
-  lvs_matrix_free(uadj);
-  lvsi_free(ctx, perm);
+  wop_free(ctx, &w);
+  lvs_matrix_free(vkeep);
+  if (hp != h0) lvs_matrix_free(hp);
+  if (vp != v) lvs_matrix_free(vp);
   lvsi_free(ctx, want);
-  lvsi_free(ctx, xo);
-  lvsi_free(ctx, yo);
-  lvsi_free(ctx, y);
-  lvsi_free(ctx, P);
-  lvsi_free(ctx, om);
-  lvsi_free(ctx, w);
+  lvsi_free(ctx, raw);
+  lvsi_free(ctx, W);
   lvsi_free(ctx, mu);
-  lvsi_free(ctx, zz);
   lvsi_free(ctx, sp);
+  lvsi_free(ctx, zo);
   if (st) {
     lvs_series_free(s);
     return st;
@@ -558,25 +959,26 @@ double lvs_series_vnorm(const lvs_series *s) { return s->vnorm; }
 static int lev_ok(const lvs_series *s, size_t level) {
   if (level >= s->n)
     return lvsi_fail(s->ctx, LVS_ERANGE, "level %zu is out of range 1..%zu", level + 1, s->n);
-  if (!s->done[level])
+  if (s->slot[level] < 0)
     return lvsi_fail(s->ctx, LVS_ERANGE, "level %zu was not computed (not in 'levels')", level + 1);
   return LVS_OK;
 }
+#define LEV(s, level) (&(s)->lev[(s)->slot[level]])
 
-int lvs_series_has(const lvs_series *s, size_t level) { return level < s->n && s->done[level]; }
+int lvs_series_has(const lvs_series *s, size_t level) { return level < s->n && s->slot[level] >= 0; }
 
 int lvs_series_energy(const lvs_series *s, size_t level, int k, double *e) {
   int st = lev_ok(s, level);
   if (st) return st;
   if (k < 0 || k > s->K) return lvsi_fail(s->ctx, LVS_ERANGE, "order %d is out of range 0..%d", k, s->K);
-  *e = s->e[level * (size_t)(s->K + 1) + (size_t)k];
+  *e = LEV(s, level)->e[k];
   return LVS_OK;
 }
 
 int lvs_series_at(const lvs_series *s, size_t level, double lambda, double *e) {
   int st = lev_ok(s, level);
   if (st) return st;
-  const double *c = s->e + level * (size_t)(s->K + 1);
+  const double *c = LEV(s, level)->e;
   double acc = 0;
   for (int k = s->K; k >= 0; k--) acc = acc * lambda + c[k];
   *e = acc;
@@ -587,21 +989,89 @@ int lvs_series_info(const lvs_series *s, size_t level, size_t *group, int *split
                     int *state_orders) {
   int st = lev_ok(s, level);
   if (st) return st;
-  if (group) *group = s->group[level];
-  if (split_order) *split_order = s->split[level];
-  if (min_denominator) *min_denominator = s->mind[level];
-  if (state_orders) *state_orders = s->nstates[level] - 1;
+  const slevel *L = LEV(s, level);
+  if (group) *group = L->group;
+  if (split_order) *split_order = L->split;
+  if (min_denominator) *min_denominator = L->mind;
+  if (state_orders) *state_orders = L->zord;
   return LVS_OK;
 }
 
+/* psi(k) = sum_j Omega(k-j) z_j, then intermediate normalization by series
+ * division with c(lambda) = <z_0|psi(lambda)>, then (optionally) the
+ * normalized state phi(k) = sum_j c_j psi(k-j), c = (1 + s)^(-1/2),
+ * s_k = sum_j <psi(j)|psi(k-j)> (series power rule, Knuth, TAOCP vol. 2,
+ * sec. 4.7). Cost O(k^2 dim d). */
 int lvs_series_state(const lvs_series *s, size_t level, int k, double *psi) {
   int st = lev_ok(s, level);
   if (st) return st;
-  if (k < 0 || k > s->K) return lvsi_fail(s->ctx, LVS_ERANGE, "order %d is out of range 0..%d", k, s->K);
-  if (k >= s->nstates[level])
-    return lvsi_fail(s->ctx, LVS_ERANGE,
-                     "state corrections of level %zu (member of a degenerate group) are available at order 0 only",
-                     level + 1);
-  memcpy(psi, s->psi[level] + (size_t)k * s->n, s->n * sizeof(double complex));
-  return LVS_OK;
+  lvs_ctx *ctx = s->ctx;
+  const slevel *L = LEV(s, level);
+  if (k < 0 || k > s->K) return lvsi_fail(ctx, LVS_ERANGE, "order %d is out of range 0..%d", k, s->K);
+  if (!s->states) return lvsi_fail(ctx, LVS_ERANGE, "no state corrections were kept (states = false)");
+  if (k > L->zord)
+    return lvsi_fail(ctx, LVS_ERANGE,
+                     "state corrections of level %zu (split from its degenerate group at order %d) are available "
+                     "to order %d only",
+                     level + 1, L->split, L->zord);
+  const sgroup *g = &s->grp[L->gi];
+  size_t n = s->n, d = g->d, nk = (size_t)k + 1;
+  const dc *z = L->z;
+  dc *q = lvsi_calloc(ctx, nk * n, sizeof *q), *c = lvsi_calloc(ctx, nk, sizeof *c);
+  dc *x = lvsi_calloc(ctx, n, sizeof *x);
+  double *sk = lvsi_calloc(ctx, nk, sizeof *sk), *ck = lvsi_calloc(ctx, nk, sizeof *ck);
+  if (!q || !c || !x || !sk || !ck) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "state: out of memory");
+    goto done;
+  }
+  for (int j = 0; j <= k; j++) {
+    dc *qj = q + (size_t)j * n;
+    for (size_t b = 0; b < d; b++) qj[g->g0 + b] += z[(size_t)j * d + b]; /* Omega(0) z_j */
+    for (int i = 0; i < j; i++) {
+      const dc *zi = z + (size_t)i * d, *om = g->om[j - i];
+      size_t lo = g->lo[j - i], on = g->hi[j - i] - lo;
+      for (size_t b = 0; b < d; b++) {
+        dc p = zi[b];
+        if (p == 0) continue;
+        for (size_t r = 0; r < on; r++) qj[lo + r] += om[r + b * on] * p;
+      }
+    }
+    dc cj = 0;
+    for (size_t b = 0; b < d; b++) cj += conj(z[b]) * qj[g->g0 + b];
+    c[j] = cj;
+    for (int i = 1; i <= j; i++) {
+      const dc *qp = q + (size_t)(j - i) * n;
+      for (size_t r = 0; r < n; r++) qj[r] -= c[i] * qp[r];
+    }
+  }
+  const dc *res = q + (size_t)k * n;
+  if (s->normalized) {
+    for (int j = 1; j <= k; j++) {
+      double acc = 0;
+      for (int i = 0; i <= j; i++) {
+        const dc *a = q + (size_t)i * n, *b = q + (size_t)(j - i) * n;
+        for (size_t r = 0; r < n; r++) acc += creal(conj(a[r]) * b[r]);
+      }
+      sk[j] = acc;
+    }
+    ck[0] = 1;
+    for (int j = 1; j <= k; j++) {
+      double acc = 0;
+      for (int i = 1; i <= j; i++) acc += ((double)i / 2.0 - (double)j) * sk[i] * ck[j - i];
+      ck[j] = acc / (double)j;
+    }
+    for (int j = 0; j <= k; j++)
+      for (size_t r = 0; r < n; r++) x[r] += ck[j] * q[(size_t)(k - j) * n + r];
+    res = x;
+  }
+  dc *outv = (dc *)psi;
+  if (s->U) {
+    if (res != x) memcpy(x, res, n * sizeof *x);
+    st = lvs_matrix_apply(s->U, 1, (const double *)x, psi);
+  } else {
+    for (size_t r = 0; r < n; r++) outv[s->perm[r]] = res[r];
+  }
+done:
+  lvsi_free(ctx, q), lvsi_free(ctx, c), lvsi_free(ctx, x), lvsi_free(ctx, sk), lvsi_free(ctx, ck);
+  return st;
 }
