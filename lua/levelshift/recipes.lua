@@ -335,7 +335,11 @@ function M.help(name)
 end
 
 -- the printed report of `levelshift NAME name=value ...`
-local function report(m, show_levels, show_order)
+-- above this many states the report skips the dense exact diagonalization
+-- unless show_exact=true (the series itself stays cheap)
+local EXACT_LIMIT = 2048
+
+local function report(m, show_levels, show_order, show_exact)
   local ls = get_ls()
   local w = io.write
   w(string.format("recipe %s: %s\n", m.name, m.about or ""))
@@ -346,23 +350,25 @@ local function report(m, show_levels, show_order)
   end
   local n = m.H0:dim()
   local count = math.min(show_levels, n)
+  if show_exact == nil then show_exact = n <= EXACT_LIMIT end
   w(string.format("H = H0 + V on %d states%s\n", n, m.units and (", energies in " .. m.units) or ""))
-  local H = m.H0 + m.V
-  local E = ls.eigen(H, { vectors = false })
+  local E
+  if show_exact then E = ls.eigen(m.H0 + m.V, { count = count, vectors = false }) end
+  local levels = {}
+  for i = 1, count do levels[i] = i end
   local s, serr = nil, nil
-  local ok, res = pcall(ls.perturb, m.H0, m.V, { order = show_order, levels = (function()
-    local t = {}
-    for i = 1, count do t[i] = i end
-    return t
-  end)() })
+  local ok, res = pcall(ls.perturb, m.H0, m.V, { order = show_order, levels = levels })
   if ok then s = res else serr = clean(res) end
+  local E0
+  if not s then E0 = ls.eigen(m.H0, { count = count, vectors = false }) end
   local head = string.format("%5s  %16s", "level", "E0")
   for k = 1, show_order do head = head .. string.format("  %14s", "E" .. k) end
-  head = head .. string.format("  %16s  %16s", "sum to order " .. show_order, "exact (H0+V)")
+  head = head .. string.format("  %16s", "sum to order " .. show_order)
+  if E then head = head .. string.format("  %16s", "exact (H0+V)") end
   w(head .. "\n")
-  local E0 = ls.eigen(m.H0, { vectors = false })
   for i = 1, count do
-    local line = string.format("%5d  %16.10g", i, E0[i] + 0.0) -- + 0.0 turns -0 into 0
+    local e0 = s and s:energy(i, 0) or E0[i]
+    local line = string.format("%5d  %16.10g", i, e0 + 0.0) -- + 0.0 turns -0 into 0
     local sum = 0
     if s then
       for k = 0, show_order do
@@ -370,22 +376,30 @@ local function report(m, show_levels, show_order)
         sum = sum + e
         if k > 0 then line = line .. string.format("  %14.7g", e + 0.0) end
       end
-      line = line .. string.format("  %16.10g", sum)
+      line = line .. string.format("  %16.10g", sum + 0.0)
     else
       for _ = 1, show_order do line = line .. string.format("  %14s", "-") end
       line = line .. string.format("  %16s", "-")
     end
-    line = line .. string.format("  %16.10g", E[i])
+    if E then line = line .. string.format("  %16.10g", E[i] + 0.0) end
     w(line .. "\n")
   end
   if serr then w("perturbation series not available: " .. serr .. "\n") end
-  w("levels numbered by ascending E0 (series) and by ascending exact energy (last column)\n")
+  if E then
+    w("levels numbered by ascending E0 (series) and by ascending exact energy (last column)\n")
+  elseif n > EXACT_LIMIT then
+    w(string.format("levels numbered by ascending E0; exact levels skipped above %d states (show_exact=true forces them)\n",
+      EXACT_LIMIT))
+  else
+    w("levels numbered by ascending E0; exact levels skipped (show_exact=false)\n")
+  end
 end
 
 --- recipes.run(name, params): what `levelshift NAME k=v ...` and
 -- `levelshift --recipes` do (name "" lists the recipes). Besides the recipe's
--- own parameters it takes show_levels (default 6), show_order (default 2)
--- and help=true (print the recipe's documentation instead).
+-- own parameters it takes show_levels (default 6), show_order (default 2),
+-- show_exact (default: only up to 2048 states) and help=true (print the
+-- recipe's documentation instead).
 function M.run(name, params)
   params = params or {}
   if name == nil or name == "" then
@@ -400,7 +414,7 @@ function M.run(name, params)
     end
     return
   end
-  local p, opts = {}, { show_levels = 6, show_order = 2, help = false }
+  local p, opts = {}, { show_levels = 6, show_order = 2, help = false, show_exact = "auto" }
   for k, v in pairs(params) do
     if opts[k] ~= nil then opts[k] = v else p[k] = v end
   end
@@ -416,7 +430,12 @@ function M.run(name, params)
   end
   local ok, m = pcall(M.recipe, name, p)
   if not ok then error(clean(m), 0) end
-  report(m, opts.show_levels, opts.show_order)
+  local se = opts.show_exact
+  if se ~= "auto" and type(se) ~= "boolean" then
+    error("recipe run: show_exact must be true or false (got " .. tostring(se) .. ")", 0)
+  end
+  if se == "auto" then se = nil end
+  report(m, opts.show_levels, opts.show_order, se)
   return m
 end
 
