@@ -348,3 +348,27 @@ describe("recipe parameters", function()
     bad("spin_chain", { boundary = "ring" }, "parameter 'boundary' must be one of open, periodic (got ring)")
   end)
 end)
+
+describe("recipes under hostile parameters", function()
+  it("either build a model or raise a string error naming the recipe", function()
+    -- common practice for a binding: no input crashes, every error is a clear string
+    local mine = { "linear_force", "anharmonic", "coupled_modes", "zeeman", "hyperfine", "spin_defect",
+      "exchange_pair", "spin_chain", "qubit_mode" }
+    local vals = { 0, -1, 0.3, 2.5, 0 / 0, math.huge, -math.huge, 1e18, -1e18, "x", "GHz", {}, true, 7 }
+    math.randomseed(20261202)
+    local bad = {}
+    for _, name in ipairs(mine) do
+      local def = ls.recipes.info(name)
+      for _, pd in ipairs(def.params) do
+        for _, v in ipairs(vals) do
+          local ok, err = pcall(ls.recipe, name, { [pd.name] = v })
+          if not ok and (type(err) ~= "string" or not err:find("recipe '" .. name .. "'", 1, true)) then
+            bad[#bad + 1] = name .. "." .. pd.name .. "=" .. tostring(v) .. ": " .. tostring(err)
+          end
+          if ok then assert.is_truthy(err.H0 and err.V and err.basis) end
+        end
+      end
+    end
+    assert.are.same({}, bad)
+  end)
+end)
