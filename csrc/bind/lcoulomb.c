@@ -1,7 +1,8 @@
 /* lcoulomb.c -- binding of the Coulomb-Sturmian hydrogen basis:
  *   ls.coulomb_basis{lmax=, nmax=, kappa=, m=, Z=} -> levelshift.basis
  * (kind "custom", labels n, l, m; operators B.H0, B.z, B.r, B.r2, B.L2,
- * B.Lz). See csrc/core/hydrogen.c for the functions and formulas. */
+ * B.Lz, and B.x, B.y with every m). See csrc/core/hydrogen.c for the
+ * functions and formulas. */
 #include <math.h>
 #include <string.h>
 #include "bind/lbind.h"

@@ -146,13 +146,22 @@ static void trip_free(lvs_ctx *ctx, trip *t) {
 }
 
 /* Attach the operator in t to b under name. */
-static int attach(lvs_basis *b, lvs_ctx *ctx, size_t dim, trip *t, const char *name) {
+static int attach_as(lvs_basis *b, lvs_ctx *ctx, size_t dim, trip *t, const char *name, int imag) {
   lvs_matrix *op = NULL;
-  int st = lvs_matrix_from_triplets(ctx, dim, dim, t->n, t->i, t->j, t->v, NULL, &op);
+  double *zero = NULL;
+  int st = LVS_OK;
+  if (imag && !(zero = lvsi_calloc(ctx, t->n ? t->n : 1, sizeof(double))))
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory building hydrogen operators");
+  if (!st)
+    st = lvs_matrix_from_triplets(ctx, dim, dim, t->n, t->i, t->j, imag ? zero : t->v, imag ? t->v : NULL, &op);
   if (!st) st = lvs_basis_custom_op(b, name, op);
   lvs_matrix_free(op);
+  lvsi_free(ctx, zero);
   trip_free(ctx, t);
   return st;
+}
+static int attach(lvs_basis *b, lvs_ctx *ctx, size_t dim, trip *t, const char *name) {
+  return attach_as(b, ctx, dim, t, name, 0);
 }
 
 int lvs_coulomb_basis(lvs_ctx *ctx, const lvs_coulomb_spec *spec, lvs_basis **out) {
@@ -328,6 +337,31 @@ int lvs_coulomb_basis(lvs_ctx *ctx, const lvs_coulomb_spec *spec, lvs_basis **ou
     }
   }
   if (st || (st = attach(b, ctx, dim, &t, "z"))) goto done;
+  /* x and y (every m present): r sin(theta) e^(+-i phi) takes (l, m) to
+   * (l+1, m+-1) with (Condon-Shortley phases; source: Y_lm recurrences,
+   * e.g. Bethe & Salpeter 1957, appendix, common practice)
+   *   <l+1, m+1|sin(theta) e^(i phi)|l, m>  = -sqrt((l+m+1)(l+m+2)/((2l+1)(2l+3)))
+   *   <l+1, m-1|sin(theta) e^(-i phi)|l, m> = +sqrt((l-m+1)(l-m+2)/((2l+1)(2l+3)))
+   * x = (S+ + S-)/2, y = (S+ - S-)/(2i); checked by rotational invariance
+   * (H0 + F x and H0 + F z have the same spectrum) in the C test. */
+  for (int pass = 0; pass < 2 && all_m; pass++) {
+    for (int l = lmin; l < lmax && !st; l++)
+      for (int m = -l; m <= l && !st; m++)
+        for (int sg = -1; sg <= 1 && !st; sg += 2) {
+          double ap = sg > 0 ? -sqrt(((double)l + m + 1.0) * (l + m + 2.0) / ((2.0 * l + 1.0) * (2.0 * l + 3.0)))
+                             : sqrt(((double)l - m + 1.0) * (l - m + 2.0) / ((2.0 * l + 1.0) * (2.0 * l + 3.0)));
+          for (size_t j = 0; j < N && !st; j++)
+            for (size_t i = 0; i < N && !st; i++) {
+              double v = 0.5 * ap * D[(size_t)l * N * N + i + j * N];
+              size_t a = rank[BLOCK(l, m) + i], c2 = rank[BLOCK(l + 1, m + sg) + j];
+              /* x: v both ways; y: (c2, a) = -i sg v, (a, c2) = +i sg v */
+              double up = pass == 0 ? v : -sg * v, dn = pass == 0 ? v : sg * v;
+              st = trip_add(ctx, &t, c2, a, up);
+              if (!st) st = trip_add(ctx, &t, a, c2, dn);
+            }
+        }
+    if (st || (st = attach_as(b, ctx, dim, &t, pass == 0 ? "x" : "y", pass))) goto done;
+  }
 #undef BLOCK
   *out = b;
   b = NULL;

@@ -98,8 +98,8 @@ int main(void) {
   CHECK(at(z, find(b, 2, 0, 0), pm) == 0.0, "z keeps m");
   lvs_matrix_free(z);
   lvs_matrix_free(Lz);
-  CHECK(lvs_basis_op(b, 0, "y", &z) == LVS_EINVAL && z == NULL, "unknown op");
-  CHECK(strstr(lvs_errmsg(ctx), "no operator 'y'") != NULL, "msg: %s", lvs_errmsg(ctx));
+  CHECK(lvs_basis_op(b, 0, "w", &z) == LVS_EINVAL && z == NULL, "unknown op");
+  CHECK(strstr(lvs_errmsg(ctx), "no operator 'w'") != NULL, "msg: %s", lvs_errmsg(ctx));
   /* a product with a custom factor embeds its operators per site */
   lvs_basis *sp2, *prod;
   lvs_basis_spin(ctx, 1, &sp2);
@@ -110,6 +110,60 @@ int main(void) {
   lvs_matrix_free(H0);
   lvs_basis_free(prod);
   lvs_basis_free(sp2);
+  lvs_basis_free(b);
+
+  /* x, y with every m: rotational invariance, H0 + F x, H0 + F y and
+   * H0 + F z have one spectrum (source: common practice, the space is
+   * closed under rotations); [Lz, x] = i y (common practice) */
+  sp.all_m = 1;
+  sp.lmax = 3;
+  sp.nfun = 5;
+  CHECK(lvs_coulomb_basis(ctx, &sp, &b) == LVS_OK, "x/y basis: %s", lvs_errmsg(ctx));
+  {
+    lvs_matrix *h0, *ops[3], *hs[3];
+    const char *nm3[3] = {"x", "y", "z"};
+    size_t n = lvs_basis_dim(b);
+    double one[2] = {1, 0}, f[2] = {0.0137, 0};
+    lvs_basis_op(b, 0, "H0", &h0);
+    double ev[3][80];
+    for (int k = 0; k < 3; k++) {
+      CHECK(lvs_basis_op(b, 0, nm3[k], &ops[k]) == LVS_OK, "op %s", nm3[k]);
+      lvs_matrix_add(one, h0, f, ops[k], &hs[k]);
+      CHECK(lvs_eigen(hs[k], 0, 0, ev[k], NULL) == LVS_OK, "eigen %s: %s", nm3[k], lvs_errmsg(ctx));
+    }
+    CHECK(n == 80, "dim %zu", n);
+    double worst = 0;
+    for (size_t i = 0; i < n; i++)
+      for (int k = 0; k < 2; k++) worst = fmax(worst, fabs(ev[k][i] - ev[2][i]));
+    CHECK(worst < 1e-12, "spectra of H0 + F x, y, z differ by %.3g", worst);
+    CHECK(lvs_matrix_is_complex(ops[1]) && !lvs_matrix_is_complex(ops[0]), "y complex, x real");
+    lvs_matrix *lz;
+    lvs_basis_op(b, 0, "Lz", &lz);
+    double cw = 0;
+    for (size_t i = 0; i < n; i++)
+      for (size_t j = 0; j < n; j++) {
+        double xr, xi, yr, yi;
+        lvs_matrix_get(ops[0], i, j, &xr, &xi);
+        lvs_matrix_get(ops[1], i, j, &yr, &yi);
+        double dm = at(lz, i, i) - at(lz, j, j); /* [Lz, x]_ij = dm x_ij = i y_ij */
+        cw = fmax(cw, fabs(dm * xr + yi) + fabs(dm * xi - yr));
+      }
+    CHECK(cw < 1e-14, "[Lz, x] - i y = %.3g", cw);
+    /* the angular factor: <2p, m=1|x|1s> = -<1s|r|2p>/sqrt(6) (Condon-Shortley) */
+    size_t s1b = find(b, 1, 0, 0), p1 = find(b, 2, 1, 1);
+    CHECK(fabs(at(ops[0], p1, s1b) + at(ops[2], find(b, 2, 1, 0), s1b) / sqrt(2.0)) < 1e-12,
+          "<2p1|x|1s> = -<2p0|z|1s>/sqrt2: %.15g", at(ops[0], p1, s1b));
+    for (int k = 0; k < 3; k++) {
+      lvs_matrix_free(ops[k]);
+      lvs_matrix_free(hs[k]);
+    }
+    lvs_matrix_free(h0);
+    lvs_matrix_free(lz);
+  }
+  lvs_basis_free(b);
+  sp.all_m = 0;
+  CHECK(lvs_coulomb_basis(ctx, &sp, &b) == LVS_OK, "fixed m");
+  CHECK(lvs_basis_op(b, 0, "x", &z) == LVS_EINVAL, "no x with one m");
   lvs_basis_free(b);
 
   /* errors */

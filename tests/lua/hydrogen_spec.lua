@@ -225,7 +225,25 @@ describe("ls.coulomb_basis", function()
     -- source: <2s|r|2p> = -3 sqrt 3 (Bethe & Salpeter 1957, table 13) times
     -- <1 0|cos theta|0 0> = 1/sqrt 3, radial functions positive near r = 0
     assert.near(-3, (B.z:get(i2s, i2p)), 1e-12)
-    assert.error_matches(function() return B.x end, "no operator 'x'", 1, true)
+    assert.error_matches(function() return B.q end, "no operator 'q'", 1, true)
+  end)
+
+  it("hands out x and y with every m: the Stark pattern along x and y", function()
+    local B = ls.coulomb_basis {}
+    assert.is_true(B.y:is_complex())
+    for _, dir in ipairs { "x", "y" } do
+      local s = ls.perturb(B.H0, B[dir], { order = 2, levels = { 1, 2, 3, 4, 5 } })
+      -- source: the field direction does not matter (common practice);
+      -- alpha = 9/2 (Dalgarno & Lewis 1955), n = 2: -3, 0, 0, +3 at first
+      -- order and -84, -78, -78, -84 at second (Bethe & Salpeter 1957, sec. 52)
+      assert.is_true(rel(s:energy(1, 2), -2.25) < 1e-6, dir .. " " .. s:energy(1, 2))
+      local e1, e2 = { -3, 0, 0, 3 }, { -84, -78, -78, -84 }
+      for i = 1, 4 do
+        assert.near(e1[i], s:energy(i + 1, 1), 1e-9)
+        assert.is_true(rel(s:energy(i + 1, 2), e2[i]) < 1e-6, dir .. " level " .. (i + 1))
+      end
+    end
+    assert.error_matches(function() return ls.coulomb_basis { m = 0 }.x end, "no operator 'x'", 1, true)
   end)
 
   it("keeps every m by default and takes a nuclear charge", function()
