@@ -318,6 +318,7 @@ typedef struct {
   int method;
   size_t steps;
   double tol;
+  size_t max_steps; /* with tol: the cap (0 = LVS_EXACT_MAX_STEPS) */
 } lvs_exact_spec;
 /* CONSTRUCTOR: the same transition by propagating the full H(t) (es NULL:
  * defaults). src supplies callbacks again (the C pulse is kept by tr). Adds
@@ -380,8 +381,6 @@ LVS_API int lvs_basis_custom(lvs_ctx *ctx, size_t n, size_t nlab, const char *co
                              const double *labels, lvs_basis **out);
 LVS_API int lvs_basis_custom_op(lvs_basis *b, const char *name, const lvs_matrix *op);
 /* Hydrogen-like atom (atomic units, charge Z) in Coulomb-Sturmian (Laguerre)
-/* steps used: the grid of a perturbative result, the final count of an exact one */
-LVS_API size_t lvs_transition_steps(const lvs_transition *tr);
  * functions r^(l+1) e^(-kappa r) L_k^(2l+1)(2 kappa r), k = 0..nfun-1, for
  * l = 0..lmax. CONSTRUCTOR: a custom basis of the eigenstates of the
  * field-free H0 inside that space, with labels n (l + 1 + rank in energy

@@ -366,10 +366,10 @@ static int t_exact(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_transition *tr = checktr(L, 1);
   if (lvs_transition_order(tr) == 0) return luaL_error(L, "exact: this is already an exact result");
-  lvs_exact_spec es = {LVS_EXACT_AUTO, 0, 0.0};
+  lvs_exact_spec es = {LVS_EXACT_AUTO, 0, 0.0, 0};
   int dflt = lua_isnoneornil(L, 2);
   if (lua_istable(L, 2)) {
-    static const char *const known[] = {"steps", "tol", "method", NULL};
+    static const char *const known[] = {"steps", "tol", "method", "max_steps", NULL};
     static const char *const methods[] = {"auto", "rk4", "magnus4", NULL};
     lvsL_checkoptions(L, 2, known, "exact", 1);
     lua_Integer steps = lvsL_optfield_int(L, 2, "steps", 0, "exact", 1);
@@ -377,6 +377,11 @@ static int t_exact(lua_State *L) {
       return luaL_error(L, "bad argument #1 to 'exact' (steps must be from 8 to %d, got %d)", (int)LVS_EXACT_MAX_STEPS,
                         (int)steps);
     es.steps = (size_t)steps;
+    lua_Integer maxs = lvsL_optfield_int(L, 2, "max_steps", LVS_EXACT_MAX_STEPS, "exact", 1);
+    if (maxs < 16 || maxs > LVS_EXACT_MAX_STEPS)
+      return luaL_error(L, "bad argument #1 to 'exact' (max_steps must be from 16 to %d, got %d)", (int)LVS_EXACT_MAX_STEPS,
+                        (int)maxs);
+    es.max_steps = (size_t)maxs;
     lua_getfield(L, 2, "tol");
     if (!lua_isnil(L, -1)) {
       if (!lua_isnumber(L, -1))

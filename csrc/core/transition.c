@@ -930,7 +930,7 @@ int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, c
                          lvs_transition **out) {
   lvs_ctx *ctx = tr->ctx;
   *out = NULL;
-  lvs_exact_spec dflt = {LVS_EXACT_AUTO, 0, 0.0};
+  lvs_exact_spec dflt = {LVS_EXACT_AUTO, 0, 0.0, 0};
   if (!es) es = &dflt;
   if (tr->exact) return lvsi_fail(ctx, LVS_EINVAL, "transition: already an exact result");
   if (!tr->pulse && !src->pulse_fn && !src->field_fn)
@@ -970,6 +970,8 @@ int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, c
       double want = (tr->t1 - tr->t0) * wmax / 0.25;
       m = want < 64 ? 64 : want > (double)LVS_EXACT_MAX_STEPS ? LVS_EXACT_MAX_STEPS : (size_t)want;
     }
+    size_t cap = es->max_steps && es->max_steps < LVS_EXACT_MAX_STEPS ? es->max_steps : LVS_EXACT_MAX_STEPS;
+    if (m > cap / 2) m = cap / 2;
     if (m < 8) m = 8;
     /* runs at m and 2m give the error constant of this 4th-order method;
      * later counts are predicted from it (growth clamped to x2..x16), and
@@ -978,9 +980,10 @@ int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, c
     if ((st = run(tr, &se, m, coarse))) goto fail;
     size_t mnew = 2 * m;
     for (;;) {
-      if (mnew > LVS_EXACT_MAX_STEPS) {
-        st = lvsi_fail(ctx, LVS_ENOCONV, "transition exact: no convergence to tol %g within %d steps (error estimate %.3g)",
-                       es->tol, (int)LVS_EXACT_MAX_STEPS, est);
+      if (mnew > cap && m < cap) mnew = cap; /* one last try at the cap */
+      if (mnew > cap) {
+        st = lvsi_fail(ctx, LVS_ENOCONV, "transition exact: no convergence to tol %g within %zu steps (error estimate %.3g)",
+                       es->tol, cap, est);
         goto fail;
       }
       if ((st = run(tr, &se, mnew, fine))) goto fail;

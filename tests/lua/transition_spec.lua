@@ -123,6 +123,22 @@ describe("transition: Rabi problem", function()
     near(tr:probability(2, 1), rabi(W, D, T), 1e-11, "P1 vs Rabi, O(W^4)") -- Rabi (1937), small W
     near(tr:exact():probability(2), rabi(W, D, T), 1e-13, "P exact small W")
   end)
+  it("RK4 and Magnus-4 agree with the Rabi formula, fixed steps and to a tolerance", function()
+    local W = 0.8
+    local tr = ls.transition{H0 = H0, V = ls.matrix{{0, W / 2}, {W / 2, 0}}, from = 1, t0 = 0, t1 = T,
+                             pulse = ls.pulse.square{amplitude = 1, start = 0, stop = T}, steps = 400}
+    local want = rabi(W, D, T) -- Rabi (1937)
+    local rk = tr:exact{method = "rk4", tol = 1e-11}
+    near(rk:probability(2), want, 1e-10, "RK4 to tol 1e-11")
+    assert(rk:error(2) <= 1e-11 and rk:steps() > 16)
+    -- a constant H makes one Magnus step exact (Blanes et al., Phys. Rep. 470, 151 (2009))
+    near(tr:exact{method = "magnus4", steps = 8}:probability(2), want, 1e-13, "Magnus-4, constant H")
+    -- RK4 with few steps is off by O(h^4) and says so through its error estimate
+    local coarse = tr:exact{method = "rk4", steps = 16}
+    local off = math.abs(coarse:probability(2) - want)
+    assert(off > 1e-6 and coarse:error(2) > 1e-6 and coarse:warnings():find("error estimate", 1, true),
+           "coarse RK4 " .. off .. " " .. coarse:error(2))
+  end)
   it("takes the pulse as a Lua function of t", function()
     local W = 0.05
     local tr = ls.transition{H0 = H0, V = ls.matrix{{0, W / 2}, {W / 2, 0}}, from = 1, t0 = 0, t1 = T,
@@ -231,5 +247,51 @@ describe("transition: errors", function()
     local tr = mk{}()
     raises(function() tr:probability(5) end, "out of range")
     raises(function() tr:amplitude(1, 2) end, "order must be from 0 to 1")
+  end)
+  it("names the level when from is out of range, and t0/t1 in order", function()
+    -- issue 6: from out of range, t1 before t0
+    raises(mk{from = 3}, "bad argument #1 to 'transition' (from = 3 is out of range 1..2)")
+    raises(mk{from = -1}, "from = -1 is out of range 1..2")
+    raises(mk{t0 = 2, t1 = 1}, "transition: t1 (1) must exceed t0 (2)")
+    raises(mk{t0 = 1, t1 = 1}, "transition: t1 (1) must exceed t0 (1)")
+    raises(mk{t0 = 0 / 0}, "t0 and t1 must be numbers")
+    raises(mk{t0 = math.huge, t1 = math.huge}, "must exceed t0")
+  end)
+  it("stops at a pulse that returns NaN or raises, in first order and in exact", function()
+    -- issue 6: a pulse that returns NaN; a Lua pulse function that raises
+    raises(mk{pulse = function(t) return t > 1 and 0 / 0 or 0.1 end}, "transition: the pulse function returned NaN at t = ")
+    raises(mk{pulse = function(t) if t > 1 then error("pulse broke") end return 0.1 end}, "pulse broke")
+    raises(mk{pulse = function(t) return t > 1 and math.huge or 0.1 end}, "NaN or infinite")
+    -- the same function turning bad after the perturbative pass: exact() names itself
+    local bad = false
+    local tr = mk{pulse = function(t) if bad then return 0 / 0 end return 0.1 end}()
+    bad = true
+    raises(function() tr:exact() end, "exact: the pulse function returned NaN at t = ")
+    bad = false
+    local tr2 = mk{pulse = function(t) if bad then error("late failure") end return 0.1 end}()
+    bad = true
+    raises(function() tr2:exact() end, "exact: the pulse function failed at t = ")
+    raises(function() tr2:exact() end, "late failure")
+    -- a V function that raises
+    raises(function()
+      ls.transition{H0 = H0, V = function(t) error("no field") end, from = 1, t0 = 0, t1 = 1}
+    end, "no field")
+  end)
+  it("checks the options of exact", function()
+    local tr = mk{}()
+    raises(function() tr:exact{tol = -1} end, "field 'tol' must be a positive number")
+    raises(function() tr:exact{tol = 0 / 0} end, "field 'tol' must be a positive number")
+    raises(function() tr:exact{method = "euler"} end, "field 'method' must be 'auto', 'rk4' or 'magnus4'")
+    raises(function() tr:exact{steps = -3} end, "steps must be from 8")
+    raises(function() tr:exact{max_steps = 2} end, "max_steps must be from 16")
+    raises(function() tr:exact{stpes = 10} end, "unknown option")
+    raises(function() tr:exact(3) end, "steps must be from 8")
+    raises(function() tr:exact("x") end, "number expected")
+    local fld = ls.transition{H0 = H0, V = function(t) return 0.1 * V end, from = 1, t0 = 0, t1 = 1, steps = 64}
+    raises(function() fld:exact{method = "rk4"} end, "method rk4 needs V with a pulse")
+    raises(function() tr:exact():exact() end, "already an exact result")
+    -- no convergence is an expected numerical failure: nil, message, code
+    local ex, msg, code = tr:exact{tol = 1e-15, max_steps = 64}
+    assert(ex == nil and msg:find("no convergence to tol 1e-15 within 64 steps", 1, true) and code == 5, tostring(msg))
   end)
 end)
