@@ -427,7 +427,9 @@ typedef struct {
 } lvs_box_quad;
 /* CONSTRUCTOR: the plain dense N x N matrix <m|V|n> of V(x) given by f, by
  * composite Gauss-Legendre quadrature (16 points per panel, panels doubled
- * until two grids agree to tol * max|V|; see box.c). opt may be NULL. *err
+ * until two grids agree to tol * max|V|; the first grid has 16 max(N, 32)
+ * points, so a feature much narrower than width/(16 max(N, 32)) can go
+ * unseen: put break points around it; see box.c). opt may be NULL. *err
  * (may be NULL) gets the last grid difference, a bound on the error of
  * each element in practice. Returns LVS_EINVAL when f fails or returns NaN
  * or inf (the message names x), a break point is outside the box or the

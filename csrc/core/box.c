@@ -23,7 +23,9 @@
  * composite 16-point Gauss-Legendre on panels no wider than one wavelength
  * of cos(2N pi u/L) (the rule is exact to ~1e-30 for that cosine alone), the
  * panels doubled until two successive grids agree to tol * max|V| (default
- * 1e-12); the finer result is returned. Break points split the panels at
+ * 1e-12), starting from max(N, 32) panels; the finer result is returned.
+ * A feature narrower than the first grid's spacing can be missed by both
+ * grids alike, so break points should bracket it. Break points split the panels at
  * jumps or kinks of V so that piecewise-smooth potentials converge just as
  * fast. A potential that is not smooth between break points is refused
  * with LVS_ENOCONV once the grid passes LVS_BOX_MAX_POINTS.
@@ -278,7 +280,7 @@ int lvs_box_potential(const lvs_basis *b, lvs_real_fn f, void *ud, const lvs_box
   size_t ne = 0;
   for (size_t i = 1; i <= nb + 1; i++)
     if (edges[i] > edges[ne]) edges[++ne] = edges[i];
-  size_t panels = n < 4 ? 4 : n;
+  size_t panels = n < 32 ? 32 : n; /* first grid: 16 max(N, 32) points */
   double vmax = 0.0, vmax2 = 0.0, diff = 0.0;
   if ((st = moments(ctx, f, ud, L, x0, edges, ne, panels, K, c1, &vmax))) goto done;
   for (;;) {

@@ -122,6 +122,21 @@ describe("ls.box", function()
     assert.is_true(V:is_hermitian())
   end)
 
+  it("a narrow Gaussian bump is resolved", function()
+    -- V = exp(-(x - c)^2/w^2) far from the walls: c_k = (1/L) sqrt(pi) w exp(-(k pi w/(2L))^2) cos(k pi c/L)
+    -- (Fourier transform of a Gaussian, common practice; the tails beyond the walls are below e^-400)
+    -- and V_mn = c_|m-n| - c_(m+n)
+    local N, c, w = 6, 0.6 * L, 0.02 * L
+    local B = ls.box(N, { width = L })
+    local V = B:potential(function(x) return math.exp(-((x - c) / w) ^ 2) end)
+    local function ck(k) return math.sqrt(pi) * w / L * math.exp(-(k * pi * w / (2 * L)) ^ 2) * math.cos(k * pi * c / L) end
+    for m = 1, N do
+      for n = 1, N do
+        assert.is_true(math.abs(V:get(m, n) - (ck(math.abs(m - n)) - ck(m + n))) < 1e-13, m .. "," .. n)
+      end
+    end
+  end)
+
   it("a step with its break point matches the closed form", function()
     -- V = V0 for x < s: V_mn = V0/pi [sin((m-n) pi s/L)/(m-n) - sin((m+n) pi s/L)/(m+n)],
     -- V_nn = V0 [s/L - sin(2 n pi s/L)/(2 n pi)] (elementary integration, common practice)
