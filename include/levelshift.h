@@ -386,8 +386,9 @@ LVS_API int lvs_basis_custom_op(lvs_basis *b, const char *name, const lvs_matrix
  * field-free H0 inside that space, with labels n (l + 1 + rank in energy
  * inside its l, m block: the principal number for bound states, a pseudo
  * number above), l, m, ordered by ascending energy (ties by l, then m).
- * Operators: "H0" (diagonal), "z", "r", "r2" (= r^2), "L2", "Lz" (exact
- * inside the space: no truncation at the edge). all_m = 1 takes m = -l..l for every
+ * Operators: "H0" (diagonal), "z", "r", "r2" (= r^2), "L2", "Lz", and
+ * with every m also "x" and "y" (complex) (exact inside the space: no
+ * truncation at the edge). all_m = 1 takes m = -l..l for every
  * l; otherwise every l >= |m|. Radial functions are positive near r = 0.
  * Returns LVS_EINVAL for lmax < 0 or > 200, nfun < 1 or > 2000, kappa or Z
  * not positive and finite, |m| > lmax. */
