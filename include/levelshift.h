@@ -191,6 +191,10 @@ LVS_API int lvs_eigen(const lvs_matrix *h, size_t count, int want_vectors,
  * a, 0-based, is the a-th lowest at `from`). Crossings are refined local
  * minima of adjacent gaps: avoided = 1 for a finite gap, 0 for a true
  * crossing (gap ~ 0); i < j are tracked levels, 0-based. */
+/* H(p) of a family: fill out (dense n x n column-major visible block, complex
+ * interleaved when the sweep is complex); nonzero + msg on failure. Called
+ * from the thread that called lvs_sweep_new only. */
+typedef int (*lvs_sweep_family_fn)(void *ud, double p, double *out, char *msg, size_t msglen);
 typedef struct {
   const lvs_matrix *h0, *v; double from, to; size_t steps, count; int threads;
   int series_order;    /* > 0: RS series energies (series.c) beside the exact ones */
@@ -201,6 +205,9 @@ typedef struct {
   int merge_only;      /* every point must come from B.part or a part file */
   void (*progress)(void *ud, size_t done, size_t total); /* from any thread, serialized */
   void *progress_ud;
+  lvs_sweep_family_fn family; /* non-NULL: H(p) = family(p); h0 = H(from) and
+                          v = H(to) then (size, kind, journal hash); no series */
+  void *family_ud;
 } lvs_sweep_spec;
 typedef struct { double at, gap; size_t i, j; int avoided; } lvs_sweep_crossing;
 typedef struct lvs_sweep lvs_sweep;

@@ -88,15 +88,111 @@ static void show_progress(void *ud, size_t done, size_t total) {
   fflush(stderr);
 }
 
+/* H(p) of a family given as a Lua function (called from this thread only) */
+typedef struct {
+  lua_State *L;
+  int fidx;
+  size_t n;
+  int cplx;
+} family_ud;
+
+static int call_family(void *ud, double p, double *out, char *msg, size_t msglen) {
+  family_ud *fu = ud;
+  lua_State *L = fu->L;
+  int top = lua_gettop(L);
+  lua_pushvalue(L, fu->fidx);
+  lua_pushnumber(L, p);
+  if (lua_pcall(L, 1, 1, 0) != LUA_OK) {
+    const char *e = lua_tostring(L, -1);
+    snprintf(msg, msglen, "%s", e ? e : "(error object is not a string)");
+    lua_settop(L, top);
+    return 1;
+  }
+  lvs_matrix *m = lvsL_testmatrix(L, -1);
+  if (!m) {
+    snprintf(msg, msglen, "H must return an op, got %s", luaL_typename(L, -1));
+    lua_settop(L, top);
+    return 1;
+  }
+  size_t n = fu->n;
+  if (lvs_matrix_rows(m) != n || lvs_matrix_cols(m) != n) {
+    snprintf(msg, msglen, "H returned a %zux%zu op, H(from) is %zux%zu", lvs_matrix_rows(m), lvs_matrix_cols(m), n, n);
+    lua_settop(L, top);
+    return 1;
+  }
+  if (lvs_matrix_is_complex(m) && !fu->cplx) {
+    snprintf(msg, msglen, "H returned a complex op but H(from) and H(to) are real");
+    lua_settop(L, top);
+    return 1;
+  }
+  lvs_matrix *d = NULL;
+  if (lvs_matrix_visible(m, 1, &d) != LVS_OK) {
+    snprintf(msg, msglen, "cannot read the op H returned");
+    lua_settop(L, top);
+    return 1;
+  }
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = 0; i < n; i++) {
+      double re, im;
+      lvs_matrix_get(d, i, j, &re, &im);
+      size_t at = j * n + i;
+      if (fu->cplx) { out[2 * at] = re; out[2 * at + 1] = im; } else out[at] = re;
+    }
+  lvs_matrix_free(d);
+  lua_settop(L, top);
+  return 0;
+}
+
 static int l_sweep(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   luaL_checktype(L, 1, LUA_TTABLE);
   static const char *const known[] = {"H0", "V", "from", "to", "steps", "count", "threads", "series",
                                       "journal", "shard", "shards", "merge", "progress", "param",
-                                      "param_unit", "energy_unit", NULL};
+                                      "param_unit", "energy_unit", "H", NULL};
   lvsL_checkoptions(L, 1, known, "sweep", 1);
-  lvs_matrix *h0 = field_matrix(L, "H0");
-  lvs_matrix *v = field_matrix(L, "V");
+  lua_getfield(L, 1, "H");
+  int family = !lua_isnil(L, -1);
+  if (family && !lua_isfunction(L, -1)) {
+    lua_pushfstring(L, "H must be a function p -> op, got %s", luaL_typename(L, -2));
+    return luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lua_pop(L, 1);
+  lvs_matrix *h0, *v;
+  family_ud fu = {L, 0, 0, 0};
+  if (family) {
+    lua_getfield(L, 1, "H0");
+    lua_getfield(L, 1, "V");
+    if (!lua_isnil(L, -1) || !lua_isnil(L, -2))
+      return luaL_argerror(L, 1, "give either H (a function p -> op) or H0 and V, not both");
+    lua_pop(L, 2);
+    /* H(from) and H(to): size, kind and the journal's fingerprint */
+    for (int end = 0; end < 2; end++) {
+      double pe = field_num(L, end ? "to" : "from");
+      lua_getfield(L, 1, "H");
+      lua_pushnumber(L, pe);
+      lua_call(L, 1, 1);
+      if (!lvsL_testmatrix(L, -1)) {
+        lua_pushfstring(L, "H(%f) must return an op, got %s", pe, luaL_typename(L, -1));
+        return luaL_argerror(L, 1, lua_tostring(L, -1));
+      }
+      lua_setfield(L, LUA_REGISTRYINDEX, end ? "levelshift.sweep.Hto" : "levelshift.sweep.Hfrom");
+    }
+    lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.sweep.Hfrom");
+    h0 = lvsL_testmatrix(L, -1);
+    lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.sweep.Hto");
+    v = lvsL_testmatrix(L, -1);
+    /* keep both on the stack (below the userdata pushed later) */
+    lua_getfield(L, 1, "H");
+    fu.fidx = lua_gettop(L);
+    if (lvs_matrix_rows(v) != lvs_matrix_rows(h0) || lvs_matrix_cols(v) != lvs_matrix_cols(h0)) {
+      lua_pushfstring(L, "size mismatch: H(from) is %dx%d but H(to) is %dx%d", (int)lvs_matrix_rows(h0),
+                      (int)lvs_matrix_cols(h0), (int)lvs_matrix_rows(v), (int)lvs_matrix_cols(v));
+      return luaL_argerror(L, 1, lua_tostring(L, -1));
+    }
+  } else {
+    h0 = field_matrix(L, "H0");
+    v = field_matrix(L, "V");
+  }
   size_t n = lvs_matrix_rows(h0);
   if (n != lvs_matrix_cols(h0)) {
     lua_pushfstring(L, "H0 must be square, got %dx%d", (int)n, (int)lvs_matrix_cols(h0));
@@ -155,8 +251,20 @@ static int l_sweep(lua_State *L) {
   luaL_setmetatable(L, LVS_SWEEP_MT);
   progress_state ps = {0, 0, (size_t)-1};
   lvs_sweep_spec spec = {h0, v, from, to, (size_t)steps, (size_t)count, (int)threads, (int)series, journal,
-                         (size_t)shard, (size_t)shards, merge, progress ? show_progress : NULL, &ps};
+                         (size_t)shard, (size_t)shards, merge, progress ? show_progress : NULL, &ps, NULL, NULL};
+  if (family) {
+    fu.n = n;
+    fu.cplx = lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v);
+    spec.family = call_family;
+    spec.family_ud = &fu;
+  }
   int st = lvs_sweep_new(ctx, &spec, &u->s);
+  if (family) {
+    lua_pushnil(L);
+    lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.sweep.Hfrom");
+    lua_pushnil(L);
+    lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.sweep.Hto");
+  }
   if (ps.shown) fputc('\n', stderr);
   if (!st && (pname || punit || eunit)) st = lvs_sweep_set_labels(u->s, pname, punit, eunit);
   if (st == LVS_ENOTHERM || st == LVS_EDIM) {

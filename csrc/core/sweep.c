@@ -140,6 +140,9 @@ typedef struct {
   int cplx;
   const double *h0, *v; /* dense visible blocks, n*n (x2 when cplx) */
   long kd;              /* half-bandwidth for the band path, -1: dense path */
+  const double *hb0, *vb; /* lower band storage (kd+1) x n of H0 and V (band path) */
+  lvs_sweep_family_fn family; /* H(p) from a callback (main thread only), or NULL */
+  void *family_ud;
 } model;
 
 static double grid_p(double from, double to, size_t steps, size_t k) {
@@ -147,130 +150,183 @@ static double grid_p(double from, double to, size_t steps, size_t k) {
   return from + (to - from) * (double)k / (double)steps;
 }
 
-/* band path: lowest m eigenvalues (and vectors, n x m real, when vec) */
 /* scratch of the band path, kept by a worker across its points */
 typedef struct {
   double *buf;
   lapack_int *ibuf;
+  size_t *piv;
 } band_scratch;
 
-static size_t band_need(size_t n, size_t kd) { return (kd + 1) * n + 2 * n + 4 * n + n + (3 * kd + 1) * n + 2 * n; }
+static size_t band_need(size_t n, size_t kd) { return 2 * (kd + 1) * n + 2 * n + 4 * n + (3 * kd + 1) * n + 2 * n; }
 
 static int band_scratch_get(lvs_ctx *tctx, const model *md, band_scratch *bs) {
   size_t n = md->n;
   if (bs->buf) return LVS_OK;
   bs->buf = lvsi_malloc(tctx, band_need(n, (size_t)md->kd) * sizeof(double));
-  bs->ibuf = lvsi_malloc(tctx, 6 * n * sizeof(lapack_int));
-  if (!bs->buf || !bs->ibuf) return lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
+  bs->ibuf = lvsi_malloc(tctx, 5 * n * sizeof(lapack_int));
+  bs->piv = lvsi_malloc(tctx, n * sizeof(size_t));
+  if (!bs->buf || !bs->ibuf || !bs->piv) return lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
   return LVS_OK;
 }
 
 static void band_scratch_free(lvs_ctx *tctx, band_scratch *bs) {
   lvsi_free(tctx, bs->buf);
   lvsi_free(tctx, bs->ibuf);
+  lvsi_free(tctx, bs->piv);
   bs->buf = NULL;
   bs->ibuf = NULL;
+  bs->piv = NULL;
 }
 
+/* LU with partial pivoting of a general band matrix (kl = ku = kd), LAPACK
+ * dgbtf2's layout: A(i,j) at g[2kd + i - j + j*ldg], ldg = 3kd + 1. Inline
+ * loops: for the small kd of a sweep the BLAS calls of dgbtf2 cost more than
+ * the arithmetic. An exactly zero pivot is replaced by `tiny`. */
+static void band_lu(size_t n, size_t kd, double *g, size_t *ipiv, double tiny) {
+  size_t ldg = 3 * kd + 1, kv = 2 * kd, ju = 0;
+  for (size_t j = 0; j < n; j++) {
+    size_t km = kd < n - 1 - j ? kd : n - 1 - j, jp = 0;
+    double best = fabs(g[kv + j * ldg]);
+    for (size_t i = 1; i <= km; i++)
+      if (fabs(g[kv + i + j * ldg]) > best) { best = fabs(g[kv + i + j * ldg]); jp = i; }
+    ipiv[j] = j + jp;
+    if (best == 0) g[kv + j * ldg] = tiny;
+    size_t jmax = j + kd + jp < n - 1 ? j + kd + jp : n - 1;
+    if (jmax > ju) ju = jmax;
+    if (jp)
+      for (size_t c = j; c <= ju; c++) {
+        double *a = &g[kv + jp - (c - j) + c * ldg], *b = &g[kv - (c - j) + c * ldg], t = *a;
+        *a = *b;
+        *b = t;
+      }
+    double piv = g[kv + j * ldg];
+    for (size_t i = 1; i <= km; i++) g[kv + i + j * ldg] /= piv;
+    for (size_t c = j + 1; c <= ju; c++) {
+      double u = g[kv - (c - j) + c * ldg];
+      if (u != 0)
+        for (size_t i = 1; i <= km; i++) g[kv + i - (c - j) + c * ldg] -= g[kv + i + j * ldg] * u;
+    }
+  }
+}
+
+static void band_solve(size_t n, size_t kd, const double *g, const size_t *ipiv, double *b) {
+  size_t ldg = 3 * kd + 1, kv = 2 * kd;
+  for (size_t j = 0; j + 1 < n; j++) {
+    size_t lm = kd < n - 1 - j ? kd : n - 1 - j, l = ipiv[j];
+    if (l != j) { double t = b[l]; b[l] = b[j]; b[j] = t; }
+    double bj = b[j];
+    for (size_t i = 1; i <= lm; i++) b[j + i] -= g[kv + i + j * ldg] * bj;
+  }
+  for (size_t j = n; j-- > 0;) {
+    b[j] /= g[kv + j * ldg];
+    double t = b[j];
+    size_t top = kv < j ? kv : j;
+    for (size_t i = 1; i <= top; i++) b[j - i] -= g[kv - i + j * ldg] * t;
+  }
+}
+
+/* band path: lowest m eigenvalues (and vectors, n x m real, when vec):
+ * dsbtrd + dstebz to full accuracy; with vectors, two inverse-iteration
+ * solves per level at the bisection shift, in the complement of the levels
+ * already found, and the energy is the Rayleigh quotient of the vector
+ * (Parlett, The Symmetric Eigenvalue Problem, 1980, ch. 4: its error is
+ * quadratic in the vector's). Pairs are returned ascending. */
 static int solve_band(const model *md, double p, size_t m, double *w, double *vec, band_scratch *bs, lvs_ctx *tctx) {
   size_t n = md->n, kd = (size_t)md->kd, ldab = kd + 1, ldg = 3 * kd + 1;
   double *buf = bs->buf;
   lapack_int *ibuf = bs->ibuf;
-  double *ab = buf, *d = ab + ldab * n, *e = d + n, *work = e + n, *x = work + 4 * n,
-         *gb = x + n, *wfull = gb + ldg * n;
-  lapack_int *iwork = ibuf, *iblock = iwork + 3 * n, *isplit = iblock + n, *ipiv = isplit + n;
-  const double *h0 = md->h0, *v = md->v;
+  double *ab = buf, *d = ab + ldab * n, *e = d + n, *work = e + n, *hb = work + 4 * n,
+         *gb = hb + ldab * n, *wfull = gb + ldg * n, *y = wfull + n;
+  lapack_int *iwork = ibuf, *iblock = iwork + 3 * n, *isplit = iblock + n;
+  size_t *ipiv = bs->piv;
+  const double *b0 = md->hb0, *b1 = md->vb;
   double onenrm = 0;
+  for (size_t q = 0; q < ldab * n; q++) hb[q] = b0[q] + p * b1[q];
   for (size_t j = 0; j < n; j++) {
     double cs = 0;
-    for (size_t r = 0; r <= kd && j + r < n; r++) {
-      double hv = h0[j * n + j + r] + p * v[j * n + j + r];
-      ab[j * ldab + r] = hv;
-      cs += fabs(hv);
-    }
-    for (size_t r = 1; r <= kd && r <= j; r++) cs += fabs(h0[(j - r) * n + j] + p * v[(j - r) * n + j]);
+    for (size_t r = 0; r <= kd && j + r < n; r++) cs += fabs(hb[j * ldab + r]);
+    for (size_t r = 1; r <= kd && r <= j; r++) cs += fabs(hb[(j - r) * ldab + r]);
     if (cs > onenrm) onenrm = cs;
   }
+  if (onenrm == 0) onenrm = 1;
+  memcpy(ab, hb, ldab * n * sizeof(double));
   double qdummy = 0;
   lapack_int info = LAPACKE_dsbtrd_work(LAPACK_COL_MAJOR, 'N', 'L', (lapack_int)n, (lapack_int)kd, ab,
                                         (lapack_int)ldab, d, e, &qdummy, 1, work);
   lapack_int mfound = 0, nsplit = 0;
+  double abstol = 0.0;
   if (!info)
-    info = LAPACKE_dstebz_work('I', 'E', (lapack_int)n, 0, 0, 1, (lapack_int)m, 0.0, d, e, &mfound, &nsplit,
+    info = LAPACKE_dstebz_work('I', 'E', (lapack_int)n, 0, 0, 1, (lapack_int)m, abstol, d, e, &mfound, &nsplit,
                                wfull, iblock, isplit, work, iwork);
-  if (info || (size_t)mfound != m) {
+  if (info || (size_t)mfound != m)
     return lvsi_fail(tctx, LVS_ELAPACK, "band eigensolver failed (info %d)", (int)info);
-  }
   memcpy(w, wfull, m * sizeof(double));
-  if (vec) {
-    double eps = 2.220446049250313e-16;
-    double ortol = 1e-3 * onenrm, pertol = 10 * eps * (onenrm > 0 ? onenrm : 1);
-    double prev_shift = 0;
-    size_t cl0 = 0; /* first member of the current cluster */
-    for (size_t j = 0; j < m; j++) {
-      double shift = w[j];
-      if (j > 0) {
-        if (w[j] - w[j - 1] > ortol) cl0 = j;
-        if (shift - prev_shift < pertol) shift = prev_shift + pertol;
+  if (!vec) return LVS_OK;
+  double eps = 2.220446049250313e-16, tiny = eps * onenrm;
+  for (size_t j = 0; j < m; j++) {
+    double shift = w[j];
+    double *xv = vec + j * n;
+    /* start: a fixed vector with no special structure */
+    for (size_t i = 0; i < n; i++) xv[i] = 1.0 + 0.25 * (double)((i * 7 + j * 3) % 11) / 11.0;
+    memset(gb, 0, ldg * n * sizeof(double));
+    for (size_t c = 0; c < n; c++)
+      for (size_t r = 0; r <= kd && c + r < n; r++) {
+        double hv = hb[c * ldab + r];
+        gb[c * ldg + 2 * kd + r] = r ? hv : hv - shift;       /* H(c+r, c) */
+        if (r) gb[(c + r) * ldg + 2 * kd - r] = hv;            /* H(c, c+r) */
       }
-      prev_shift = shift;
-      /* general band storage of H - shift, kl = ku = kd, rows kd.. used */
-      memset(gb, 0, ldg * n * sizeof(double));
-      for (size_t c = 0; c < n; c++) {
-        size_t r0 = c >= kd ? c - kd : 0, r1 = c + kd < n ? c + kd : n - 1;
-        for (size_t r = r0; r <= r1; r++) {
-          double hv = r >= c ? h0[c * n + r] + p * v[c * n + r] : h0[r * n + c] + p * v[r * n + c];
-          if (r == c) hv -= shift;
-          gb[c * ldg + 2 * kd + r - c] = hv;
+    band_lu(n, kd, gb, ipiv, tiny);
+    for (int it = 0; it < 2; it++) {
+      band_solve(n, kd, gb, ipiv, xv);
+      for (int pass = 0; pass <= it; pass++)
+        for (size_t q = 0; q < j; q++) {
+          const double *u = vec + q * n;
+          double o = 0;
+          for (size_t i = 0; i < n; i++) o += u[i] * xv[i];
+          for (size_t i = 0; i < n; i++) xv[i] -= o * u[i];
         }
-      }
-      info = LAPACKE_dgbtrf_work(LAPACK_COL_MAJOR, (lapack_int)n, (lapack_int)n, (lapack_int)kd, (lapack_int)kd,
-                                 gb, (lapack_int)ldg, ipiv);
-      if (info < 0) {
-        return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed (info %d)", (int)info);
-      }
-      /* exactly singular pivots: replace by eps * norm (the solve stays finite) */
-      for (size_t c = 0; c < n; c++)
-        if (gb[c * ldg + 2 * kd] == 0) gb[c * ldg + 2 * kd] = eps * (onenrm > 0 ? onenrm : 1);
-      double *xv = vec + j * n;
-      /* start: a fixed vector with no special structure; the shift is
-       * accurate to a few ulps of the norm, so two solves converge */
-      for (size_t i = 0; i < n; i++) xv[i] = 1.0 + 0.25 * (double)((i * 7 + j * 3) % 11) / 11.0;
-      for (int it = 0; it < 2; it++) {
-        info = LAPACKE_dgbtrs_work(LAPACK_COL_MAJOR, 'N', (lapack_int)n, (lapack_int)kd, (lapack_int)kd, 1, gb,
-                                   (lapack_int)ldg, ipiv, xv, (lapack_int)n);
-        for (int pass = 0; pass < 2; pass++)
-          for (size_t q = cl0; q < j; q++) {
-            const double *u = vec + q * n;
-            double o = 0;
-            for (size_t i = 0; i < n; i++) o += u[i] * xv[i];
-            for (size_t i = 0; i < n; i++) xv[i] -= o * u[i];
-          }
-        double nn = 0, big = 0;
-        size_t at = 0;
-        for (size_t i = 0; i < n; i++) {
-          nn += xv[i] * xv[i];
-          if (fabs(xv[i]) > big) { big = fabs(xv[i]); at = i; }
-        }
-        nn = sqrt(nn);
-        if (!(nn > 0) || !isfinite(nn)) {
-          return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed for level %zu", j + 1);
-        }
-        double sg = xv[at] < 0 ? -1.0 : 1.0;
-        for (size_t i = 0; i < n; i++) xv[i] *= sg / nn;
+      double nn = 0;
+      for (size_t i = 0; i < n; i++) nn += xv[i] * xv[i];
+      nn = sqrt(nn);
+      if (!(nn > 0) || !isfinite(nn))
+        return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed for level %zu", j + 1);
+      for (size_t i = 0; i < n; i++) xv[i] /= nn;
+    }
+    /* energy: the Rayleigh quotient x^T H x of the converged vector */
+    for (size_t i = 0; i < n; i++) y[i] = 0;
+    for (size_t c = 0; c < n; c++) {
+      y[c] += hb[c * ldab] * xv[c];
+      for (size_t r = 1; r <= kd && c + r < n; r++) {
+        y[c + r] += hb[c * ldab + r] * xv[c];
+        y[c] += hb[c * ldab + r] * xv[c + r];
       }
     }
+    double rq = 0;
+    for (size_t i = 0; i < n; i++) rq += xv[i] * y[i];
+    shift = rq;
+    w[j] = shift;
+    /* sign: largest component positive */
+    size_t at = 0;
+    for (size_t i = 1; i < n; i++)
+      if (fabs(xv[i]) > fabs(xv[at])) at = i;
+    if (xv[at] < 0)
+      for (size_t i = 0; i < n; i++) xv[i] = -xv[i];
   }
-  (void)x;
+  /* ascending order (insertion sort of the pairs) */
+  for (size_t j = 1; j < m; j++)
+    for (size_t q = j; q > 0 && w[q] < w[q - 1]; q--) {
+      double t = w[q]; w[q] = w[q - 1]; w[q - 1] = t;
+      for (size_t i = 0; i < n; i++) { t = vec[q * n + i]; vec[q * n + i] = vec[(q - 1) * n + i]; vec[(q - 1) * n + i] = t; }
+    }
   return LVS_OK;
 }
 
 /* lowest m energies of H(p) (and vectors as complex n x m when vec != NULL) */
 static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, double *w,
-                          double complex *vec, band_scratch *bs) {
+                          double complex *vec, band_scratch *bs, const double *hfull) {
   size_t n = md->n;
-  if (md->kd >= 0) {
-    band_scratch own = {NULL, NULL};
+  if (md->kd >= 0 && !hfull) {
+    band_scratch own = {NULL, NULL, NULL};
     if (!bs) bs = &own;
     int st = band_scratch_get(tctx, md, bs);
     double *rv = NULL;
@@ -290,7 +346,9 @@ static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, do
   if (st) return st;
   double *a = lvs_matrix_data(h);
   size_t len = n * n * (md->cplx ? 2 : 1);
-  for (size_t i = 0; i < len; i++) a[i] = md->h0[i] + p * md->v[i];
+  if (hfull) memcpy(a, hfull, len * sizeof(double));
+  else
+    for (size_t i = 0; i < len; i++) a[i] = md->h0[i] + p * md->v[i];
   st = lvs_eigen(h, m, vec != NULL, w, vec ? &u : NULL);
   if (!st && vec) {
     for (size_t j = 0; j < m; j++)
@@ -306,7 +364,7 @@ static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, do
 }
 
 static int solve_point(lvs_ctx *tctx, const model *md, double p, size_t m, double *w, double complex *vec) {
-  return solve_point_bs(tctx, md, p, m, w, vec, NULL);
+  return solve_point_bs(tctx, md, p, m, w, vec, NULL, NULL);
 }
 
 /* ---- journal ------------------------------------------------------------- */
@@ -448,7 +506,7 @@ static void journal_close(lvs_ctx *ctx, journal *j) {
 
 /* open the own journal (base.part or base.part.K-of-N) and, for a whole
  * run, every part file of the same sweep */
-static int journal_open(lvs_ctx *ctx, journal *j, const char *base, size_t shard, size_t shards) {
+static int journal_open(lvs_ctx *ctx, journal *j, const char *base, size_t shard, size_t shards, int merge_only) {
   size_t bl = strlen(base);
   glob_t g;
   memset(&g, 0, sizeof g);
@@ -481,7 +539,8 @@ static int journal_open(lvs_ctx *ctx, journal *j, const char *base, size_t shard
   for (size_t k = 0; k < j->npts; k++) j->rec_file[k] = -1;
   if (shards) snprintf(j->own, bl + 64, "%s.part.%zu-of-%zu", base, shard, shards);
   else snprintf(j->own, bl + 64, "%s.part", base);
-  int fd = open(j->own, O_RDWR | O_CREAT | O_CLOEXEC, 0644);
+  int fd = open(j->own, O_RDWR | O_CLOEXEC | (merge_only ? 0 : O_CREAT), 0644);
+  if (fd < 0 && merge_only && errno == ENOENT) goto parts; /* a merge reads, never starts a journal */
   if (fd < 0) {
     st = lvsi_fail(ctx, LVS_EINVAL, "cannot open journal '%s': %s", j->own, strerror(errno));
     goto out;
@@ -506,6 +565,7 @@ static int journal_open(lvs_ctx *ctx, journal *j, const char *base, size_t shard
   }
   j->fd = fd;
   j->end = end;
+parts:
   if (gl) {
     for (size_t i = 0; i < g.gl_pathc; i++) {
       int pf = open(g.gl_pathv[i], O_RDONLY | O_CLOEXEC);
@@ -571,6 +631,8 @@ typedef struct {
   size_t k0;            /* first point of the block */
   const size_t *todo;   /* points to compute */
   size_t ntodo;
+  const double *hmat;   /* family: dense H(p_k) at (k - k0) * hlen, else NULL */
+  size_t hlen;
   double *w;            /* (k - k0) * count */
   double complex *vec;  /* (k - k0) * n * count */
   int tid, nthreads;
@@ -593,7 +655,7 @@ static void *work(void *arg) {
   }
   lvs_ctx_set_dense_cap(tctx, wk->dense_cap);
   shared_out *so = wk->so;
-  band_scratch bs = {NULL, NULL};
+  band_scratch bs = {NULL, NULL, NULL};
   unsigned char *rec = NULL;
   if (so->j) {
     rec = lvsi_malloc(tctx, so->j->recsize);
@@ -609,7 +671,8 @@ static void *work(void *arg) {
     double p = grid_p(wk->from, wk->to, wk->steps, k);
     double *w = wk->w + (k - wk->k0) * md->count;
     double complex *u = wk->vec + (k - wk->k0) * md->n * md->count;
-    int st = solve_point_bs(tctx, md, p, md->count, w, u, &bs);
+    int st = solve_point_bs(tctx, md, p, md->count, w, u, &bs,
+                            wk->hmat ? wk->hmat + (k - wk->k0) * wk->hlen : NULL);
     if (st) {
       wk->st = st;
       snprintf(wk->msg, sizeof wk->msg, "at p = %.17g: %s", p, lvs_errmsg(tctx));
@@ -792,8 +855,26 @@ static void fix_degenerate(size_t n, size_t count, const double *w, double compl
 }
 
 /* gap between ranks r and r+1 (0-based) of H(p) */
+static int family_at(lvs_ctx *ctx, const model *md, double p, double *out) {
+  char msg[400];
+  msg[0] = 0;
+  if (md->family(md->family_ud, p, out, msg, sizeof msg) != 0)
+    return lvsi_fail(ctx, LVS_EINVAL, "H(p) at p = %.17g: %s", p, msg[0] ? msg : "the family failed");
+  return LVS_OK;
+}
+
 static int gap_at(lvs_ctx *ctx, const model *md, double p, size_t r, double *w, double *g) {
-  int st = solve_point(ctx, md, p, r + 2, w, NULL);
+  int st;
+  if (md->family) {
+    size_t len = md->n * md->n * (md->cplx ? 2 : 1);
+    double *hf = lvsi_malloc(ctx, len * sizeof(double));
+    if (!hf) return lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory");
+    st = family_at(ctx, md, p, hf);
+    if (!st) st = solve_point_bs(ctx, md, p, r + 2, w, NULL, NULL, hf);
+    lvsi_free(ctx, hf);
+  } else {
+    st = solve_point(ctx, md, p, r + 2, w, NULL);
+  }
   if (st) return st;
   *g = w[r + 1] - w[r];
   return LVS_OK;
@@ -913,11 +994,15 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   if (out) *out = NULL;
   if (!ctx || !out) return LVS_EINVAL;
   if (!spec || !spec->h0 || !spec->v)
-    return lvsi_fail(ctx, LVS_EINVAL, "sweep needs H0 and V");
+    return lvsi_fail(ctx, LVS_EINVAL, spec && spec->family ? "sweep of a family needs H(from) and H(to)"
+                                                           : "sweep needs H0 and V");
   const lvs_matrix *h0 = spec->h0, *v = spec->v;
+  const char *n0 = spec->family ? "H(from)" : "H0", *n1 = spec->family ? "H(to)" : "V";
   int st;
-  if ((st = lvsi_check_hermitian(h0, LVS_DEFAULT_HERM_TOL, "H0"))) return st;
-  if ((st = lvsi_check_hermitian(v, LVS_DEFAULT_HERM_TOL, "V"))) return st;
+  if ((st = lvsi_check_hermitian(h0, LVS_DEFAULT_HERM_TOL, n0))) return st;
+  if ((st = lvsi_check_hermitian(v, LVS_DEFAULT_HERM_TOL, n1))) return st;
+  if (spec->family && spec->series_order > 0)
+    return lvsi_fail(ctx, LVS_EINVAL, "series needs H0 and V (not a family given as a function)");
   size_t n = lvs_matrix_rows(h0);
   if (lvs_matrix_rows(v) != n)
     return lvsi_fail(ctx, LVS_EDIM, "H0 is %zux%zu but V is %zux%zu", n, n, lvs_matrix_rows(v),
@@ -946,7 +1031,7 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
 
   lvs_sweep *s = NULL;
   lvs_matrix *dh = NULL, *dv = NULL;
-  double *h0a = NULL, *va = NULL, *wblk = NULL, *work_d = NULL;
+  double *h0a = NULL, *va = NULL, *wblk = NULL, *work_d = NULL, *bandst = NULL, *hbuf = NULL;
   double complex *vblk = NULL, *prev = NULL, *tmp = NULL;
   size_t *pi = NULL, *perm = NULL, *iw = NULL, *todo = NULL;
   char *cw = NULL;
@@ -986,11 +1071,23 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     lvs_matrix_free(dv);
     dh = dv = NULL;
   }
-  model md = {n, count, cplx, h0a, va, -1};
-  if (!cplx && n >= 16) {
+  model md = {n, count, cplx, h0a, va, -1, NULL, NULL, spec->family, spec->family_ud};
+  if (!cplx && n >= 16 && !spec->family) {
     long k1 = bandwidth(h0a, n), k2 = bandwidth(va, n);
     long kd = k1 > k2 ? k1 : k2;
-    if (kd >= 1 && 4 * (size_t)kd <= n) md.kd = kd;
+    if (kd >= 1 && 4 * (size_t)kd <= n) {
+      size_t ld = (size_t)kd + 1;
+      bandst = lvsi_calloc(ctx, 2 * ld * n, sizeof(double));
+      if (!bandst) goto nomem;
+      for (size_t j = 0; j < n; j++)
+        for (size_t r = 0; r < ld && j + r < n; r++) {
+          bandst[j * ld + r] = h0a[j * n + j + r];
+          bandst[ld * n + j * ld + r] = va[j * n + j + r];
+        }
+      md.kd = kd;
+      md.hb0 = bandst;
+      md.vb = bandst + ld * n;
+    }
   }
 
   s = lvsi_calloc(ctx, 1, sizeof *s);
@@ -1022,7 +1119,7 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     h = fnv(h, va, len * sizeof(double));
     jn.hash = h;
     jn.recsize = 8 * (2 + count + n * count * (cplx ? 2 : 1));
-    if ((st = journal_open(ctx, &jn, spec->journal, spec->shard, spec->shards))) goto fail;
+    if ((st = journal_open(ctx, &jn, spec->journal, spec->shard, spec->shards, spec->merge_only))) goto fail;
     so.j = &jn;
     /* remember the files to remove after the final write */
     s->used = lvsi_calloc(ctx, (size_t)jn.nfiles + 1, sizeof(char *));
@@ -1052,13 +1149,24 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   }
   if (so.progress) so.progress(so.progress_ud, so.done, so.total);
 
-  /* block size: about 32 MB of vectors, at least one point per thread */
+  /* block size: about 4 MB of vectors (reused, so few fresh pages), at
+   * least one point per thread */
   size_t per = n * count * sizeof(double complex);
-  size_t blk = (size_t)(32u << 20) / (per ? per : 1);
+  size_t blk = (size_t)(4u << 20) / (per ? per : 1);
   if (blk < (size_t)nthreads) blk = (size_t)nthreads;
+  if (spec->family) { /* H(p_k) of a block held densely: about 64 MB */
+    size_t hb = (size_t)(64u << 20) / (n * n * sizeof(double) * (cplx ? 2 : 1));
+    if (hb < (size_t)nthreads) hb = (size_t)nthreads;
+    if (blk > hb) blk = hb;
+  }
   if (blk > npts) blk = npts;
   if ((st = lvsi_dense_ok(ctx, blk, n * count, sizeof(double complex), "sweep (vectors of a block)")))
     goto fail;
+  if (spec->family) {
+    if ((st = lvsi_dense_ok(ctx, blk, n * n * (cplx ? 2 : 1), sizeof(double), "sweep (H(p) of a block)"))) goto fail;
+    hbuf = lvsi_malloc(ctx, blk * n * n * (cplx ? 2 : 1) * sizeof(double));
+    if (!hbuf) goto nomem;
+  }
   wblk = lvsi_malloc(ctx, blk * count * sizeof(double));
   vblk = lvsi_malloc(ctx, blk * n * count * sizeof(double complex));
   prev = lvsi_malloc(ctx, n * count * sizeof(double complex));
@@ -1079,6 +1187,7 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     size_t len = n * n * (cplx ? 2 : 1);
     for (size_t i = 0; i < len; i++) {
       double a1 = fabs(h0a[i] + spec->from * va[i]), a2 = fabs(h0a[i] + spec->to * va[i]);
+      if (spec->family) { a1 = fabs(h0a[i]); a2 = fabs(va[i]); } /* H(from), H(to) */
       if (a1 > escale) escale = a1;
       if (a2 > escale) escale = a2;
     }
@@ -1106,8 +1215,13 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
         todo[ntodo++] = k;
       }
     }
-    worker tmpl = {&md, spec->from, spec->to, steps, k0, todo, ntodo, wblk, vblk, 0, 1, &la,
-                   ctx->dense_cap, &so, LVS_OK, {0}};
+    size_t hlen = n * n * (cplx ? 2 : 1);
+    if (md.family)
+      for (size_t t = 0; t < ntodo; t++)
+        if ((st = family_at(ctx, &md, grid_p(spec->from, spec->to, steps, todo[t]), hbuf + (todo[t] - k0) * hlen)))
+          goto fail;
+    worker tmpl = {&md, spec->from, spec->to, steps, k0, todo, ntodo, md.family ? hbuf : NULL, hlen, wblk, vblk,
+                   0, 1, &la, ctx->dense_cap, &so, LVS_OK, {0}};
     if ((st = run_workers(ctx, &tmpl, nthreads))) goto fail;
     if (spec->shards) continue;
     /* sequential tracking through the block */
@@ -1230,6 +1344,8 @@ done:
   lvs_matrix_free(dv);
   lvsi_free(ctx, h0a);
   lvsi_free(ctx, va);
+  lvsi_free(ctx, bandst);
+  lvsi_free(ctx, hbuf);
   lvsi_free(ctx, wblk);
   lvsi_free(ctx, vblk);
   lvsi_free(ctx, prev);

@@ -7,7 +7,6 @@ local type, error, pairs, ipairs, tostring, setmetatable = type, error, pairs, i
 
 return function(ls, core)
   local methods = core._sweep_methods
-  local csweep = core.sweep
   local labels = setmetatable({}, { __mode = "k" })
 
   local function shq(s) return "'" .. s:gsub("'", "'\\''") .. "'" end
@@ -24,8 +23,9 @@ return function(ls, core)
     error("sweep: shard must be \"k/n\" or {k, n}, got " .. type(v), 3)
   end
 
-  --- ls.sweep{H0=, V=, from=, to=, steps=, count=, threads=, series=, out=,
-  -- plot=, shard=, merge=, progress=, param=, param_unit=, energy_unit=}
+  --- ls.sweep{H0=, V= | H=function(p) -> op, from=, to=, steps=, count=,
+  -- threads=, series=, out=, plot=, shard=, merge=, progress=, param=,
+  -- param_unit=, energy_unit=}
   function ls.sweep(t)
     if type(t) ~= "table" then
       error("bad argument #1 to 'sweep' (table expected, got " .. type(t) .. ")", 2)
@@ -54,7 +54,11 @@ return function(ls, core)
         .. " needs 'out': the part files are named after it)", 2)
     end
     o.journal = out
-    local sw = csweep(o)
+    local ok, sw = pcall(function() return core.sweep(o) end)
+    if not ok then
+      if type(sw) == "string" then sw = sw:gsub("^[^\n]-sweep%.lua:%d+: ", "") end
+      error(sw, 2)
+    end
     labels[sw] = { param = t.param or "p", param_unit = t.param_unit, energy_unit = t.energy_unit }
     if sw.partial then
       if program_shard then

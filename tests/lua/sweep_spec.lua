@@ -199,6 +199,35 @@ describe("sweep", function()
     end
   end)
 
+  it("sweeps a family given as a Lua function p -> op", function()
+    -- spin-1 with D Sz^2 in a tilted field: the function form must give the numbers of the
+    -- H0 + p V form of the same model (common practice); the avoided crossing near B = D
+    local s, t = ls.spin(1), 0.05
+    local fam = ls.sweep{H = function(B) return s.Sz ^ 2 + B * (math.cos(t) * s.Sz + math.sin(t) * s.Sx) end,
+                         from = 0, to = 2, steps = 40, count = 3}
+    local lin = ls.sweep{H0 = s.Sz ^ 2, V = math.cos(t) * s.Sz + math.sin(t) * s.Sx, from = 0, to = 2,
+                         steps = 40, count = 3}
+    for a = 1, 3 do
+      local x, y = fam:level(a), lin:level(a)
+      for k = 1, 41 do assert.near(y[k], x[k], 1e-12) end
+    end
+    local cf, cl = fam:crossings(), lin:crossings()
+    assert.are.equal(#cl, #cf)
+    assert.near(cl[1].at, cf[1].at, 1e-9)
+    assert.near(cl[1].gap, cf[1].gap, 1e-12)
+    assert.error_matches(function()
+      ls.sweep{H = function(B) if B > 0.2 and B < 0.4 then error("no model here") end return s.Sz end,
+               from = 0, to = 0.5, steps = 4}
+    end, "H(p) at p = 0.25: ", 1, true)
+    assert.error_matches(function() ls.sweep{H = function() return s.Sz end, series = 2, from = 0, to = 1} end,
+      "series needs H0 and V", 1, true)
+    assert.error_matches(function() ls.sweep{H = 3, from = 0, to = 1} end, "H must be a function p -> op", 1, true)
+    assert.error_matches(function() ls.sweep{H = function() return 1 end, from = 0, to = 1} end,
+      "must return an op", 1, true)
+    assert.error_matches(function() ls.sweep{H = function() return s.Sz end, H0 = s.Sz, from = 0, to = 1} end,
+      "give either H (a function p -> op) or H0 and V, not both", 1, true)
+  end)
+
   describe("files, plots, resume and shards", function()
     local bin = os.getenv("LVS_BIN") or "build/levelshift"
     local function sh(cmd)
@@ -291,6 +320,7 @@ echo "killed=$?"]], bin, s, args, out, out, 48 + 5 * rec))
       local early = sh(bin .. " " .. s .. " --merge out=" .. out)
       assert.truthy(early:find("points are in no part file", 1, true), early)
       assert.truthy(early:find("rc=1", 1, true), early)
+      assert.is_nil(slurp(out .. ".part")) -- a merge reads, it starts no journal
       assert.truthy(sh(bin .. " " .. s .. " --shard 3/3 out=" .. out):find("rc=0", 1, true))
       local m = sh(bin .. " " .. s .. " --merge out=" .. out)
       assert.truthy(m:find("rc=0", 1, true), m)
