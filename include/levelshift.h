@@ -447,7 +447,8 @@ LVS_API int lvs_box_potential(const lvs_basis *b, lvs_real_fn f, void *ud, const
 /* Rigid rotor (hbar = 1): states |J M>, J = Jmin..jmax, ordered by J, then
  * M from +J down to -J; all_m = 1 keeps every M (Jmin = 0), all_m = 0 keeps
  * only M = m (Jmin = |m|). Labels J, M. Operators: "J2" (J(J+1)), "Jz",
- * "cos" (cos theta, <J M|cos|J' M> from Clebsch-Gordan coefficients), and
+ * "cos" (cos theta, <J M|cos|J' M> from Clebsch-Gordan coefficients),
+ * "cos2" (cos^2 theta, exact up to J = Jmax, unlike cos * cos), and
  * with every M: "Jp", "Jm", "Jx", "Jy" (Condon-Shortley phases), "identity".
  * LVS_EINVAL for jmax < 0 or |m| > jmax; LVS_ECAP for jmax > 2000. */
 LVS_API int lvs_basis_rotor(lvs_ctx *ctx, int jmax, int all_m, int m, lvs_basis **out);

@@ -15,6 +15,11 @@
  *   <J' M|cos theta|J M> = sqrt((2J+1)/(2J'+1)) <J 0 1 0|J' 0> <J M 1 0|J' M>,
  * nonzero for J' = J +- 1 only; this equals the closed form
  * sqrt(((J+1)^2 - M^2)/((2J+1)(2J+3))) for J' = J + 1 (checked in the specs).
+ * cos^2 theta = 1/3 + (2/3) P2(cos theta), with the same theorem for
+ * P2 = sqrt(4 pi/5) Y_20:
+ *   <J' M|P2|J M> = sqrt((2J+1)/(2J'+1)) <J 0 2 0|J' 0> <J M 2 0|J' M>,
+ * J' = J, J +- 2; so "cos2" is exact up to J = Jmax, where the product of
+ * two truncated cos matrices misses the J = Jmax + 1 states.
  * Jp|J M> = sqrt(J(J+1) - M(M+1)) |J M+1> (Condon-Shortley phase).
  */
 #include <math.h>
@@ -122,6 +127,15 @@ static int cos_up(lvs_ctx *ctx, int J, int M, double *v) {
   return st;
 }
 
+/* <J' M|cos^2 theta|J M> (integers, |M| <= J, J') */
+static int cos2_el(lvs_ctx *ctx, int Jp, int J, int M, double *v) {
+  double c0, cm;
+  int st = lvs_clebsch_gordan(ctx, 2 * J, 0, 4, 0, 2 * Jp, 0, &c0);
+  if (!st) st = lvs_clebsch_gordan(ctx, 2 * J, 2 * M, 4, 0, 2 * Jp, 2 * M, &cm);
+  *v = (2.0 / 3.0) * sqrt((2.0 * J + 1.0) / (2.0 * Jp + 1.0)) * c0 * cm + (Jp == J ? 1.0 / 3.0 : 0.0);
+  return st;
+}
+
 static int rotor_op(const lvs_basis *b, const char *name, lvs_matrix **out, long *band) {
   lvs_ctx *ctx = lvsi_basis_ctx(b);
   const double *p = lvsi_basis_par(b);
@@ -129,13 +143,13 @@ static int rotor_op(const lvs_basis *b, const char *name, lvs_matrix **out, long
   size_t n = lvs_basis_dim(b);
   int which = !strcmp(name, "J2") ? 0 : !strcmp(name, "Jz") ? 1 : !strcmp(name, "cos") ? 2
             : !strcmp(name, "Jp") ? 3 : !strcmp(name, "Jm") ? 4 : !strcmp(name, "Jx") ? 5
-            : !strcmp(name, "Jy") ? 6 : -1;
+            : !strcmp(name, "Jy") ? 6 : !strcmp(name, "cos2") ? 7 : -1;
   *out = NULL;
-  if (which < 0 || (!all_m && which >= 3))
-    return lvsi_fail(ctx, LVS_EINVAL, "rotor%s has no operator '%s' (it has J2, Jz, cos, %sidentity)",
+  if (which < 0 || (!all_m && which >= 3 && which <= 6))
+    return lvsi_fail(ctx, LVS_EINVAL, "rotor%s has no operator '%s' (it has J2, Jz, cos, cos2, %sidentity)",
                      all_m ? "" : " with fixed M", name, all_m ? "Jp, Jm, Jx, Jy, " : "");
   lvs_matrix *c;
-  int st = lvsi_mat_alloc(ctx, n, n, which == 6, 1, 2 * n + 1, &c);
+  int st = lvsi_mat_alloc(ctx, n, n, which == 6, 1, 3 * n + 1, &c);
   if (st) return st;
   long bw = 0;
   for (size_t j = 0; j < n && !st; j++) {
@@ -162,6 +176,20 @@ static int rotor_op(const lvs_basis *b, const char *name, lvs_matrix **out, long
         if (!st && up < n) {
           if (!(st = cos_up(ctx, J, M, &v))) st = lvsi_csc_push(c, up, v);
           if ((long)(up - j) > bw) bw = (long)(up - j);
+        }
+        break;
+      }
+      case 7: {
+        /* rows |J-2 M>, |J M>, |J+2 M> in ascending index */
+        int Jmax = (int)p[P_JMAX];
+        for (int Jp = J - 2; Jp <= J + 2 && !st; Jp += 2) {
+          if (Jp < abs(M) || Jp > Jmax) continue;
+          size_t row = all_m ? (size_t)(Jp * Jp + (Jp - M)) : (size_t)((long)j + (Jp - J));
+          double v;
+          if (!(st = cos2_el(ctx, Jp, J, M, &v)) && v != 0.0) st = lvsi_csc_push(c, row, v);
+          long d = (long)row - (long)j;
+          if (d < 0) d = -d;
+          if (d > bw) bw = d;
         }
         break;
       }

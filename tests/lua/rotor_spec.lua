@@ -134,6 +134,26 @@ describe("ls.rotor", function()
     assert.is_true(near(F.cos:get(2, 1), sqrt((16 - 9) / (7 * 9)), 1e-15))
   end)
 
+  it("cos2 is exact up to Jmax, where cos * cos is not", function()
+    -- <J M|cos^2|J M> = ((J+1)^2 - M^2)/((2J+1)(2J+3)) + (J^2 - M^2)/((2J-1)(2J+1)) (sum of the
+    -- squared closed-form cos elements above over J' = J +- 1, common practice); off the top
+    -- edge cos2 equals the product of the truncated cos matrices
+    for _, R in ipairs { ls.rotor(5), ls.rotor(7, { M = -2 }) } do
+      local C2, CC = R.cos2, R.cos * R.cos
+      local Jtop = R:labels(R:dim()).J
+      for i = 1, R:dim() do
+        local l = R:labels(i)
+        local J, M = l.J, l.M
+        local want = ((J + 1) ^ 2 - M * M) / ((2 * J + 1) * (2 * J + 3))
+        if J > 0 then want = want + (J * J - M * M) / ((2 * J - 1) * (2 * J + 1)) end
+        assert.is_true(near(C2:get(i, i), want, 1e-15), J .. " " .. M)
+        for j = 1, R:dim() do
+          if J < Jtop and R:labels(j).J < Jtop then assert.is_true(near(C2:get(i, j), CC:get(i, j), 1e-15)) end
+        end
+      end
+    end
+  end)
+
   it("ladder operators: [Jx, Jy] = i Jz and Jx^2 + Jy^2 + Jz^2 = J2", function()
     -- common practice (angular-momentum algebra; exact since each J block is complete)
     local R = ls.rotor(3)
@@ -229,7 +249,7 @@ describe("ls.rotor", function()
     assert.error_matches(function() ls.rotor(2, { M = 1, m = 1 }) end, "give M or m, not both")
     assert.error_matches(function() ls.rotor(2, { K = 1 }) end, "unknown option 'K'")
     assert.error_matches(function() return ls.rotor(2, { M = 0 }).Jx end,
-      "rotor with fixed M has no operator 'Jx' %(it has J2, Jz, cos, identity%)")
+      "rotor with fixed M has no operator 'Jx' %(it has J2, Jz, cos, cos2, identity%)")
     assert.error_matches(function() return ls.rotor(2).sin end, "rotor has no operator 'sin'")
   end)
 end)
