@@ -124,14 +124,15 @@ return function(ls, core)
       f:write(table.concat(row, " "), "\n")
     end
     f:write("\n\n")
-    -- crossings: energy of the lower level, interpolated at the crossing
+    -- crossings: marked midway between the two levels, interpolated at the crossing
     local cross = sw:crossings()
     for _, c in ipairs(cross) do
       local k = 1
       while k < #p - 1 and (p[k + 1] - c.at) * (p[#p] - p[1]) < 0 do k = k + 1 end
-      local lv = E[c.levels[1]]
       local tt = (c.at - p[k]) / (p[k + 1] - p[k])
-      f:write(string.format("%.17g %.17g\n", c.at, lv[k] + tt * (lv[k + 1] - lv[k])))
+      local e = 0
+      for _, lv in ipairs{E[c.levels[1]], E[c.levels[2]]} do e = e + 0.5 * (lv[k] + tt * (lv[k + 1] - lv[k])) end
+      f:write(string.format("%.17g %.17g\n", c.at, e))
     end
     if #cross == 0 then f:write(string.format("%.17g %.17g\n", 0 / 0, 0 / 0)) end
     f:close()
