@@ -466,6 +466,31 @@ LVS_API int lvs_clebsch_gordan(lvs_ctx *ctx, int two_j1, int two_m1, int two_j2,
 LVS_API int lvs_wigner_3j(lvs_ctx *ctx, int two_j1, int two_j2, int two_j3, int two_m1, int two_m2,
                           int two_m3, double *out);
 
+/* ---- units: CODATA 2018 constants and conversions (units.c) ------------- */
+/* Source: Tiesinga, Mohr, Newell, Taylor, "CODATA recommended values of the
+ * fundamental physical constants: 2018", Rev. Mod. Phys. 93, 025010 (2021). */
+typedef struct {
+  const char *name;   /* e.g. "mu_B", "E_h", "alpha" */
+  double value;       /* SI unless `unit` says otherwise */
+  double uncertainty; /* standard uncertainty in the same unit; 0 = exact */
+  const char *unit;   /* e.g. "J T^-1"; "" = dimensionless */
+  const char *about;  /* the CODATA quantity name */
+} lvs_constant;
+/* STATIC table, entries from i = 0; NULL past the end. Never fails. */
+LVS_API const lvs_constant *lvs_constant_at(size_t i);
+/* STATIC entry by name, NULL if unknown (or name NULL). */
+LVS_API const lvs_constant *lvs_constant_find(const char *name);
+/* the i-th unit name from 0 (STATIC), its kind in *kind if kind != NULL:
+ * "energy" (hartree, eV, cm^-1, Hz..THz, rad/s, K, and T/mT/uT/G as mu_B B),
+ * "electric field" (V/m .. au_field), "length", "magnetic field"
+ * (tesla, gauss, au_bfield); NULL past the end. */
+LVS_API const char *lvs_unit_at(size_t i, const char **kind);
+/* the kind of a unit name (STATIC string), NULL if unknown. */
+LVS_API const char *lvs_unit_kind(const char *name);
+/* *out = value expressed in `to` (same kind as `from`). LVS_EINVAL for an
+ * unknown unit or different kinds (*out untouched). */
+LVS_API int lvs_unit_convert(lvs_ctx *ctx, double value, const char *from, const char *to, double *out);
+
 /* @@FEATURE-DECLARATIONS@@ (features add their sections above this line) */
 
 /* ---- embedding --------------------------------------------------------- */

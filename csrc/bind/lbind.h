@@ -51,6 +51,7 @@ void lvsL_open_box(lua_State *L, int ctxidx);
 void lvsL_open_rotor(lua_State *L, int ctxidx);
 void lvsL_open_radial(lua_State *L, int ctxidx);
 void lvsL_open_solve_series(lua_State *L, int ctxidx);
+void lvsL_open_units(lua_State *L, int ctxidx);
 /* @@FEATURE-OPENERS@@ */
 
 /* register funcs with the ctx userdata as upvalue into table at -1 */
