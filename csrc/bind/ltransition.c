@@ -31,7 +31,7 @@ static lvs_pulse **newpulse(lua_State *L) {
 
 static lvs_pulse *checkpulse(lua_State *L, int idx) {
   lvs_pulse **p = luaL_checkudata(L, idx, LVS_PULSE_MT);
-  if (!*p) luaL_error(L, "attempt to use a freed pulse");
+  if (!*p) luaL_argerror(L, idx, "attempt to use a freed pulse");
   return *p;
 }
 
@@ -222,7 +222,7 @@ static lvs_transition **newtr(lua_State *L) {
 
 static lvs_transition *checktr(lua_State *L, int idx) {
   lvs_transition **p = luaL_checkudata(L, idx, LVS_TRANSITION_MT);
-  if (!*p) luaL_error(L, "attempt to use a freed transition");
+  if (!*p) luaL_argerror(L, idx, "attempt to use a freed transition");
   return *p;
 }
 
@@ -280,10 +280,11 @@ static int l_transition(lua_State *L) {
     }
   }
   lua_getfield(L, 1, "from");
-  if (!lua_isinteger(L, -1))
+  int isint = 0;
+  lua_Integer from = lua_type(L, -1) == LUA_TNUMBER ? lua_tointegerx(L, -1, &isint) : 0;
+  if (!isint)
     return luaL_error(L, "bad argument #1 to 'transition' (field 'from' must be an integer level, got %s)",
                       lua_isnil(L, -1) ? "nil" : luaL_tolstring(L, -1, NULL));
-  lua_Integer from = lua_tointeger(L, -1);
   lua_pop(L, 1);
   if (from < 1 || (size_t)from > n)
     return luaL_error(L, "bad argument #1 to 'transition' (from = %d is out of range 1..%d)", (int)from, (int)n);

@@ -80,7 +80,7 @@ int lvs_golden_rate(lvs_ctx *ctx, const lvs_golden_spec *sp, lvs_golden_result *
     }
     out->spacing = n > 1 ? (hi - lo) / (double)(n - 1) : 0;
     out->bandwidth = hi - lo;
-    if (n > 1 && sp->broadening < out->spacing) {
+    if (n > 1 && sp->broadening < out->spacing * (1 - 1e-9)) { /* slack for the rounded spacing */
       char msg[160];
       snprintf(msg, sizeof msg, "broadening %.3g is below the mean level spacing %.3g: the band does not act as a continuum",
                sp->broadening, out->spacing);
