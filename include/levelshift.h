@@ -471,6 +471,42 @@ LVS_API int lvs_wigner_3j(lvs_ctx *ctx, int two_j1, int two_j2, int two_j3, int 
  * fundamental physical constants: 2018", Rev. Mod. Phys. 93, 025010 (2021). */
 typedef struct {
   const char *name;   /* e.g. "mu_B", "E_h", "alpha" */
+/* ---- structure, radial grids, linear-solve series (blocks.c, radial.c,
+ * solve_series.c) ---------------------------------------------------------
+ * Block assembly: blk is an nbr x nbc row-major grid of operators (NULL = a
+ * zero block); every block row and column needs at least one operator to
+ * fix its size. Result sparse (dense above 25% fill). Padded operators give
+ * their visible block. */
+LVS_API int lvs_matrix_blocks(lvs_ctx *ctx, size_t nbr, size_t nbc,
+                              const lvs_matrix *const *blk, lvs_matrix **out);
+/* Largest |i - j| over nonzero entries of the visible block. */
+LVS_API int lvs_matrix_bandwidth(const lvs_matrix *m, size_t *band);
+/* Finite-difference radial Hamiltonian H_l = -u''/2 + l(l+1)/(2r^2) - Z/r on
+ * r_i = i rmax/(n+1), i = 1..n, u(0) = u(rmax) = 0 (tridiagonal, sparse),
+ * and the diagonal operator r. Either output may be NULL. */
+LVS_API int lvs_radial(lvs_ctx *ctx, size_t n, double rmax, int l, double charge,
+                       lvs_matrix **h, lvs_matrix **r);
+/* RS series of one non-degenerate level of a real symmetric sparse/banded H0
+ * under lambda V to order 1..1000 by one banded solve per order
+ * (Dalgarno-Lewis); needs one eigenpair of H0 (computed when state is
+ * NULL: level is 0-based ascending). energy NAN: the Rayleigh quotient of
+ * state. States psi(0..order-1) (E(order) needs no more), intermediate
+ * normalization, unit psi(0). */
+typedef struct { size_t level; const double *state; double energy; } lvs_dlseries_opts;
+typedef struct lvs_dlseries lvs_dlseries;
+LVS_API int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
+                             const lvs_dlseries_opts *opts, lvs_dlseries **out);
+LVS_API void lvs_dlseries_free(lvs_dlseries *s);
+LVS_API size_t lvs_dlseries_dim(const lvs_dlseries *s);
+LVS_API int lvs_dlseries_order(const lvs_dlseries *s);
+LVS_API size_t lvs_dlseries_band(const lvs_dlseries *s);    /* bandwidth of H0 used */
+LVS_API double lvs_dlseries_gap(const lvs_dlseries *s);     /* to nearest level, NAN if state given */
+LVS_API const char *lvs_dlseries_solver(const lvs_dlseries *s); /* "dpttrf", "dgbtrf", ... */
+LVS_API int lvs_dlseries_energy(const lvs_dlseries *s, int k, double *e); /* k = 0..order */
+LVS_API const double *lvs_dlseries_state(const lvs_dlseries *s, int k);  /* BORROWED, n values; NULL if k >= order */
+/* sum_k lambda^k E(k) through order (order < 0: all) */
+LVS_API int lvs_dlseries_at(const lvs_dlseries *s, double lambda, int order, double *e);
+
   double value;       /* SI unless `unit` says otherwise */
   double uncertainty; /* standard uncertainty in the same unit; 0 = exact */
   const char *unit;   /* e.g. "J T^-1"; "" = dimensionless */
@@ -527,40 +563,5 @@ LVS_API int lvs_host_add_path(lvs_host *h, const char *dir);
 
 #ifdef __cplusplus
 }
-/* ---- structure, radial grids, linear-solve series (blocks.c, radial.c,
- * solve_series.c) ---------------------------------------------------------
- * Block assembly: blk is an nbr x nbc row-major grid of operators (NULL = a
- * zero block); every block row and column needs at least one operator to
- * fix its size. Result sparse (dense above 25% fill). Padded operators give
- * their visible block. */
-LVS_API int lvs_matrix_blocks(lvs_ctx *ctx, size_t nbr, size_t nbc,
-                              const lvs_matrix *const *blk, lvs_matrix **out);
-/* Largest |i - j| over nonzero entries of the visible block. */
-LVS_API int lvs_matrix_bandwidth(const lvs_matrix *m, size_t *band);
-/* Finite-difference radial Hamiltonian H_l = -u''/2 + l(l+1)/(2r^2) - Z/r on
- * r_i = i rmax/(n+1), i = 1..n, u(0) = u(rmax) = 0 (tridiagonal, sparse),
- * and the diagonal operator r. Either output may be NULL. */
-LVS_API int lvs_radial(lvs_ctx *ctx, size_t n, double rmax, int l, double charge,
-                       lvs_matrix **h, lvs_matrix **r);
-/* RS series of one non-degenerate level of a real symmetric sparse/banded H0
- * under lambda V to order 1..1000 by one banded solve per order
- * (Dalgarno-Lewis); needs one eigenpair of H0 (computed when state is
- * NULL: level is 0-based ascending). energy NAN: the Rayleigh quotient of
- * state. States psi(0..order), intermediate normalization, unit psi(0). */
-typedef struct { size_t level; const double *state; double energy; } lvs_dlseries_opts;
-typedef struct lvs_dlseries lvs_dlseries;
-LVS_API int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
-                             const lvs_dlseries_opts *opts, lvs_dlseries **out);
-LVS_API void lvs_dlseries_free(lvs_dlseries *s);
-LVS_API size_t lvs_dlseries_dim(const lvs_dlseries *s);
-LVS_API int lvs_dlseries_order(const lvs_dlseries *s);
-LVS_API size_t lvs_dlseries_band(const lvs_dlseries *s);    /* bandwidth of H0 used */
-LVS_API double lvs_dlseries_gap(const lvs_dlseries *s);     /* to nearest level, NAN if state given */
-LVS_API const char *lvs_dlseries_solver(const lvs_dlseries *s); /* "dpttrf", "dgbtrf", ... */
-LVS_API int lvs_dlseries_energy(const lvs_dlseries *s, int k, double *e); /* k = 0..order */
-LVS_API const double *lvs_dlseries_state(const lvs_dlseries *s, int k);  /* BORROWED, n values */
-/* sum_k lambda^k E(k) through order (order < 0: all) */
-LVS_API int lvs_dlseries_at(const lvs_dlseries *s, double lambda, int order, double *e);
-
 #endif
 #endif

@@ -13,7 +13,7 @@
 
 static lvs_dlseries *checkds(lua_State *L, int idx) {
   lvs_dlseries **p = luaL_checkudata(L, idx, LVS_SOLVESERIES_MT);
-  if (!*p) luaL_error(L, "attempt to use a closed series");
+  if (!*p) luaL_argerror(L, idx, "attempt to use a closed series");
   return *p;
 }
 
@@ -59,6 +59,10 @@ static int ds_state(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_dlseries *s = checkds(L, 1);
   int k = checkk(L, s, 2);
+  if (k == lvs_dlseries_order(s)) {
+    lua_pushfstring(L, "the state of order %d needs a series of order %d", k, k + 1);
+    return luaL_argerror(L, 2, lua_tostring(L, -1));
+  }
   size_t n = lvs_dlseries_dim(s);
   lvs_matrix **out = lvsL_newmatrix(L);
   lvsL_check(L, ctx, lvs_matrix_new(ctx, n, 1, 0, out), "state");

@@ -782,7 +782,18 @@ double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) 
     if (pj) *pj = 0;
     return INFINITY;
   }
-  if (a->sparse && !a->vis) {
+  if (a->sparse && !a->vis && !a->cplx) { /* real: no complex arithmetic */
+    for (size_t j = 0; j < a->cols; j++)
+      for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
+        size_t i = a->ri[k], t = sp_find(a, j, i);
+        double d = fabs(a->a[k] - (t == SIZE_MAX ? 0.0 : a->a[t]));
+        if (d > worst || isnan(d)) {
+          worst = isnan(d) ? INFINITY : d;
+          wi = i;
+          wj = j;
+        }
+      }
+  } else if (a->sparse && !a->vis) {
     for (size_t j = 0; j < a->cols; j++)
       for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
         size_t i = a->ri[k];

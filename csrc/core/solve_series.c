@@ -30,7 +30,7 @@ struct lvs_dlseries {
   size_t n;
   int order;
   double *E;   /* E(0..order) */
-  double *psi; /* psi(0..order), n each, column k at psi + k n */
+  double *psi; /* psi(0..order-1), n each, column k at psi + k n */
   size_t band;
   double gap;  /* distance to the nearest other level (computed pairs), or NAN */
   const char *solver;
@@ -64,7 +64,7 @@ int lvs_dlseries_energy(const lvs_dlseries *s, int k, double *e) {
 }
 
 const double *lvs_dlseries_state(const lvs_dlseries *s, int k) {
-  if (k < 0 || k > s->order) return NULL;
+  if (k < 0 || k >= s->order) return NULL;
   return s->psi + (size_t)k * s->n;
 }
 
@@ -308,7 +308,7 @@ static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, 
   size_t ca = 0, cb = n; /* Sturm counts at a and bb: ca <= level < cb */
   double x[LANES];
   size_t cnt[LANES];
-  int extra = 0, retries = 0;
+  int extra = 0, retries = 0, comp_found = 0;
   for (;;) {
     /* narrow [a, bb] until eigenvalue `level` is alone in it (then `extra`
      * more passes) */
@@ -341,40 +341,76 @@ static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, 
       }
       if (bb - a < 1e-15 * scale) break;
     }
+    /* the eigenvector lives in one diagonal block (a run of nonzero
+     * off-diagonals) when H0 splits: find it by Sturm counts per block */
+    size_t s0 = 0, s1 = n;
+    if (!comp_found) {
+      size_t start = 0;
+      for (size_t i = 0; i < n; i++) {
+        if (i + 1 < n && e2[i] != 0.0) continue;
+        /* block [start, i] */
+        if (start > 0 || i + 1 < n) {
+          double qa = 1.0, qb = 1.0;
+          size_t na = 0, nb = 0;
+          for (size_t j = start; j <= i; j++) {
+            double ej = j > start ? e2[j - 1] : 0.0;
+            qa = (d[j] - a) - (j > start ? ej / qa : 0.0);
+            if (fabs(qa) < pivmin) qa = -pivmin;
+            qb = (d[j] - bb) - (j > start ? ej / qb : 0.0);
+            if (fabs(qb) < pivmin) qb = -pivmin;
+            na += qa < 0;
+            nb += qb < 0;
+          }
+          if (nb > na) {
+            s0 = start;
+            s1 = i + 1;
+          }
+        }
+        start = i + 1;
+      }
+      comp_found = 1;
+    }
+    size_t m = s1 - s0;
     /* Rayleigh-quotient iteration from the middle of [a, bb] */
     double sigma = 0.5 * (a + bb);
-    for (size_t i = 0; i < n; i++) vec[i] = 1.0 + 1e-3 * (double)(i % 7);
+    memset(vec, 0, n * sizeof(double));
+    for (size_t i = s0; i < s1; i++) vec[i] = 1.0 + 1e-3 * (double)(i % 7);
     double rho = sigma, rprev = INFINITY;
     const double eps = 2.220446049250313e-16;
     int ok = 0;
     for (int it = 0; it < 10; it++) {
-      for (size_t i = 0; i < n; i++) {
-        dd[i] = d[i] - sigma;
-        if (i + 1 < n) dl[i] = du[i] = hb[2 * i + 1];
+      double *vs = vec + s0;
+      const double *ds = d + s0, *es = hb + 2 * s0 + 1; /* off-diagonal es[2 i] */
+      for (size_t i = 0; i < m; i++) {
+        dd[i] = ds[i] - sigma;
+        if (i + 1 < m) dl[i] = du[i] = es[2 * i];
       }
-      lapack_int info = LAPACKE_dgttrf((lapack_int)n, dl, dd, du, du2, ipiv);
+      lapack_int info = LAPACKE_dgttrf((lapack_int)m, dl, dd, du, du2, ipiv);
       if (info > 0) dd[info - 1] = pivmin; /* sigma is an eigenvalue to working precision */
-      double nv = sqrt(dot(n, vec, vec));
-      for (size_t i = 0; i < n; i++) vec[i] /= nv;
-      info = LAPACKE_dgttrs_work(LAPACK_COL_MAJOR, 'N', (lapack_int)n, 1, dl, dd, du, du2, ipiv, vec,
-                                 (lapack_int)n);
+      double nv = sqrt(dot(m, vs, vs));
+      for (size_t i = 0; i < m; i++) vs[i] /= nv;
+      info = LAPACKE_dgttrs_work(LAPACK_COL_MAJOR, 'N', (lapack_int)m, 1, dl, dd, du, du2, ipiv, vs,
+                                 (lapack_int)m);
       if (info) {
         st = lvsi_fail(ctx, LVS_ELAPACK, "dgttrs failed (info %d)", (int)info);
         goto done;
       }
-      nv = sqrt(dot(n, vec, vec));
-      for (size_t i = 0; i < n; i++) vec[i] /= nv;
-      /* rho = v^T T v, residual |T v - rho v| */
-      double r2 = 0.0;
+      nv = sqrt(dot(m, vs, vs));
+      /* rho = v^T T v / v^T v, residual |T v - rho v| / |v| */
+      double inv = 1.0 / nv, r2 = 0.0;
       rho = 0.0;
-      for (size_t i = 0; i < n; i++) {
-        double tv = d[i] * vec[i];
-        if (i > 0) tv += hb[2 * (i - 1) + 1] * vec[i - 1];
-        if (i + 1 < n) tv += hb[2 * i + 1] * vec[i + 1];
-        rho += vec[i] * tv;
+      for (size_t i = 0; i < m; i++) {
+        vs[i] *= inv;
+        double tv = ds[i] * vs[i];
+        if (i > 0) tv += es[2 * (i - 1)] * vs[i - 1] * 1.0;
         dd[i] = tv;
       }
-      for (size_t i = 0; i < n; i++) r2 += (dd[i] - rho * vec[i]) * (dd[i] - rho * vec[i]);
+      for (size_t i = 0; i + 1 < m; i++) {
+        dd[i] += es[2 * i] * vs[i + 1];
+        rho += vs[i] * dd[i];
+      }
+      rho += vs[m - 1] * dd[m - 1];
+      for (size_t i = 0; i < m; i++) r2 += (dd[i] - rho * vs[i]) * (dd[i] - rho * vs[i]);
       double r = sqrt(r2);
       if (!(rho > a && rho < bb)) break; /* converging to another level: narrow more */
       if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-9 * scale)) {
@@ -433,7 +469,7 @@ static int find_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t b, size_t 
       }
     lvsi_free(ctx, d);
   } else if (b == 1) {
-    double ev;
+    double ev = 0.0;
     if ((st = tridiag_pair(ctx, hb, n, level, &ev, vec))) return st;
     lo = hi = level;
     w[0] = ev;
@@ -554,7 +590,7 @@ int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
   s->band = b;
   s->gap = NAN;
   s->E = lvsi_calloc(ctx, (size_t)order + 1, sizeof(double));
-  s->psi = lvsi_calloc(ctx, ((size_t)order + 1) * n, sizeof(double));
+  s->psi = lvsi_calloc(ctx, (size_t)order * n, sizeof(double));
   hb = lvsi_malloc(ctx, (b + 1) * n * sizeof(double));
   tmp = lvsi_malloc(ctx, 2 * n * sizeof(double));
   if (!s->E || !s->psi || !hb || !tmp) {
@@ -608,6 +644,7 @@ int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
     const double *prev = s->psi + (size_t)(k - 1) * n;
     if ((st = lvs_matrix_apply(Vm, 0, prev, vpsi))) goto done;
     s->E[k] = dot(n, nvec, vpsi);
+    if (k == order) break; /* psi(order) is not needed for E(order) */
     double *y = s->psi + (size_t)k * n;
     /* rhs = V psi(k-1) - sum_{j=1..k} E(j) psi(k-j); y = -Q rhs */
     for (size_t i = 0; i < n; i++) y[i] = -vpsi[i];

@@ -19,6 +19,32 @@
 #include <stdlib.h>
 #include <string.h>
 #include "levelshift.h"
+#if defined(__GLIBC__)
+#include <malloc.h>
+#include <stdint.h>
+#include <sys/mman.h>
+#include <unistd.h>
+#endif
+
+/* Large models churn through arrays of a few MB (grids of 1e5 points,
+ * sparse operators): on virtual machines every first touch of a 4 KiB page
+ * costs a trap. So the program (not the library: embedders keep their own
+ * policy) keeps freed memory in the heap instead of returning it, and asks
+ * for transparent huge pages on the first 128 MiB of heap. Pages are only
+ * committed when touched. */
+static void tune_memory(void) {
+#if defined(__GLIBC__) && defined(MADV_HUGEPAGE)
+  mallopt(M_MMAP_THRESHOLD, 256 << 20);
+  mallopt(M_TRIM_THRESHOLD, 1 << 30);
+  void *p = malloc(128u << 20); /* grows the heap (virtual memory only) */
+  if (!p) return;
+  const uintptr_t huge = (uintptr_t)2 << 20;
+  uintptr_t lo = ((uintptr_t)p + huge - 1) & ~(huge - 1);
+  uintptr_t hi = (uintptr_t)sbrk(0) & ~(huge - 1);
+  if (hi > lo) madvise((void *)lo, hi - lo, MADV_HUGEPAGE);
+  free(p);
+#endif
+}
 
 static void usage(FILE *f) {
   fprintf(f,
@@ -154,6 +180,7 @@ static int sweep_run_options(lua_State *L, int *argc, char **argv) {
 }
 
 int main(int argc, char **argv) {
+  tune_memory();
   if (argc < 2) {
     usage(stderr);
     return 2;

@@ -164,6 +164,10 @@ describe("perturb_solve", function()
     for k = 0, 3 do assert.near(b:energy(k), a:energy(k), 1e-11) end
     local psi = a:state(1)
     assert.near(0, (col:adj() * psi):get(1, 1), 1e-12) -- intermediate normalization
+    -- (E0 - H0) psi(1) = (V - E1) psi(0) (first-order equation, METHODS.md 1)
+    local lhs = (E[3] - H0) * psi + (a:energy(1) - V) * col
+    for i = 1, 10 do assert.near(0, (lhs:get(i, 1)), 1e-10) end
+    assert.error_matches(function() a:state(3) end, "the state of order 3 needs a series of order 4", 1, true)
     col:set(1, 1, 1.0)
     assert.error_matches(function() ls.perturb_solve(H0, V, { state = col }) end,
       "bad argument #3 to 'perturb_solve' (state is not an eigenvector of H0", 1, true)
