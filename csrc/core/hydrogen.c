@@ -221,6 +221,12 @@ int lvs_coulomb_basis(lvs_ctx *ctx, const lvs_coulomb_spec *spec, lvs_basis **ou
     for (size_t j = 0; j < N; j++)
       for (size_t i = 0; i < N; i++)
         c[i + j * N] = -0.5 * kappa * kappa * S[i + j * N] + (i == j ? kappa * ((double)i + l + 1.0) - Z : 0.0);
+    for (size_t q = 0; q < N * N; q++)
+      if (!isfinite(c[q]) || !isfinite(S[q])) {
+        st = lvsi_fail(ctx, LVS_EINVAL, "kappa = %g with Z = %g overflows the matrix elements at l = %d (use a kappa near Z/n)",
+                       kappa, Z, l);
+        goto done;
+      }
     lapack_int info = LAPACKE_dsygv(LAPACK_COL_MAJOR, 1, 'V', 'L', (lapack_int)N, c, (lapack_int)N, S,
                                     (lapack_int)N, E + (size_t)l * N);
     if (info < 0) {
@@ -232,6 +238,12 @@ int lvs_coulomb_basis(lvs_ctx *ctx, const lvs_coulomb_spec *spec, lvs_basis **ou
                      l, (int)info);
       goto done;
     }
+    for (size_t q = 0; q < N; q++)
+      if (!isfinite(E[(size_t)l * N + q])) {
+        st = lvsi_fail(ctx, LVS_EINVAL, "kappa = %g with Z = %g gives non-finite energies at l = %d (use a kappa near Z/n)",
+                       kappa, Z, l);
+        goto done;
+      }
     /* phase: the radial function is positive near r = 0, where
      * p_k(0) is proportional to sqrt((k+alpha)!/k!) > 0 */
     for (size_t j = 0; j < N; j++) {
@@ -271,6 +283,12 @@ int lvs_coulomb_basis(lvs_ctx *ctx, const lvs_coulomb_spec *spec, lvs_basis **ou
     sandwich(N, N, C + (size_t)l * N * N, M, N, C + (size_t)(l + 1) * N * N, tmp, D + (size_t)l * N * N);
   }
 
+  for (size_t q = 0; q < L1 * N * N; q++)
+    if (!isfinite(R1[q]) || !isfinite(R2[q]) || !isfinite(D[q])) {
+      st = lvsi_fail(ctx, LVS_EINVAL, "kappa = %g with Z = %g overflows the radial integrals (use a kappa near Z/n)",
+                     kappa, Z);
+      goto done;
+    }
   /* states, sorted by energy; near-equal energies (within 1e-9 relative)
    * ordered by l, m, rank so degenerate shells come out the same way on
    * every machine */

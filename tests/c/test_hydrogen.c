@@ -178,6 +178,12 @@ int main(void) {
   CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL, "kappa 0");
   bad.kappa = NAN;
   CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL, "kappa NaN");
+  bad.kappa = 1e300;
+  CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL && b == NULL, "kappa overflow");
+  CHECK(strstr(lvs_errmsg(ctx), "overflows") != NULL, "msg: %s", lvs_errmsg(ctx));
+  bad.kappa = 1e-300;
+  CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL && b == NULL, "kappa underflow");
+  CHECK(strstr(lvs_errmsg(ctx), "overflows") != NULL, "msg: %s", lvs_errmsg(ctx));
   bad.kappa = 0.5;
   bad.Z = -1.0;
   CHECK(lvs_coulomb_basis(ctx, &bad, &b) == LVS_EINVAL, "Z < 0");
