@@ -360,15 +360,19 @@ local function report(m, show_levels, show_order, show_exact)
   local ok, res = pcall(ls.perturb, m.H0, m.V, { order = show_order, levels = levels })
   if ok then s = res else serr = clean(res) end
   local E0
-  if not s then E0 = ls.eigen(m.H0, { count = count, vectors = false }) end
+  if not s and show_exact then
+    local ok0, r0 = pcall(ls.eigen, m.H0, { count = count, vectors = false })
+    if ok0 then E0 = r0 end
+  end
   local head = string.format("%5s  %16s", "level", "E0")
   for k = 1, show_order do head = head .. string.format("  %14s", "E" .. k) end
   head = head .. string.format("  %16s", "sum to order " .. show_order)
   if E then head = head .. string.format("  %16s", "exact (H0+V)") end
   w(head .. "\n")
   for i = 1, count do
-    local e0 = s and s:energy(i, 0) or E0[i]
-    local line = string.format("%5d  %16.10g", i, e0 + 0.0) -- + 0.0 turns -0 into 0
+    local e0 = s and s:energy(i, 0) or (E0 and E0[i])
+    local line = e0 and string.format("%5d  %16.10g", i, e0 + 0.0) -- + 0.0 turns -0 into 0
+      or string.format("%5d  %16s", i, "-")
     local sum = 0
     if s then
       for k = 0, show_order do
