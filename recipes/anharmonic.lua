@@ -11,7 +11,8 @@ the core's padded oscillator operators, exact inside the `levels` kept states.
 
 Published series (omega = 1), level n:
   quartic: E1 = quartic (3/4)(2n^2 + 2n + 1),
-           E2 = -quartic^2 (1/8)(34n^3 + 51n^2 + 59n + 21);
+           E2 = -quartic^2 (1/8)(34n^3 + 51n^2 + 59n + 21) (level-n form
+           from memory; n = 0 gives the -21/8 below);
            ground state 1/2 + 3/4 g - 21/8 g^2 + 333/16 g^3 - 30885/128 g^4 ...
            (Bender & Wu, Phys. Rev. 184, 1231 (1969); the series diverges:
            zero radius of convergence)

@@ -16,7 +16,8 @@ order (E1 = 0, E2 = -g^2/(2 mass omega^2), all higher orders 0) for levels
 far enough from the basis edge (n + 2 < levels at second order).
 model.exact(level) returns omega (level - 1/2) - g^2/(2 mass omega^2)
 (level numbered from 1). Source: any quantum mechanics text, e.g.
-Sakurai & Napolitano, Modern Quantum Mechanics, 2nd ed. (2011), problem 5.1.]],
+Sakurai & Napolitano, Modern Quantum Mechanics, 2nd ed. (2011), the
+chapter 5 problems (problem number from memory: 5.1).]],
   params = {
     { name = "g", default = 0.1, unit = "energy/length", about = "constant force: V = g x" },
     { name = "mass", default = 1, unit = "mass", about = "oscillator mass", positive = true },

@@ -57,7 +57,8 @@ describe("ls.recipe", function()
     assert.truthy(m.doc:find("H0", 1, true))
     local s = ls.perturb(m.H0, m.V, { order = 4, levels = { 1, 2, 3 } })
     -- source: completing the square, V = g x shifts every level by -g^2/(2 m omega^2)
-    -- (Sakurai & Napolitano, Modern Quantum Mechanics, 2nd ed. 2011, problem 5.1)
+    -- (Sakurai & Napolitano, Modern Quantum Mechanics, 2nd ed. 2011, chapter 5 problems;
+    -- problem number 5.1 from memory)
     local e2 = -0.385 ^ 2 / (2 * 2.3 * 1.7 ^ 2)
     for level = 1, 3 do
       assert.near(1.7 * (level - 0.5), s:energy(level, 0), 1e-12)
