@@ -17,7 +17,8 @@ Published series (omega = 1), level n:
            (Bender & Wu, Phys. Rev. 184, 1231 (1969); the series diverges:
            zero radius of convergence)
   cubic:   E1 = 0, E2 = -cubic^2 (1/8)(30n^2 + 30n + 11)
-           (Landau & Lifshitz, Quantum Mechanics, sec. 38, problem 3)
+           (Landau & Lifshitz, Quantum Mechanics, sec. 38, problem 3; section
+           and problem numbers from memory)
 With both terms the second order is the sum of the two (parity kills the
 cross term). A cubic term alone has no ground state (x^3 unbounded below):
 the truncated basis hides that, so trust only low orders there.]],

@@ -40,7 +40,7 @@ describe("recipe anharmonic", function()
       -- source: Bender & Wu (1969), level n: E1 = (3/4)(2n^2+2n+1) g,
       -- E2 = -(1/8)(34n^3+51n^2+59n+21) g^2 (x^4 term; the level-n polynomial
       -- from memory, its n = 0 value -21/8 as in the ground-state series above);
-      -- Landau & Lifshitz, Quantum Mechanics, sec. 38 problem 3: E2 = -(1/8)(30n^2+30n+11) k^2 (x^3 term);
+      -- Landau & Lifshitz, Quantum Mechanics, sec. 38 problem 3 (numbers from memory): E2 = -(1/8)(30n^2+30n+11) k^2 (x^3 term);
       -- parity removes the cross term
       local e1 = 0.75 * (2 * n * n + 2 * n + 1) * q
       local e2 = -(34 * n ^ 3 + 51 * n ^ 2 + 59 * n + 21) * q ^ 2 / 8 - (30 * n ^ 2 + 30 * n + 11) * k3 ^ 2 / 8
