@@ -155,6 +155,7 @@ typedef struct {
   double *buf;
   lapack_int *ibuf;
   size_t *piv;
+  double *rr; /* Rayleigh-Ritz: n x count + count x count */
 } band_scratch;
 
 static size_t band_need(size_t n, size_t kd) { return 2 * (kd + 1) * n + 2 * n + 4 * n + (3 * kd + 1) * n + 2 * n; }
@@ -165,7 +166,8 @@ static int band_scratch_get(lvs_ctx *tctx, const model *md, band_scratch *bs) {
   bs->buf = lvsi_malloc(tctx, band_need(n, (size_t)md->kd) * sizeof(double));
   bs->ibuf = lvsi_malloc(tctx, 5 * n * sizeof(lapack_int));
   bs->piv = lvsi_malloc(tctx, n * sizeof(size_t));
-  if (!bs->buf || !bs->ibuf || !bs->piv) return lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
+  bs->rr = lvsi_malloc(tctx, (n * md->count + md->count * md->count) * sizeof(double));
+  if (!bs->buf || !bs->ibuf || !bs->piv || !bs->rr) return lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
   return LVS_OK;
 }
 
@@ -173,6 +175,8 @@ static void band_scratch_free(lvs_ctx *tctx, band_scratch *bs) {
   lvsi_free(tctx, bs->buf);
   lvsi_free(tctx, bs->ibuf);
   lvsi_free(tctx, bs->piv);
+  lvsi_free(tctx, bs->rr);
+  bs->rr = NULL;
   bs->buf = NULL;
   bs->ibuf = NULL;
   bs->piv = NULL;
@@ -226,11 +230,12 @@ static void band_solve(size_t n, size_t kd, const double *g, const size_t *ipiv,
 }
 
 /* band path: lowest m eigenvalues (and vectors, n x m real, when vec):
- * dsbtrd + dstebz to full accuracy; with vectors, two inverse-iteration
- * solves per level at the bisection shift, in the complement of the levels
- * already found, and the energy is the Rayleigh quotient of the vector
- * (Parlett, The Symmetric Eigenvalue Problem, 1980, ch. 4: its error is
- * quadratic in the vector's). Pairs are returned ascending. */
+ * dsbtrd + dstebz, to full accuracy without vectors; with vectors the
+ * bisection stops at 1e-10 of the 1-norm, two inverse-iteration solves per
+ * level at that shift, in the complement of the levels already found, and a
+ * Rayleigh-Ritz step on the m vectors gives energies to rounding (error
+ * quadratic in the vectors'; Parlett, The Symmetric Eigenvalue Problem,
+ * 1980, ch. 4 and 11). Pairs ascending. */
 static int solve_band(const model *md, double p, size_t m, double *w, double *vec, band_scratch *bs, lvs_ctx *tctx) {
   size_t n = md->n, kd = (size_t)md->kd, ldab = kd + 1, ldg = 3 * kd + 1;
   double *buf = bs->buf;
@@ -254,7 +259,9 @@ static int solve_band(const model *md, double p, size_t m, double *w, double *ve
   lapack_int info = LAPACKE_dsbtrd_work(LAPACK_COL_MAJOR, 'N', 'L', (lapack_int)n, (lapack_int)kd, ab,
                                         (lapack_int)ldab, d, e, &qdummy, 1, work);
   lapack_int mfound = 0, nsplit = 0;
-  double abstol = 0.0;
+  /* with vectors the bisection may stop early: the Rayleigh-Ritz step below
+   * makes the energies exact to rounding */
+  double abstol = vec ? 1e-10 * onenrm : 0.0;
   if (!info)
     info = LAPACKE_dstebz_work('I', 'E', (lapack_int)n, 0, 0, 1, (lapack_int)m, abstol, d, e, &mfound, &nsplit,
                                wfull, iblock, isplit, work, iwork);
@@ -292,32 +299,45 @@ static int solve_band(const model *md, double p, size_t m, double *w, double *ve
         return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed for level %zu", j + 1);
       for (size_t i = 0; i < n; i++) xv[i] /= nn;
     }
-    /* energy: the Rayleigh quotient x^T H x of the converged vector */
-    for (size_t i = 0; i < n; i++) y[i] = 0;
+  }
+  /* Rayleigh-Ritz on span(X): G = X^T H X, G = Q diag(w) Q^T, X <- X Q
+   * (Parlett, The Symmetric Eigenvalue Problem, 1980, ch. 11): energies
+   * to rounding, and clusters the inverse iteration left mixed resolved */
+  double *Y = bs->rr, *G = Y + n * m;
+  for (size_t j = 0; j < m; j++) {
+    const double *xv = vec + j * n;
+    double *yv = Y + j * n;
+    for (size_t i = 0; i < n; i++) yv[i] = 0;
     for (size_t c = 0; c < n; c++) {
-      y[c] += hb[c * ldab] * xv[c];
+      yv[c] += hb[c * ldab] * xv[c];
       for (size_t r = 1; r <= kd && c + r < n; r++) {
-        y[c + r] += hb[c * ldab + r] * xv[c];
-        y[c] += hb[c * ldab + r] * xv[c + r];
+        yv[c + r] += hb[c * ldab + r] * xv[c];
+        yv[c] += hb[c * ldab + r] * xv[c + r];
       }
     }
-    double rq = 0;
-    for (size_t i = 0; i < n; i++) rq += xv[i] * y[i];
-    shift = rq;
-    w[j] = shift;
-    /* sign: largest component positive */
+  }
+  for (size_t a = 0; a < m; a++)
+    for (size_t b = a; b < m; b++) {
+      double g = 0;
+      for (size_t i = 0; i < n; i++) g += vec[a * n + i] * Y[b * n + i];
+      G[a * m + b] = G[b * m + a] = g;
+    }
+  info = LAPACKE_dsyev(LAPACK_COL_MAJOR, 'V', 'L', (lapack_int)m, G, (lapack_int)m, w);
+  if (info) return lvsi_fail(tctx, LVS_ELAPACK, "band Rayleigh-Ritz failed (info %d)", (int)info);
+  for (size_t j = 0; j < m; j++) {
+    double *yv = Y + j * n;
+    for (size_t i = 0; i < n; i++) {
+      double acc = 0;
+      for (size_t q = 0; q < m; q++) acc += vec[q * n + i] * G[j * m + q];
+      yv[i] = acc;
+    }
     size_t at = 0;
     for (size_t i = 1; i < n; i++)
-      if (fabs(xv[i]) > fabs(xv[at])) at = i;
-    if (xv[at] < 0)
-      for (size_t i = 0; i < n; i++) xv[i] = -xv[i];
+      if (fabs(yv[i]) > fabs(yv[at])) at = i;
+    if (yv[at] < 0)
+      for (size_t i = 0; i < n; i++) yv[i] = -yv[i];
   }
-  /* ascending order (insertion sort of the pairs) */
-  for (size_t j = 1; j < m; j++)
-    for (size_t q = j; q > 0 && w[q] < w[q - 1]; q--) {
-      double t = w[q]; w[q] = w[q - 1]; w[q - 1] = t;
-      for (size_t i = 0; i < n; i++) { t = vec[q * n + i]; vec[q * n + i] = vec[(q - 1) * n + i]; vec[(q - 1) * n + i] = t; }
-    }
+  memcpy(vec, Y, n * m * sizeof(double));
   return LVS_OK;
 }
 
@@ -326,7 +346,7 @@ static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, do
                           double complex *vec, band_scratch *bs, const double *hfull) {
   size_t n = md->n;
   if (md->kd >= 0 && !hfull) {
-    band_scratch own = {NULL, NULL, NULL};
+    band_scratch own = {NULL, NULL, NULL, NULL};
     if (!bs) bs = &own;
     int st = band_scratch_get(tctx, md, bs);
     double *rv = NULL;
@@ -655,7 +675,7 @@ static void *work(void *arg) {
   }
   lvs_ctx_set_dense_cap(tctx, wk->dense_cap);
   shared_out *so = wk->so;
-  band_scratch bs = {NULL, NULL, NULL};
+  band_scratch bs = {NULL, NULL, NULL, NULL};
   unsigned char *rec = NULL;
   if (so->j) {
     rec = lvsi_malloc(tctx, so->j->recsize);
