@@ -250,6 +250,11 @@ LVS_API const char *lvs_effective_warnings(const lvs_effective *e); /* "" when n
  * RS series of the levels of H0 under lambda*V to order K (1..1000),
  * degenerate groups (relative tolerance degen_tol on H0's spectrum) lifted
  * by a recursive Bloch reduction. Levels are 0-based in ascending
+/* basis state (0-based) of group member i when H0 is diagonal, else SIZE_MAX */
+LVS_API size_t lvs_effective_state(const lvs_effective *e, size_t i);
+/* level (0-based, ascending energy, ties in basis order) of a basis state of a
+ * diagonal H0; LVS_EINVAL when H0 is not diagonal */
+LVS_API int lvs_level_of_state(const lvs_matrix *h0, size_t state, size_t *level);
  * unperturbed energy, inside a split group by ascending correction.
  * levels/nlevels select levels to compute (nlevels = 0: all). States are
  * in the original basis, complex interleaved, length dim; degenerate-group

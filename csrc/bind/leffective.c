@@ -2,9 +2,13 @@
  *
  *   h = ls.effective(H0, V, {levels = {1, 2}, order = K})
  *   h = ls.effective(H0, V, {window = {lo, hi}, order = K})
- *   h:term(k) -> op (d x d), k = 0..K;  h:at(lambda [, order]) -> op
- *   h:levels() -> {1-based levels};  h:dim();  h:order();  h:warnings() -> {strings}
- *   tostring(h): labelled printout of every term
+ *   h = ls.effective(H0, V, {basis = B, labels = {{n = 0}, {n = 1}}, order = K})
+ *   h:term(k) -> op (d x d);  h:at(lambda [, order]) -> op (rows, columns as h:labels())
+ *   h:levels() -> {1-based levels};  h:labels() -> {strings};  h:dim();
+ *   h:order();  h:warnings() -> {strings}
+ *   tostring(h): every term as a matrix labelled by the group's unperturbed
+ *   states (B:describe of the basis state when H0 is diagonal in the basis
+ *   B given as option 'basis', else "level k")
  */
 #include <math.h>
 #include <stdio.h>
@@ -30,7 +34,7 @@ static int l_effective(lua_State *L) {
   lvs_matrix *h0 = lvsL_checkmatrix(L, 1);
   lvs_matrix *v = lvsL_checkmatrix(L, 2);
   luaL_checktype(L, 3, LUA_TTABLE);
-  static const char *const known[] = {"levels", "window", "order", NULL};
+  static const char *const known[] = {"levels", "window", "labels", "basis", "order", NULL};
   lvsL_checkoptions(L, 3, known, "effective", 3);
   lua_Integer order = lvsL_optfield_int(L, 3, "order", 2, "effective", 3);
   if (order < 1 || order > 50) {
@@ -42,14 +46,61 @@ static int l_effective(lua_State *L) {
     lua_pushfstring(L, "H0 must be square, got %dx%d", (int)n, (int)lvs_matrix_cols(h0));
     return luaL_argerror(L, 1, lua_tostring(L, -1));
   }
+  /* the basis (labels of the printout, choice by labels) */
+  lua_getfield(L, 3, "basis");
+  int bidx = lua_gettop(L);
+  if (!lua_isnil(L, bidx)) {
+    if (!luaL_testudata(L, bidx, LVS_BASIS_MT)) return luaL_argerror(L, 3, "'basis' must be a basis");
+    lvs_basis *B = lvsL_checkbasis(L, bidx);
+    if (lvs_basis_dim(B) != n) {
+      lua_pushfstring(L, "'basis' has %d states but H0 is %dx%d", (int)lvs_basis_dim(B), (int)n, (int)n);
+      return luaL_argerror(L, 3, lua_tostring(L, -1));
+    }
+  }
+  lua_getfield(L, 3, "labels");
+  int labidx = lua_gettop(L);
+  int haslab = !lua_isnil(L, labidx);
+  size_t *lv = NULL, cnt = 0;
+  if (haslab) {
+    lua_getfield(L, 3, "levels");
+    lua_getfield(L, 3, "window");
+    int other = !lua_isnil(L, -1) || !lua_isnil(L, -2);
+    lua_pop(L, 2);
+    if (other) return luaL_argerror(L, 3, "give one of 'levels', 'window' or 'labels'");
+    if (lua_isnil(L, bidx)) return luaL_argerror(L, 3, "'labels' needs 'basis' = the basis H0 is written in");
+    if (!lua_istable(L, labidx)) return luaL_argerror(L, 3, "'labels' must be a list of state labels");
+    lua_Integer len = (lua_Integer)lua_rawlen(L, labidx);
+    if (len == 0) return luaL_argerror(L, 3, "the group of levels is empty");
+    if ((size_t)len > n) len = (lua_Integer)n + 1;
+    lv = lua_newuserdatauv(L, (size_t)len * sizeof(size_t), 0); /* GC-owned */
+    for (lua_Integer i = 1; i <= len; i++) {
+      /* B:find(labels[i]) in protected mode, so a miss names this function */
+      lua_getfield(L, bidx, "find");
+      lua_pushvalue(L, bidx);
+      lua_rawgeti(L, labidx, i);
+      if (lua_pcall(L, 2, 1, 0) != LUA_OK || !lua_isinteger(L, -1)) {
+        lua_pushfstring(L, "'labels'[%I] matches no state of the basis", i);
+        return luaL_argerror(L, 3, lua_tostring(L, -1));
+      }
+      size_t state = (size_t)lua_tointeger(L, -1) - 1, level;
+      lua_pop(L, 1);
+      if (lvs_level_of_state(h0, state, &level)) {
+        lua_pushfstring(L, "'labels' needs H0 diagonal in 'basis': %s", lvs_errmsg(ctx));
+        lvs_clear_error(ctx);
+        return luaL_argerror(L, 3, lua_tostring(L, -1));
+      }
+      lv[cnt++] = level;
+    }
+  }
   lua_getfield(L, 3, "levels");
   lua_getfield(L, 3, "window");
   int haslev = !lua_isnil(L, -2), haswin = !lua_isnil(L, -1);
-  if (haslev == haswin)
+  if (!haslab && haslev == haswin)
     return luaL_argerror(L, 3, haslev ? "give either 'levels' or 'window', not both"
-                                      : "give the group as 'levels' = {...} or 'window' = {lo, hi}");
-  size_t *lv = NULL, cnt = 0;
-  if (haslev) {
+                                      : "give the group as 'levels' = {...}, 'window' = {lo, hi} or 'labels' = {...}");
+  if (haslab) {
+    /* chosen above */
+  } else if (haslev) {
     if (!lua_istable(L, -2)) return luaL_argerror(L, 3, "'levels' must be a list of level numbers");
     lua_Integer len = (lua_Integer)lua_rawlen(L, -2);
     if (len == 0) return luaL_argerror(L, 3, "the group of levels is empty");
@@ -94,9 +145,11 @@ static int l_effective(lua_State *L) {
       return luaL_argerror(L, 3, lua_tostring(L, -1));
     }
   }
-  lvs_effective **out = lua_newuserdatauv(L, sizeof *out, 0);
+  lvs_effective **out = lua_newuserdatauv(L, sizeof *out, 1);
   *out = NULL;
   luaL_setmetatable(L, LVS_EFFECTIVE_MT);
+  lua_pushvalue(L, bidx);
+  lua_setiuservalue(L, -2, 1); /* the basis (or nil) */
   int st = lvs_effective_new(h0, v, lv, cnt, (int)order, out);
   if (st == LVS_ENOTHERM || st == LVS_EDIM) {
     int arg = strncmp(lvs_errmsg(ctx), "H0", 2) == 0 ? 1 : 2;
@@ -104,6 +157,39 @@ static int l_effective(lua_State *L) {
   }
   if (st == LVS_EINVAL || st == LVS_ERANGE) return argfail(L, ctx, 3);
   lvsL_check(L, ctx, st, "effective");
+  return 1;
+}
+
+/* push {label of member 1, ...}: B:describe(state) when H0 was diagonal in
+ * the basis given, else "level k" */
+static void push_labels(lua_State *L, int eidx, lvs_effective *e) {
+  size_t d = lvs_effective_dim(e);
+  const size_t *lv = lvs_effective_levels(e);
+  eidx = lua_absindex(L, eidx);
+  lua_getiuservalue(L, eidx, 1);
+  int hasb = !lua_isnil(L, -1);
+  int bidx = lua_gettop(L);
+  lua_createtable(L, (int)d, 0);
+  for (size_t i = 0; i < d; i++) {
+    size_t st = lvs_effective_state(e, i);
+    int done = 0;
+    if (hasb && st != (size_t)-1) {
+      lua_getfield(L, bidx, "describe");
+      lua_pushvalue(L, bidx);
+      lua_pushinteger(L, (lua_Integer)st + 1);
+      if (lua_pcall(L, 2, 1, 0) == LUA_OK && lua_type(L, -1) == LUA_TSTRING)
+        done = 1;
+      else
+        lua_pop(L, 1);
+    }
+    if (!done) lua_pushfstring(L, "level %d", (int)lv[i] + 1);
+    lua_rawseti(L, -2, (lua_Integer)i + 1);
+  }
+  lua_remove(L, bidx);
+}
+
+static int e_labels(lua_State *L) {
+  push_labels(L, 1, checkeff(L, 1));
   return 1;
 }
 
@@ -197,9 +283,20 @@ static int e_tostring(lua_State *L) {
   size_t d = lvs_effective_dim(e);
   const size_t *lv = lvs_effective_levels(e);
   int K = lvs_effective_order(e);
+  push_labels(L, 1, e);
+  int labs = lua_gettop(L);
+  /* label column width: the longest label, at most 24 characters */
+  size_t w = 5;
+  for (size_t i = 0; i < d; i++) {
+    lua_rawgeti(L, labs, (lua_Integer)i + 1);
+    size_t len = lua_rawlen(L, -1);
+    if (len > w) w = len;
+    lua_pop(L, 1);
+  }
+  if (w > 24) w = 24;
   luaL_Buffer b;
   luaL_buffinit(L, &b);
-  char buf[96];
+  char buf[128];
   snprintf(buf, sizeof buf, "levelshift.effective: %zu level%s, order %d, canonical Van Vleck\n levels:", d,
            d == 1 ? "" : "s", K);
   luaL_addstring(&b, buf);
@@ -215,10 +312,19 @@ static int e_tostring(lua_State *L) {
       break;
     }
     int cplx = lvs_matrix_is_complex(t);
-    snprintf(buf, sizeof buf, "\n order %d (coefficient of lambda^%d):", k, k);
+    int cw = cplx ? 26 : 13; /* width of one number as addnum writes it */
+    snprintf(buf, sizeof buf, "\n order %d (coefficient of lambda^%d):\n  %*s", k, k, (int)w, "");
     luaL_addstring(&b, buf);
+    for (size_t j = 0; j < d && j < 16; j++) { /* column heads: the labels, cut to the column width */
+      lua_rawgeti(L, labs, (lua_Integer)j + 1);
+      snprintf(buf, sizeof buf, " %*.*s", cw - 1, cw - 1, lua_tostring(L, -1));
+      lua_pop(L, 1);
+      luaL_addstring(&b, buf);
+    }
     for (size_t i = 0; i < d && i < 16; i++) {
-      snprintf(buf, sizeof buf, "\n  [%3zu]", lv[i] + 1);
+      lua_rawgeti(L, labs, (lua_Integer)i + 1);
+      snprintf(buf, sizeof buf, "\n  %-*.*s", (int)w, (int)w, lua_tostring(L, -1));
+      lua_pop(L, 1);
       luaL_addstring(&b, buf);
       for (size_t j = 0; j < d && j < 16; j++) {
         double re, im;
@@ -230,14 +336,14 @@ static int e_tostring(lua_State *L) {
     if (d > 16) luaL_addstring(&b, "\n  ...");
     lvs_matrix_free(t);
   }
-  const char *w = lvs_effective_warnings(e);
-  while (*w) {
-    const char *nl = strchr(w, '\n');
-    size_t len = nl ? (size_t)(nl - w) : strlen(w);
+  const char *wn = lvs_effective_warnings(e);
+  while (*wn) {
+    const char *nl = strchr(wn, '\n');
+    size_t len = nl ? (size_t)(nl - wn) : strlen(wn);
     luaL_addstring(&b, "\n warning: ");
-    luaL_addlstring(&b, w, len);
-    w += len;
-    if (*w == '\n') w++;
+    luaL_addlstring(&b, wn, len);
+    wn += len;
+    if (*wn == '\n') wn++;
   }
   luaL_pushresult(&b);
   return 1;
@@ -249,7 +355,7 @@ void lvsL_open_effective(lua_State *L, int ctxidx) {
   lvsL_setfuncs(L, mt, ctxidx);
   lua_newtable(L);
   static const luaL_Reg m[] = {{"term", e_term},   {"at", e_at},         {"levels", e_levels}, {"dim", e_dim},
-                               {"order", e_order}, {"warnings", e_warnings}, {NULL, NULL}};
+                               {"order", e_order}, {"warnings", e_warnings}, {"labels", e_labels}, {NULL, NULL}};
   lvsL_setfuncs(L, m, ctxidx);
   lua_setfield(L, -2, "__index");
   lua_pop(L, 1);

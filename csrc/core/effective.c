@@ -22,6 +22,7 @@
  * degenerate with a level outside the group.
  */
 #include <math.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <string.h>
 #include "internal.h"
@@ -33,6 +34,7 @@ struct lvs_effective {
   size_t n, d;
   int order;
   size_t *levels; /* d, 0-based, ascending */
+  size_t *states; /* d: basis state of each group level (diagonal H0), else SIZE_MAX */
   cplx *terms;    /* (order+1) blocks of d*d, column-major */
   int complex_result;
   char *warn;     /* "" when none; lines separated by '\n' */
@@ -76,12 +78,19 @@ void lvs_effective_free(lvs_effective *e) {
   if (!e) return;
   lvs_ctx *ctx = e->ctx;
   lvsi_free(ctx, e->levels);
+  lvsi_free(ctx, e->states);
   lvsi_free(ctx, e->terms);
   lvsi_free(ctx, e->warn);
   lvsi_free(ctx, e);
 }
 
 static int is_diagonal(const lvs_matrix *h) {
+  if (h->sparse && !h->vis) {
+    for (size_t j = 0; j < h->cols; j++)
+      for (size_t k = h->cp[j]; k < h->cp[j + 1]; k++)
+        if (h->ri[k] != j && lvsi_mat_at(h, h->ri[k], j) != 0) return 0;
+    return 1;
+  }
   for (size_t j = 0; j < h->cols; j++)
     for (size_t i = 0; i < h->rows; i++)
       if (i != j && lvsi_mat_at(h, i, j) != 0) return 0;
@@ -133,12 +142,13 @@ int lvs_effective_new(const lvs_matrix *h0, const lvs_matrix *v, const size_t *l
   E = lvsi_malloc(ctx, n * sizeof(double));
   perm = lvsi_malloc(ctx, n * sizeof(size_t));
   e->levels = lvsi_malloc(ctx, d * sizeof(size_t));
+  e->states = lvsi_malloc(ctx, d * sizeof(size_t));
   q = lvsi_malloc(ctx, (nq ? nq : 1) * sizeof(size_t));
   inP = lvsi_calloc(ctx, n, 1);
   vt = lvsi_malloc(ctx, n * n * sizeof(cplx));
   tmp = lvsi_malloc(ctx, n * n * sizeof(cplx));
   e->terms = lvsi_calloc(ctx, (size_t)(K + 1) * dd, sizeof(cplx));
-  if (!E || !perm || !e->levels || !q || !inP || !vt || !tmp || !e->terms) {
+  if (!E || !perm || !e->levels || !e->states || !q || !inP || !vt || !tmp || !e->terms) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in effective");
     goto fail;
   }
@@ -186,7 +196,10 @@ int lvs_effective_new(const lvs_matrix *h0, const lvs_matrix *v, const size_t *l
     }
     e->levels[j] = x;
   }
-  for (size_t i = 0; i < d; i++) inP[e->levels[i]] = 1;
+  for (size_t i = 0; i < d; i++) {
+    inP[e->levels[i]] = 1;
+    e->states[i] = diag ? perm[e->levels[i]] : SIZE_MAX;
+  }
   for (size_t i = 0, k = 0; i < n; i++)
     if (!inP[i]) q[k++] = i;
   const size_t *p = e->levels;
@@ -369,6 +382,32 @@ fail:
 size_t lvs_effective_dim(const lvs_effective *e) { return e->d; }
 int lvs_effective_order(const lvs_effective *e) { return e->order; }
 const size_t *lvs_effective_levels(const lvs_effective *e) { return e->levels; }
+size_t lvs_effective_state(const lvs_effective *e, size_t i) { return i < e->d ? e->states[i] : SIZE_MAX; }
+
+/* The level (0-based, ascending H0 energy, ties in basis order as in
+ * lvs_effective_new) of basis state `state` when H0 is diagonal. */
+int lvs_level_of_state(const lvs_matrix *h0, size_t state, size_t *level) {
+  lvs_ctx *ctx = h0->ctx;
+  size_t n = lvs_matrix_rows(h0);
+  if (n != lvs_matrix_cols(h0)) return lvsi_fail(ctx, LVS_EDIM, "H0 must be square");
+  if (state >= n) return lvsi_fail(ctx, LVS_ERANGE, "state %zu is out of range 1..%zu", state + 1, n);
+  lvs_matrix *hp = NULL;
+  int st = lvs_matrix_visible(h0, 0, &hp);
+  if (st) return st;
+  if (!is_diagonal(hp)) {
+    lvs_matrix_free(hp);
+    return lvsi_fail(ctx, LVS_EINVAL, "H0 is not diagonal in its basis, so basis states are not levels");
+  }
+  double es = creal(lvsi_mat_at(hp, state, state));
+  size_t lev = 0;
+  for (size_t j = 0; j < n; j++) {
+    double ej = creal(lvsi_mat_at(hp, j, j));
+    if (ej < es || (ej == es && j < state)) lev++;
+  }
+  lvs_matrix_free(hp);
+  *level = lev;
+  return LVS_OK;
+}
 const char *lvs_effective_warnings(const lvs_effective *e) { return e->warn ? e->warn : ""; }
 
 static int to_matrix(const lvs_effective *e, const cplx *blk, lvs_matrix **out) {

@@ -196,13 +196,55 @@ describe("effective", function()
     local text = tostring(ls.effective(H0, V, { levels = { 1, 2 }, order = 2 }))
     assert.is_truthy(text:find("levelshift.effective: 2 levels, order 2", 1, true))
     assert.is_truthy(text:find("order 2 (coefficient of lambda^2):", 1, true))
-    assert.is_truthy(text:find("[  1]", 1, true))
+    assert.is_truthy(text:find("\n  level 1 ", 1, true)) -- rows named by level without a basis
     local h = ls.effective(ls.matrix{ { 0, 0 }, { 0, 0.1 } }, ls.matrix{ { 0, 0.5 }, { 0.5, 0 } }, { levels = { 1 } })
     local w = h:warnings()
     assert.are.equal(1, #w)
     assert.is_truthy(w[1]:find("gap 0.1 between the group and the other levels", 1, true))
     assert.is_truthy(tostring(h):find("warning: the gap", 1, true))
     assert.are.equal(2, h:order()) -- default order
+  end)
+
+  it("chooses the group by labels and labels the printout with the basis states", function()
+    -- source: Blais et al., Phys. Rev. A 69, 062320 (2004): the dispersive shift g^2/Delta of
+    -- |up, 0> for the Jaynes-Cummings model, Delta = w_q - w_r
+    local wq, wr, g = 1.0, 1.5, 0.01
+    local P = ls.product(ls.spin(0.5), ls.oscillator(6))
+    local q, r = P:site(1), P:site(2)
+    local H0 = wq * q.Sz + wr * r.number
+    local V = g * (q.Sp * r.lower + q.Sm * r.raise)
+    local h = ls.effective(H0, V, { basis = P, labels = { { m1 = 0.5, n2 = 0 }, { m1 = -0.5, n2 = 0 } }, order = 2 })
+    assert.are.same({ 1, 2 }, h:levels()) -- |dn,0> (-0.5) and |up,0> (0.5), in ascending energy
+    assert.are.same({ "m1=-1/2 n2=0", "m1=1/2 n2=0" }, h:labels())
+    assert.near(0.5 + g * g / (wq - wr), re(h:at(1), 2, 2), 1e-14)
+    local text = tostring(h)
+    assert.is_truthy(text:find("\n  m1=1/2 n2=0 ", 1, true), text)
+    assert.is_truthy(text:find("m1=-1/2 n2=0  m1=1/2 n2=0", 1, true), text) -- column heads
+    -- a window with the basis: labels of the states found
+    local hw = ls.effective(H0, V, { basis = P, window = { 0.9, 2.1 }, order = 2 })
+    assert.are.same({ "m1=-1/2 n2=1", "m1=1/2 n2=1" }, hw:labels())
+    -- without a basis, or with H0 not diagonal in it: "level k"
+    assert.are.same({ "level 3", "level 4" }, ls.effective(H0, V, { window = { 0.9, 2.1 } }):labels())
+    local B = ls.basis { "g", "e" }
+    local H0r = ls.matrix { { 0, 0.1 }, { 0.1, 1 } }
+    local hr = ls.effective(H0r, ls.matrix { { 0, 0.2 }, { 0.2, 0 } }, { basis = B, levels = { 1 } })
+    assert.are.same({ "level 1" }, hr:labels())
+    local hn = ls.effective(ls.matrix { { 0, 0 }, { 0, 1 } }, ls.matrix { { 0, 0.2 }, { 0.2, 0 } }, { basis = B, labels = { "e" } })
+    assert.are.same({ 2 }, hn:levels())
+    assert.are.same({ "e" }, hn:labels())
+    -- errors of the label choice
+    assert.error_matches(function() ls.effective(H0, V, { labels = { { m1 = 0.5, n2 = 0 } } }) end,
+      "bad argument #3 to 'effective' ('labels' needs 'basis' = the basis H0 is written in)", 1, true)
+    assert.error_matches(function() ls.effective(H0, V, { basis = P, labels = { { m1 = 0.5, n2 = 9 } } }) end,
+      "bad argument #3 to 'effective' ('labels'[1] matches no state of the basis)", 1, true)
+    assert.error_matches(function() ls.effective(H0, V, { basis = P, labels = { { m1 = 0.5, n2 = 0 } }, levels = { 1 } }) end,
+      "give one of 'levels', 'window' or 'labels'", 1, true)
+    assert.error_matches(function() ls.effective(H0r, ls.zeros(2, 2), { basis = B, labels = { "g" } }) end,
+      "bad argument #3 to 'effective' ('labels' needs H0 diagonal in 'basis': H0 is not diagonal in its basis", 1, true)
+    assert.error_matches(function() ls.effective(H0, V, { basis = B, levels = { 1 } }) end,
+      "bad argument #3 to 'effective' ('basis' has 2 states but H0 is 12x12)", 1, true)
+    assert.error_matches(function() ls.effective(H0, V, { basis = 3, levels = { 1 } }) end,
+      "bad argument #3 to 'effective' ('basis' must be a basis)", 1, true)
   end)
 
   describe("errors", function()
