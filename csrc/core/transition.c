@@ -310,10 +310,7 @@ static double complex filon(const double complex *f, size_t stride, size_t m, do
  * Filon coefficients A, B, C and the phase at the panel centre, advanced by
  * a recurrence and re-seeded with sin/cos every 128 panel pairs. The coarse
  * panel (half-width 2h) centred at fine sample 2j+2 has phase ph_j e^{iwh}. */
-#if defined(__GNUC__) && !defined(__clang__) && (defined(__x86_64__) || defined(__i386__))
-__attribute__((target_clones("avx2", "default")))
-#endif
-static void filon_all_kernel(const double *restrict p, size_t N, double t0, double h, const double *restrict w,
+static inline __attribute__((always_inline)) void filon_all_body(const double *restrict p, size_t N, double t0, double h, const double *restrict w,
                              size_t n, double *restrict ws) {
   double *phr = ws, *phi = ws + n, *s1r = ws + 2 * n, *s1i = ws + 3 * n, *s2r = ws + 4 * n, *s2i = ws + 5 * n;
   double *S = ws + 6 * n; /* 12 sums: fine A,B,C and coarse A,B,C, re and im */
@@ -333,6 +330,7 @@ static void filon_all_kernel(const double *restrict p, size_t N, double t0, doub
     double A = f1, B = (f2 - f0) * i2h, C = (f2 - 2 * f1 + f0) * i2h2;
     double A2 = f3, B2 = (f4 - f2) * i2h, C2 = (f4 - 2 * f3 + f2) * i2h2;
     double Aq = f2, Bq = (f4 - f0) * i4h, Cq = (f4 - 2 * f2 + f0) * i8h2;
+#pragma GCC ivdep /* the 18 arrays are disjoint slices of ws */
     for (size_t f = 0; f < n; f++) {
       double pr = phr[f], pi = phi[f];
       double qr = pr * s1r[f] - pi * s1i[f], qi = pr * s1i[f] + pi * s1r[f];
@@ -345,6 +343,29 @@ static void filon_all_kernel(const double *restrict p, size_t N, double t0, doub
       phr[f] = pr * s2r[f] - pi * s2i[f], phi[f] = pr * s2i[f] + pi * s2r[f];
     }
   }
+}
+
+static void filon_all_plain(const double *restrict p, size_t N, double t0, double h, const double *restrict w, size_t n,
+                            double *restrict ws) {
+  filon_all_body(p, N, t0, h, w, n, ws);
+}
+#if defined(__GNUC__) && (defined(__x86_64__) || defined(__i386__))
+#define LVS_HAVE_AVX2_PATH 1
+__attribute__((target("avx2,fma"))) static void filon_all_avx2(const double *restrict p, size_t N, double t0, double h,
+                                                                const double *restrict w, size_t n, double *restrict ws) {
+  filon_all_body(p, N, t0, h, w, n, ws);
+}
+#endif
+/* the AVX2/FMA build of the same loop where the CPU has it */
+static void filon_all_kernel(const double *p, size_t N, double t0, double h, const double *w, size_t n, double *ws) {
+#ifdef LVS_HAVE_AVX2_PATH
+  __builtin_cpu_init(); /* idempotent; needed before __builtin_cpu_supports in a shared library */
+  if (__builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma")) {
+    filon_all_avx2(p, N, t0, h, w, n, ws);
+    return;
+  }
+#endif
+  filon_all_plain(p, N, t0, h, w, n, ws);
 }
 
 static void filon_all(const double *p, size_t N, double t0, double h, const double *w, size_t n, double *ws,
@@ -826,7 +847,7 @@ typedef struct {
 
 /* k = -i p Dp V Dm x_in (Dp = Dm = NULL at the step start); then
  * acc += wacc k, x_out = x + wout k (x_out may be NULL). */
-static void rk4_stage(size_t n, const vrows *V, const double *Dp, double p, const double *x_in, double *u,
+static inline __attribute__((always_inline)) void rk4_stage(size_t n, const vrows *V, const double *Dp, double p, const double *x_in, double *u,
                       const double *x, double *acc, double wacc, double *x_out, double wout) {
   const double *src = x_in;
   if (Dp) { /* u = conj(Dp) x_in */
@@ -852,6 +873,50 @@ static void rk4_stage(size_t n, const vrows *V, const double *Dp, double p, cons
     if (x_out) x_out[2 * r] = x[2 * r] + wout * kr, x_out[2 * r + 1] = x[2 * r + 1] + wout * ki;
   }
 }
+
+/* the RK4 time loop; x in/out; ws scratch (y, u, acc: 6n doubles) */
+typedef struct {
+  const vrows *V;
+  const double *Eh, *E1, *Em;
+} rk4_consts;
+
+static inline __attribute__((always_inline)) int rk4_loop(lvs_transition *tr, source_eval *se, size_t m, double h,
+                                                          const rk4_consts *K, double *x, double *y, double *u,
+                                                          double *acc) {
+  size_t n = tr->n;
+  const vrows V = *K->V;
+  const double *Eh = K->Eh, *E1 = K->E1, *Em = K->Em;
+  double p0, pm, p1;
+  int st = eval_scalar(se, tr->t0, &p0);
+  for (size_t s = 0; s < m && !st; s++) {
+    double t = tr->t0 + (double)s * h;
+    if ((st = eval_scalar(se, t + h / 2, &pm)) || (st = eval_scalar(se, s + 1 == m ? tr->t1 : t + h, &p1))) break;
+    for (size_t q = 0; q < 2 * n; q++) acc[q] = 0;
+    rk4_stage(n, &V, NULL, p0, x, u, x, acc, 1, y, 0.5 * h); /* k1 */
+    rk4_stage(n, &V, Eh, pm, y, u, x, acc, 2, y, 0.5 * h);   /* k2 (reads y, writes y after use) */
+    rk4_stage(n, &V, Eh, pm, y, u, x, acc, 2, y, h);         /* k3 */
+    rk4_stage(n, &V, E1, p1, y, u, x, acc, 1, NULL, 0);      /* k4 */
+    for (size_t q = 0; q < n; q++) { /* x <- e^{-iEh} (x + h/6 acc) */
+      double zr = x[2 * q] + h / 6 * acc[2 * q], zi = x[2 * q + 1] + h / 6 * acc[2 * q + 1];
+      double er = Em[2 * q], ei = Em[2 * q + 1];
+      x[2 * q] = er * zr - ei * zi, x[2 * q + 1] = er * zi + ei * zr;
+    }
+    p0 = p1;
+  }
+  return st;
+}
+
+static int rk4_loop_plain(lvs_transition *tr, source_eval *se, size_t m, double h, const rk4_consts *K, double *x,
+                          double *y, double *u, double *acc) {
+  return rk4_loop(tr, se, m, h, K, x, y, u, acc);
+}
+#ifdef LVS_HAVE_AVX2_PATH
+__attribute__((target("avx2,fma"))) static int rk4_loop_avx2(lvs_transition *tr, source_eval *se, size_t m, double h,
+                                                              const rk4_consts *K, double *x, double *y, double *u,
+                                                              double *acc) {
+  return rk4_loop(tr, se, m, h, K, x, y, u, acc);
+}
+#endif
 
 static int rk4_run(lvs_transition *tr, source_eval *se, size_t m, double complex *cout) {
   lvs_ctx *ctx = tr->ctx;
@@ -885,25 +950,17 @@ static int rk4_run(lvs_transition *tr, source_eval *se, size_t m, double complex
   }
   for (size_t q = 0; q < 2 * n; q++) x[q] = 0;
   x[2 * tr->from] = 1;
-  double p0, pm, p1;
   unsigned csr;
   FTZ_ON(csr);
-  int st = eval_scalar(se, tr->t0, &p0);
-  for (size_t s = 0; s < m && !st; s++) {
-    double t = tr->t0 + (double)s * h;
-    if ((st = eval_scalar(se, t + h / 2, &pm)) || (st = eval_scalar(se, s + 1 == m ? tr->t1 : t + h, &p1))) break;
-    for (size_t q = 0; q < 2 * n; q++) acc[q] = 0;
-    rk4_stage(n, &V, NULL, p0, x, u, x, acc, 1, y, 0.5 * h); /* k1 */
-    rk4_stage(n, &V, Eh, pm, y, u, x, acc, 2, y, 0.5 * h);   /* k2 (reads y, writes y after use) */
-    rk4_stage(n, &V, Eh, pm, y, u, x, acc, 2, y, h);         /* k3 */
-    rk4_stage(n, &V, E1, p1, y, u, x, acc, 1, NULL, 0);      /* k4 */
-    for (size_t q = 0; q < n; q++) { /* x <- e^{-iEh} (x + h/6 acc) */
-      double zr = x[2 * q] + h / 6 * acc[2 * q], zi = x[2 * q + 1] + h / 6 * acc[2 * q + 1];
-      double er = Em[2 * q], ei = Em[2 * q + 1];
-      x[2 * q] = er * zr - ei * zi, x[2 * q + 1] = er * zi + ei * zr;
-    }
-    p0 = p1;
-  }
+  rk4_consts K = {&V, Eh, E1, Em};
+  int st;
+#ifdef LVS_HAVE_AVX2_PATH
+  __builtin_cpu_init();
+  if (__builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma"))
+    st = rk4_loop_avx2(tr, se, m, h, &K, x, y, u, acc);
+  else
+#endif
+    st = rk4_loop_plain(tr, se, m, h, &K, x, y, u, acc);
   FTZ_OFF(csr);
   if (!st) { /* c(t1) = D(t1) x, with x carried from D(t0) = e^{iE t0} */
     for (size_t q = 0; q < n; q++) {
