@@ -183,6 +183,14 @@ LVS_API int lvs_basis_embed(const lvs_basis *b, const lvs_matrix *plain,
 LVS_API int lvs_eigen(const lvs_matrix *h, size_t count, int want_vectors,
                       double *w, lvs_matrix **vecs);
 #define LVS_DEFAULT_HERM_TOL 1e-10 /* relative Hermiticity tolerance */
+/* lvs_eigen on symmetry sectors: comp[i] (0-based, every block number
+ * 0..nb-1 used) is the block of state i; NULL finds the blocks as the
+ * connected components of the sparsity graph (what lvs_eigen does for a
+ * sparse op). Blocks are diagonalized separately and merged in ascending
+ * order (ties: lower block first); an entry coupling two blocks is
+ * LVS_EINVAL. A single sparse real tridiagonal block uses dstevr. */
+LVS_API int lvs_eigen_sectors(const lvs_matrix *h, const size_t *comp, size_t count,
+                              int want_vectors, double *w, lvs_matrix **vecs);
 
 /* ---- sweeps of a coupling or a field (sweep.c) ------------------------
  * Lowest count levels of H(p) = H0 + p V on p_k = from + (to-from) k/steps,

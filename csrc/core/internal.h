@@ -62,6 +62,8 @@ LVSI int lvsi_to_dense(const lvs_matrix *a, lvs_matrix **out);
 LVSI long lvsi_mat_bandwidth(const lvs_matrix *m);
 LVSI int lvsi_components(const lvs_matrix *a, const lvs_matrix *b, size_t *comp, size_t *ncomp);
 
+/* eigen.c: the dense path of lvs_eigen (no structure detection) */
+LVSI int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, double *w, lvs_matrix **vecs);
 LVSI int lvsi_check_hermitian(const lvs_matrix *h, double tol, const char *what);
 LVSI int lvsi_basis_twoS(const lvs_basis *b);
 /* basis kinds defined in their own files (box.c, rotor.c); see basis.c */

@@ -646,6 +646,39 @@ static int raw_mul(const lvs_matrix *a, const lvs_matrix *b, lvs_matrix **out) {
   return lvsi_mat_compact(*out);
 }
 
+/* 1 when every stored nonzero of a padded m lies inside its visible block
+ * (only matrices with infinite slack, i.e. embedded plain ones, qualify) */
+static int zero_outside_vis(const lvs_matrix *m) {
+  if (!m->vis || m->slack < LVS_INF_SLACK) return 0;
+  unsigned char *in = lvsi_calloc(m->ctx, m->rows ? m->rows : 1, 1);
+  if (!in) return 0;
+  for (size_t i = 0; i < m->n; i++) in[m->vis[i]] = 1;
+  int ok = 1;
+  for (size_t j = 0; j < m->cols && ok; j++) {
+    if (m->sparse) {
+      for (size_t k = m->cp[j]; k < m->cp[j + 1]; k++)
+        if ((!in[m->ri[k]] || !in[j]) && sval(m, k) != 0.0) {
+          ok = 0;
+          break;
+        }
+    } else if (!in[j]) {
+      for (size_t i = 0; i < m->rows; i++)
+        if (lvsi_mat_at(m, i, j) != 0.0) {
+          ok = 0;
+          break;
+        }
+    } else {
+      for (size_t i = 0; i < m->rows; i++)
+        if (!in[i] && lvsi_mat_at(m, i, j) != 0.0) {
+          ok = 0;
+          break;
+        }
+    }
+  }
+  lvsi_free(m->ctx, in);
+  return ok;
+}
+
 int lvs_matrix_mul(const lvs_matrix *a0, const lvs_matrix *b0, lvs_matrix **out) {
   lvs_ctx *ctx = a0->ctx;
   *out = NULL;
@@ -674,6 +707,12 @@ int lvs_matrix_mul(const lvs_matrix *a0, const lvs_matrix *b0, lvs_matrix **out)
     long ms = a->slack < b->slack ? a->slack : b->slack;
     long mb = a->band < b->band ? a->band : b->band;
     long slack = ms >= LVS_INF_SLACK ? LVS_INF_SLACK : ms - mb;
+    /* A factor that is zero outside the visible block (a plain matrix such
+     * as eigenvectors, embedded) never reaches past the edge: the product
+     * is as exact as the other factor (C = E B: C(i, j) sums over visible k
+     * only). Without this, U^T H U with a full U was refused. */
+    if (slack < 0 && zero_outside_vis(a)) slack = b->slack;
+    else if (slack < 0 && zero_outside_vis(b)) slack = a->slack;
     if (slack < 0) {
       st = lvsi_fail(ctx, LVS_ERANGE,
                      "operator product reaches beyond the padding of the truncated basis, so its "
