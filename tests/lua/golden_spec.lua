@@ -164,3 +164,43 @@ describe("golden_rule against exact propagation of a quasi-continuum", function(
     assert(ie.energy == -w and re < 1e-3 * rate and ie.warning:find("outside the band", 1, true))
   end)
 end)
+
+describe("hostile fields (golden_rule, transition, exact)", function()
+  it("never crash and always raise string errors", function()
+    -- common practice for a C binding: random field values, each call succeeds or raises a string
+    local vals = { 0, -1, 2.5, 0 / 0, math.huge, -math.huge, "x", {}, { 0, 0.1 }, { "a" }, true,
+      function() error("boom") end, function() return 0 / 0 end, function() return 1 end,
+      function() return ls.matrix{ { 0, 1 }, { 1, 0 } } end, ls.matrix{ { 0, 1 }, { 1, 0 } },
+      ls.matrix{ { 0, 0 }, { 0, 1 } }, ls.pulse.gaussian{ width = 1 }, 1e300, 2 ^ 62, "rk4", "gaussian" }
+    local gkeys = { "V", "rho", "band", "E", "omega", "process", "broadening", "shape", "couplings" }
+    local tkeys = { "H0", "V", "pulse", "from", "t0", "t1", "order", "steps" }
+    local ekeys = { "steps", "tol", "method", "max_steps" }
+    local good = ls.transition{ H0 = ls.matrix{ { 0, 0 }, { 0, 1 } }, V = ls.matrix{ { 0, 1 }, { 1, 0 } },
+                                pulse = ls.pulse.gaussian{ amplitude = 0.1, width = 1 }, from = 1, t0 = -3, t1 = 3, steps = 64 }
+    math.randomseed(6)
+    local bad = {}
+    local function pick() return vals[math.random(#vals + 1)] end -- nil sometimes
+    for _ = 1, 400 do
+      local g = {}
+      for _, k in ipairs(gkeys) do if math.random() < 0.5 then g[k] = pick() end end
+      local ok, e = pcall(ls.golden_rule, g)
+      if not ok and type(e) ~= "string" then bad[#bad + 1] = "golden_rule" end
+      local t = { H0 = ls.matrix{ { 0, 0 }, { 0, 1 } }, from = 1, t0 = 0, t1 = 1, steps = 16 }
+      for _, k in ipairs(tkeys) do if math.random() < 0.3 then t[k] = pick() end end
+      if type(t.steps) == "number" and t.steps > 4096 then t.steps = 16 end -- keep the run short
+      ok, e = pcall(ls.transition, t)
+      if not ok and type(e) ~= "string" then bad[#bad + 1] = "transition" end
+      local o = {}
+      for _, k in ipairs(ekeys) do if math.random() < 0.5 then o[k] = pick() end end
+      if type(o.steps) == "number" and o.steps > 4096 then o.steps = 64 end
+      if type(o.max_steps) == "number" and o.max_steps > 4096 then o.max_steps = 4096 end
+      ok, e = pcall(good.exact, good, o)
+      if not ok and type(e) ~= "string" then bad[#bad + 1] = "exact" end
+      for _, m in ipairs({ "amplitude", "probability", "error" }) do
+        ok, e = pcall(good[m], good, pick(), pick())
+        if not ok and type(e) ~= "string" then bad[#bad + 1] = m end
+      end
+    end
+    assert.are.same({}, bad)
+  end)
+end)
