@@ -163,6 +163,20 @@ describe("golden_rule against exact propagation of a quasi-continuum", function(
                                   process = "emission"}
     assert(ie.energy == -w and re < 1e-3 * rate and ie.warning:find("outside the band", 1, true))
   end)
+  it("harmonic coupling: stimulated emission into a band at E - w", function()
+    -- the same drive with the band w below |0>: Gamma = 2 pi |F|^2 rho(E - w)
+    -- (Sakurai (1994) Sec. 5.6, emission term); |0> is now the highest level
+    local w = 3.0
+    local rate, info = ls.golden_rule{V = v, rho = 1 / d, E = 0, omega = w, process = "emission"}
+    assert(info.energy == -w)
+    local H0, V = model(-w)
+    local t = 150
+    local tr = ls.transition{H0 = H0, V = V, from = N + 1, t0 = 0, t1 = t,
+                             pulse = ls.pulse.sine{amplitude = 2, omega = w, phase = math.pi / 2}}
+    assert(tr:energies()[N + 1] == 0)
+    local ex = tr:exact{tol = 1e-7}
+    near(ex:probability(N + 1), math.exp(-rate * t), 0.01 * math.exp(-rate * t), "P0 under emission")
+  end)
 end)
 
 describe("hostile fields (golden_rule, transition, exact)", function()
