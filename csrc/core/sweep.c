@@ -241,7 +241,7 @@ static int solve_band(const model *md, double p, size_t m, double *w, double *ve
   double *buf = bs->buf;
   lapack_int *ibuf = bs->ibuf;
   double *ab = buf, *d = ab + ldab * n, *e = d + n, *work = e + n, *hb = work + 4 * n,
-         *gb = hb + ldab * n, *wfull = gb + ldg * n, *y = wfull + n;
+         *gb = hb + ldab * n, *wfull = gb + ldg * n;
   lapack_int *iwork = ibuf, *iblock = iwork + 3 * n, *isplit = iblock + n;
   size_t *ipiv = bs->piv;
   const double *b0 = md->hb0, *b1 = md->vb;
@@ -269,7 +269,7 @@ static int solve_band(const model *md, double p, size_t m, double *w, double *ve
     return lvsi_fail(tctx, LVS_ELAPACK, "band eigensolver failed (info %d)", (int)info);
   memcpy(w, wfull, m * sizeof(double));
   if (!vec) return LVS_OK;
-  double eps = 2.220446049250313e-16, tiny = eps * onenrm;
+  double eps = 2.220446049250313e-16, tiny = eps * onenrm, clus = 1e3 * abstol;
   for (size_t j = 0; j < m; j++) {
     double shift = w[j];
     double *xv = vec + j * n;
@@ -285,8 +285,11 @@ static int solve_band(const model *md, double p, size_t m, double *w, double *ve
     band_lu(n, kd, gb, ipiv, tiny);
     for (int it = 0; it < 2; it++) {
       band_solve(n, kd, gb, ipiv, xv);
+      /* against the levels whose shifts are close (they could converge to
+       * the same vector); the others are orthonormalized before Rayleigh-Ritz */
       for (int pass = 0; pass <= it; pass++)
         for (size_t q = 0; q < j; q++) {
+          if (fabs(w[q] - w[j]) > clus) continue;
           const double *u = vec + q * n;
           double o = 0;
           for (size_t i = 0; i < n; i++) o += u[i] * xv[i];
@@ -304,6 +307,22 @@ static int solve_band(const model *md, double p, size_t m, double *w, double *ve
    * (Parlett, The Symmetric Eigenvalue Problem, 1980, ch. 11): energies
    * to rounding, and clusters the inverse iteration left mixed resolved */
   double *Y = bs->rr, *G = Y + n * m;
+  for (size_t j = 1; j < m; j++) { /* modified Gram-Schmidt, twice */
+    double *xv = vec + j * n;
+    for (int pass = 0; pass < 2; pass++)
+      for (size_t q = 0; q < j; q++) {
+        const double *u = vec + q * n;
+        double o = 0;
+        for (size_t i = 0; i < n; i++) o += u[i] * xv[i];
+        for (size_t i = 0; i < n; i++) xv[i] -= o * u[i];
+      }
+    double nn = 0;
+    for (size_t i = 0; i < n; i++) nn += xv[i] * xv[i];
+    nn = sqrt(nn);
+    if (!(nn > 0) || !isfinite(nn))
+      return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed for level %zu", j + 1);
+    for (size_t i = 0; i < n; i++) xv[i] /= nn;
+  }
   for (size_t j = 0; j < m; j++) {
     const double *xv = vec + j * n;
     double *yv = Y + j * n;
@@ -801,10 +820,16 @@ static void hungarian(size_t m, const double *c, size_t *pi, double *u, double *
   for (size_t j = 1; j <= m; j++) pi[match[j] - 1] = j - 1;
 }
 
+/* <a|b> in plain real arithmetic (C's complex product checks for NaN and
+ * infinity on every term, which costs more than the sweep's tracking) */
 static double complex dotc(const double complex *a, const double complex *b, size_t n) {
-  double complex s = 0;
-  for (size_t i = 0; i < n; i++) s += conj(a[i]) * b[i];
-  return s;
+  const double *x = (const double *)(const void *)a, *y = (const double *)(const void *)b;
+  double re = 0, im = 0;
+  for (size_t i = 0; i < 2 * n; i += 2) {
+    re += x[i] * y[i] + x[i + 1] * y[i + 1];
+    im += x[i] * y[i + 1] - x[i + 1] * y[i];
+  }
+  return re + I * im;
 }
 
 /* Replace the vectors of each degenerate set of point `cur` (energies w,
