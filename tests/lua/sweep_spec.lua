@@ -381,6 +381,19 @@ echo "killed=$?"]], bin, s, args, out, out, 48 + 5 * rec))
       os.remove(ref); os.remove(out); os.remove(s)
     end)
 
+    it("shows progress on stderr only when it is a terminal", function()
+      -- a pseudo-terminal from util-linux `script` (common practice for testing tty behaviour)
+      local code = "local o = ls.oscillator(40); ls.sweep{H0 = o.number, V = o.x^4, from = 0, to = 1, steps = 30, count = 3}"
+      local plain = sh(bin .. " -e '" .. code .. "'")
+      assert.is_nil(plain:find("sweep: ", 1, true))
+      if not os.execute("command -v script >/dev/null 2>&1") then
+        print("\nSKIPPED: progress on a terminal: no `script` program (util-linux) here")
+        return
+      end
+      local tty = sh("script -qec \"" .. bin .. " -e '" .. code .. "'\" /dev/null")
+      assert.truthy(tty:find("sweep: 31/31 points", 1, true), tty)
+    end)
+
     it("refuses a journal of another sweep", function()
       local out = os.tmpname() .. ".csv"
       local f = io.open(out .. ".part", "wb"); f:write(("x"):rep(100)); f:close()
