@@ -7,7 +7,9 @@ local function two_level(g)
 end
 
 local function tmpname(suffix)
-  return os.tmpname() .. suffix
+  local base = os.tmpname() -- created empty by Lua: removed, only the name is used
+  os.remove(base)
+  return base .. suffix
 end
 
 describe("sweep", function()
@@ -289,7 +291,7 @@ describe("sweep", function()
       local t = f:read("a"); f:close(); return t
     end
     local function script(body)
-      local path = os.tmpname() .. ".lua"
+      local path = tmpname(".lua")
       local f = assert(io.open(path, "w")); f:write(body); f:close()
       return path
     end
@@ -395,7 +397,7 @@ echo "killed=$?"]], bin, s, args, out, out, 48 + 5 * rec))
     end)
 
     it("refuses a journal of another sweep", function()
-      local out = os.tmpname() .. ".csv"
+      local out = tmpname(".csv")
       local f = io.open(out .. ".part", "wb"); f:write(("x"):rep(100)); f:close()
       local H0, V = two_level(0.1)
       assert.error_matches(function() ls.sweep{H0 = H0, V = V, from = 0, to = 1, out = out, progress = false} end,
@@ -410,13 +412,13 @@ echo "killed=$?"]], bin, s, args, out, out, 48 + 5 * rec))
         print("\nSKIPPED: sweep plot tests: gnuplot is not installed (Debian package gnuplot-nox)")
         local H0, V = two_level(0.1)
         local sw = ls.sweep{H0 = H0, V = V, from = -1, to = 1, steps = 4}
-        assert.error_matches(function() sw:plot(os.tmpname() .. ".svg") end, "install the Debian package gnuplot-nox", 1, true)
+        assert.error_matches(function() sw:plot(tmpname(".svg")) end, "install the Debian package gnuplot-nox", 1, true)
         return
       end
       local H0, V = ls.matrix{{0, 0}, {0, 1}}, ls.matrix{{0, 0.3}, {0.3, 0}}
       local sw = ls.sweep{H0 = H0, V = V, from = -2, to = 2, steps = 40, series = 2, param = "F",
                           param_unit = "kV/cm", energy_unit = "meV"}
-      local svg, png = os.tmpname() .. ".svg", os.tmpname() .. ".png"
+      local svg, png = tmpname(".svg"), tmpname(".png")
       sw:plot(svg, {title = "invented two-level field sweep"})
       sw:plot(png)
       local t = slurp(svg)
