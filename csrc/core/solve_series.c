@@ -278,8 +278,8 @@ static void sturm(size_t n, const double *d, const double *e2, double pivmin, co
  * Source: common practice (Parlett, The Symmetric Eigenvalue Problem,
  * 1980, ch. 4-5, mem). Fails with LVS_EINVAL when the level cannot be
  * separated from a neighbour within 1e-10 of the spectral scale. */
-static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, double *E,
-                        double *vec) {
+static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level, double *E,
+                         double *vec) {
   int st = LVS_OK;
   double *d = lvsi_malloc(ctx, n * sizeof(double));
   double *e2 = lvsi_malloc(ctx, n * sizeof(double));
@@ -308,7 +308,7 @@ static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, 
   size_t ca = 0, cb = n; /* Sturm counts at a and bb: ca <= level < cb */
   double x[LANES];
   size_t cnt[LANES];
-  int extra = 0, retries = 0, comp_found = 0;
+  int extra = 1, retries = 0, comp_found = 0;
   for (;;) {
     /* narrow [a, bb] until eigenvalue `level` is alone in it (then `extra`
      * more passes) */
@@ -376,6 +376,7 @@ static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, 
     memset(vec, 0, n * sizeof(double));
     for (size_t i = s0; i < s1; i++) vec[i] = 1.0 + 1e-3 * (double)(i % 7);
     double rho = sigma, rprev = INFINITY;
+    int polish = 0;
     const double eps = 2.220446049250313e-16;
     int ok = 0;
     for (int it = 0; it < 10; it++) {
@@ -413,10 +414,11 @@ static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, 
       for (size_t i = 0; i < m; i++) r2 += (dd[i] - rho * vs[i]) * (dd[i] - rho * vs[i]);
       double r = sqrt(r2);
       if (!(rho > a && rho < bb)) break; /* converging to another level: narrow more */
-      if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-9 * scale)) {
+      if (polish) { /* one more step after convergence: residual at the rounding floor */
         ok = 1;
         break;
       }
+      if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-12 * scale)) polish = 1;
       rprev = r;
       sigma = rho;
     }
@@ -439,6 +441,60 @@ done:
   lvsi_free(ctx, du2);
   lvsi_free(ctx, ipiv);
   return st;
+}
+
+/* number of eigenvalues below x of the tridiagonal block rows [s, t) */
+static size_t count_below(const double *hb, size_t s, size_t t, double x) {
+  size_t c = 0;
+  double q = 1.0;
+  for (size_t i = s; i < t; i++) {
+    double e = i > s ? hb[2 * (i - 1) + 1] : 0.0;
+    q = (hb[2 * i] - x) - (i > s ? e * e / q : 0.0);
+    if (q == 0.0) q = -2.2250738585072014e-308;
+    c += q < 0;
+  }
+  return c;
+}
+
+/* Eigenpair `level` of a tridiagonal H0. For the lowest level of an H0
+ * that splits into blocks (symmetry sectors), each block is asked with one
+ * Sturm count whether it has anything below the best value so far, so
+ * only the blocks that can hold the ground level are solved. */
+static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, double *E,
+                        double *vec) {
+  size_t nsplit = 0;
+  for (size_t i = 0; i + 1 < n; i++) nsplit += hb[2 * i + 1] == 0.0;
+  if (level != 0 || nsplit == 0) return tridiag_range(ctx, hb, n, level, E, vec);
+  double scale = 0.0;
+  for (size_t i = 0; i < n; i++)
+    scale = fmax(scale, fabs(hb[2 * i]) + 2 * (i + 1 < n ? fabs(hb[2 * i + 1]) : 0.0));
+  double tau = 1e-10 * (scale > 0 ? scale : 1.0), best = INFINITY;
+  size_t bs = 0, bt = 0;
+  memset(vec, 0, n * sizeof(double));
+  for (size_t s = 0; s < n;) {
+    size_t t = s;
+    while (t + 1 < n && hb[2 * t + 1] != 0.0) t++;
+    t++; /* block [s, t) */
+    if (best == INFINITY || count_below(hb, s, t, best + tau) > 0) {
+      double e;
+      int st = tridiag_range(ctx, hb + 2 * s, t - s, 0, &e, vec + s);
+      if (st) return st;
+      if (fabs(e - best) <= tau)
+        return lvsi_fail(ctx, LVS_EINVAL,
+                         "level 1 is degenerate (two blocks have %.12g); the linear-solve series "
+                         "needs a non-degenerate level (use ls.perturb)", e);
+      if (e < best) {
+        best = e;
+        bs = s;
+        bt = t;
+      }
+    }
+    s = t;
+  }
+  for (size_t i = 0; i < n; i++)
+    if (i < bs || i >= bt) vec[i] = 0.0;
+  *E = best;
+  return LVS_OK;
 }
 
 /* Eigenpair number `level` (0-based, ascending) of the band matrix; also
@@ -592,7 +648,7 @@ int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
   s->E = lvsi_calloc(ctx, (size_t)order + 1, sizeof(double));
   s->psi = lvsi_calloc(ctx, (size_t)order * n, sizeof(double));
   hb = lvsi_malloc(ctx, (b + 1) * n * sizeof(double));
-  tmp = lvsi_malloc(ctx, 2 * n * sizeof(double));
+  tmp = lvsi_malloc(ctx, n * sizeof(double));
   if (!s->E || !s->psi || !hb || !tmp) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in the linear-solve series");
     goto done;
