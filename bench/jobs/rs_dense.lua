@@ -11,10 +11,21 @@ local t0 = ls.clock()
 math.randomseed(12345)
 local rows = {}
 for i = 1, n do rows[i] = {} end
+local spare
+local function gauss()
+  if spare then
+    local g = spare
+    spare = nil
+    return g
+  end
+  local r, t = math.sqrt(-2 * math.log(1 - math.random())), 2 * math.pi * math.random()
+  spare = r * math.sin(t)
+  return r * math.cos(t)
+end
 for i = 1, n do
   local ri = rows[i]
   for j = i, n do
-    local g = math.sqrt(-2 * math.log(1 - math.random())) * math.cos(2 * math.pi * math.random())
+    local g = gauss()
     ri[j] = g
     rows[j][i] = g
   end

@@ -49,6 +49,7 @@ typedef struct {
   size_t *lo, *hi;
   dc **om;
   dc *zbuf; /* members' z series: member i at zbuf + i (K) d, or (K+1) for d = 1 */
+  int direct; /* om[k] (k = 0..nom) are the states psi(k) themselves, in the original basis */
 } sgroup;
 
 /* one computed level */
@@ -77,7 +78,7 @@ struct lvs_series {
   sgroup *grp;
   size_t ngrp;
   size_t *perm;   /* working index -> original basis index (diagonal H0) */
-  lvs_matrix *U;  /* eigenvectors of H0 (NULL when H0 is diagonal) */
+  lvs_matrix *U;  /* eigenvectors of H0 (NULL when H0 is diagonal or the levels are solved for) */
   double vnorm;   /* max column 1-norm of V */
 };
 
@@ -484,6 +485,143 @@ done:
   return st;
 }
 
+/* ---- a few levels of a dense real H0 without diagonalizing it ---------- */
+/* Method (METHODS.md sec. 1 (b); Dalgarno & Lewis, Proc. R. Soc. A 233, 70
+ * (1955)): with E_n and |n> from a tridiagonal reduction (dsytrd, then
+ * dsterf for every eigenvalue, dstebz + dstein + dormtr for |n> only), each
+ * order solves (E_n - H0) psi(k) = V psi(k-1) - sum_{j=1..k} E(j) psi(k-j)
+ * with psi(k) orthogonal to |n> through the bordered symmetric system
+ * [[E_n - H0, n], [n^T, 0]] (nonsingular for a non-degenerate level),
+ * factored once by Bunch-Kaufman (dsytrf; Bunch & Kaufman, Math. Comp. 31,
+ * 163 (1977)) and solved by dsytrs per order. Cost: 4/3 n^3 + n^3/3 per
+ * level instead of a full eigendecomposition and two n^3 products. */
+typedef struct {
+  size_t n;
+  double *a, *d, *e, *tau; /* dsytrd output */
+} tri;
+
+static void tri_free(lvs_ctx *ctx, tri *t) {
+  lvsi_free(ctx, t->a), lvsi_free(ctx, t->d), lvsi_free(ctx, t->e), lvsi_free(ctx, t->tau);
+  memset(t, 0, sizeof *t);
+}
+
+/* all eigenvalues of the real symmetric plain h, ascending, into E */
+static int tri_new(lvs_ctx *ctx, const lvs_matrix *h, double *E, tri *t) {
+  size_t n = h->rows;
+  int st = lvsi_dense_ok(ctx, n, n, sizeof(double), "perturb (H0)");
+  if (st) return st;
+  t->n = n;
+  t->a = lvsi_malloc(ctx, n * n * sizeof *t->a);
+  t->d = lvsi_malloc(ctx, n * sizeof *t->d);
+  t->e = lvsi_malloc(ctx, (n + 1) * sizeof *t->e);
+  t->tau = lvsi_malloc(ctx, (n + 1) * sizeof *t->tau);
+  double *ee = lvsi_malloc(ctx, (n + 1) * sizeof *ee);
+  if (!t->a || !t->d || !t->e || !t->tau || !ee) {
+    lvsi_free(ctx, ee);
+    return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  }
+  if (!h->sparse)
+    memcpy(t->a, h->a, n * n * sizeof *t->a);
+  else
+    for (size_t j = 0; j < n; j++)
+      for (size_t i = 0; i < n; i++) t->a[i + j * n] = creal(lvsi_mat_at(h, i, j));
+  lapack_int info = LAPACKE_dsytrd(LAPACK_COL_MAJOR, 'L', (lapack_int)n, t->a, (lapack_int)n, t->d, t->e, t->tau);
+  if (!info) {
+    t->e[n ? n - 1 : 0] = 0; /* LAPACKE's NaN checks of dstein read n entries */
+    memcpy(E, t->d, n * sizeof *E);
+    memcpy(ee, t->e, (n ? n - 1 : 0) * sizeof *ee);
+    info = LAPACKE_dsterf((lapack_int)n, E, ee);
+  }
+  lvsi_free(ctx, ee);
+  if (info) return lvsi_fail(ctx, LVS_ELAPACK, "perturb: tridiagonal eigenvalues failed (info %d)", (int)info);
+  return LVS_OK;
+}
+
+static int bordered_level(lvs_ctx *ctx, const tri *t, const lvs_matrix *hp, const lvs_matrix *vp, const double *E,
+                          size_t L, int K, sgroup *g, dc *W) {
+  size_t n = t->n, n1 = n + 1;
+  int st = lvsi_dense_ok(ctx, n1, n1, sizeof(double), "perturb (bordered system)");
+  if (st) return st;
+  lapack_int *ib = lvsi_malloc(ctx, 2 * n * sizeof *ib), *ipiv = lvsi_malloc(ctx, n1 * sizeof *ipiv);
+  double *z = lvsi_malloc(ctx, n * sizeof *z), *B = lvsi_malloc(ctx, n1 * n1 * sizeof *B);
+  double *r = lvsi_malloc(ctx, 2 * n1 * sizeof *r);
+  double *w = lvsi_calloc(ctx, n, sizeof *w); /* LAPACKE's NaN check of dstein reads n entries of w */
+  dc *y = lvsi_malloc(ctx, n * sizeof *y);
+  if (!ib || !ipiv || !z || !B || !r || !y || !w) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    goto done;
+  }
+  lapack_int m = 0, nsplit = 0, ifail = 0;
+  lapack_int info = LAPACKE_dstebz('I', 'B', (lapack_int)n, 0, 0, (lapack_int)L + 1, (lapack_int)L + 1, 0.0, t->d, t->e,
+                                   &m, &nsplit, w, ib, ib + n);
+  if (!info && m == 1)
+    info = LAPACKE_dstein(LAPACK_COL_MAJOR, (lapack_int)n, t->d, t->e, 1, w, ib, ib + n, z, (lapack_int)n, &ifail);
+  if (!info && m == 1)
+    info = LAPACKE_dormtr(LAPACK_COL_MAJOR, 'L', 'L', 'N', (lapack_int)n, 1, t->a, (lapack_int)n, t->tau, z,
+                          (lapack_int)n);
+  if (info || m != 1) {
+    st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: eigenvector of level %zu failed (info %d)", L + 1, (int)info);
+    goto done;
+  }
+  /* B = [[E_L - H0, z], [z^T, 0]] (lower triangle is what dsytrf reads) */
+  for (size_t j = 0; j < n; j++) {
+    for (size_t i = j; i < n; i++)
+      B[i + j * n1] = -(hp->sparse ? creal(lvsi_mat_at(hp, i, j)) : hp->a[i + j * n]);
+    B[j + j * n1] += E[L];
+    B[n + j * n1] = z[j];
+  }
+  B[n + n * n1] = 0;
+  info = LAPACKE_dsytrf(LAPACK_COL_MAJOR, 'L', (lapack_int)n1, B, (lapack_int)n1, ipiv);
+  if (info) {
+    st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: bordered system of level %zu is singular (info %d)", L + 1, (int)info);
+    goto done;
+  }
+  g->direct = 1;
+  for (int k = 0; k <= g->nom; k++) {
+    g->lo[k] = 0;
+    g->hi[k] = n;
+  }
+  g->om[0] = lvsi_malloc(ctx, n * sizeof(dc));
+  if (!g->om[0]) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    goto done;
+  }
+  for (size_t i = 0; i < n; i++) g->om[0][i] = z[i];
+  for (int k = 1; k <= K; k++) {
+    if ((st = lvs_matrix_apply(vp, 1, (const double *)g->om[k - 1], (double *)y))) goto done;
+    double ek = 0;
+    for (size_t i = 0; i < n; i++) ek += z[i] * creal(y[i]);
+    W[k - 1] = ek;
+    if (k > g->nom) continue;
+    for (int j = 1; j < k; j++) {
+      const dc *pj = g->om[k - j];
+      double ej = creal(W[j - 1]);
+      for (size_t i = 0; i < n; i++) y[i] -= ej * pj[i];
+    }
+    for (size_t i = 0; i < n; i++) {
+      y[i] -= ek * z[i];
+      r[i] = creal(y[i]);
+      r[n1 + i] = cimag(y[i]);
+    }
+    r[n] = r[n1 + n] = 0;
+    info = LAPACKE_dsytrs(LAPACK_COL_MAJOR, 'L', (lapack_int)n1, 2, B, (lapack_int)n1, ipiv, r, (lapack_int)n1);
+    if (info) {
+      st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: bordered solve failed (info %d)", (int)info);
+      goto done;
+    }
+    dc *pk = g->om[k] = lvsi_malloc(ctx, n * sizeof(dc));
+    if (!pk) {
+      st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+      goto done;
+    }
+    for (size_t i = 0; i < n; i++) pk[i] = CMPLX(r[i], r[n1 + i]);
+  }
+done:
+  lvsi_free(ctx, ib), lvsi_free(ctx, ipiv), lvsi_free(ctx, z), lvsi_free(ctx, B), lvsi_free(ctx, r), lvsi_free(ctx, y);
+  lvsi_free(ctx, w);
+  return st;
+}
+
 /* ---- public API ------------------------------------------------------- */
 void lvs_series_free(lvs_series *s) {
   if (!s) return;
@@ -754,6 +892,9 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
   lvs_series *s = lvsi_calloc(ctx, 1, sizeof *s);
   wop w;
   memset(&w, 0, sizeof w);
+  tri t;
+  memset(&t, 0, sizeof t);
+  int bordered = 0;
   unsigned char *want = NULL;
   ekey *raw = NULL;
   dc *W = NULL, *zz = NULL;
@@ -791,11 +932,26 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
     if ((st = wop_permuted(ctx, vp, s->perm, &w))) goto fail;
   } else {
     for (size_t i = 0; i < n; i++) s->perm[i] = i;
-    if ((st = lvs_eigen(hp, 0, 1, E, &s->U))) goto fail;
-    /* columns to apply V to: the wanted levels' groups, counted loosely
-     * (a group is found only after the eigenvalues are known) */
-    size_t applies = (nlevels ? nlevels : n) * (size_t)K;
-    if ((st = wop_rotated(ctx, vp, s->U, applies, &w, &vkeep))) goto fail;
+    /* a few explicit, non-degenerate levels of a real H0: solve, do not diagonalize */
+    if (!hp->cplx && nlevels >= 1 && nlevels <= 8) {
+      if ((st = tri_new(ctx, hp, E, &t))) goto fail;
+      double big0 = 0;
+      for (size_t i = 0; i < n; i++) big0 = fmax(big0, fabs(E[i]));
+      double gt = degen_tol * fmax(E[n - 1] - E[0], big0);
+      bordered = 1;
+      for (size_t i = 0; i < nlevels; i++) {
+        size_t L = levels[i];
+        if ((L > 0 && E[L] - E[L - 1] <= gt) || (L + 1 < n && E[L + 1] - E[L] <= gt)) bordered = 0;
+      }
+      if (!bordered) tri_free(ctx, &t);
+    }
+    if (!bordered) {
+      if ((st = lvs_eigen(hp, 0, 1, E, &s->U))) goto fail;
+      /* columns to apply V to: the wanted levels' groups, counted loosely
+       * (a group is found only after the eigenvalues are known) */
+      size_t applies = (nlevels ? nlevels : n) * (size_t)K;
+      if ((st = wop_rotated(ctx, vp, s->U, applies, &w, &vkeep))) goto fail;
+    }
   }
   s->vnorm = colnorm1(vp);
   if (nlevels == 0)
@@ -848,7 +1004,11 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
       st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
       goto fail;
     }
-    if ((st = bloch_group(ctx, &w, E, g, K, W))) goto fail;
+    if (bordered)
+      st = bordered_level(ctx, &t, hp, vp, E, g0, K, g, W);
+    else
+      st = bloch_group(ctx, &w, E, g, K, W);
+    if (st) goto fail;
     /* nearest level outside the group (E is sorted) */
     double md = INFINITY;
     if (g0 > 0) md = fabs(ep - E[g0 - 1]);
@@ -935,6 +1095,7 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
   st = LVS_OK;
 fail:
   wop_free(ctx, &w);
+  tri_free(ctx, &t);
   lvs_matrix_free(vkeep);
   if (hp != h0) lvs_matrix_free(hp);
   if (vp != v) lvs_matrix_free(vp);
@@ -1024,7 +1185,8 @@ int lvs_series_state(const lvs_series *s, size_t level, int k, double *psi) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "state: out of memory");
     goto done;
   }
-  for (int j = 0; j <= k; j++) {
+  for (int j = 0; j <= k && g->direct; j++) memcpy(q + (size_t)j * n, g->om[j], n * sizeof *q);
+  for (int j = 0; j <= k && !g->direct; j++) {
     dc *qj = q + (size_t)j * n;
     for (size_t b = 0; b < d; b++) qj[g->g0 + b] += z[(size_t)j * d + b]; /* Omega(0) z_j */
     for (int i = 0; i < j; i++) {
@@ -1065,7 +1227,9 @@ int lvs_series_state(const lvs_series *s, size_t level, int k, double *psi) {
     res = x;
   }
   dc *outv = (dc *)psi;
-  if (s->U) {
+  if (g->direct) {
+    memcpy(outv, res, n * sizeof *outv);
+  } else if (s->U) {
     if (res != x) memcpy(x, res, n * sizeof *x);
     st = lvs_matrix_apply(s->U, 1, (const double *)x, psi);
   } else {

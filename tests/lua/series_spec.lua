@@ -160,6 +160,46 @@ describe("ls.perturb", function()
     assert.error_matches(function() e:state(1, 0) end, "no state corrections were kept (perturb option states = false)", 1, true)
   end)
 
+  it("a few levels of a dense H0: bordered solves agree with the full eigenbasis", function()
+    -- two routes to the same RS series (METHODS.md sec. 1: bordered system, Dalgarno & Lewis,
+    -- Proc. R. Soc. A 233, 70 (1955)); checked against exact diagonalization (common practice)
+    local n = 6
+    local rows = {}
+    for i = 1, n do rows[i] = {} end
+    for i = 1, n do
+      for j = i, n do
+        local a = (i == j) and (1.3 * i) or 0.3 * math.sin(1.1 * i + 0.7 * j)
+        rows[i][j], rows[j][i] = a, a
+      end
+    end
+    local H0 = ls.matrix(rows)
+    local I = ls.I
+    local V = ls.zeros(n, n, "complex")
+    for i = 1, n do
+      for j = i, n do
+        local re, im = 0.2 * math.cos(0.9 * i + 1.3 * j), (i == j) and 0 or 0.15 * math.sin(i - 2 * j)
+        V:set(i, j, re, im); V:set(j, i, re, -im)
+      end
+    end
+    local part = ls.perturb(H0, V, { order = 6, levels = { 2 } })   -- bordered route
+    local full = ls.perturb(H0, V, { order = 6 })                   -- full eigenbasis route
+    for k = 0, 6 do
+      assert.is_true(math.abs(part:energy(2, k) - full:energy(2, k)) < 1e-12 * math.max(1, math.abs(full:energy(2, k))), "k = " .. k)
+    end
+    assert.is_true(part:check(0.01).max_error < 1e-12)
+    -- states agree up to the sign of the unperturbed eigenvector
+    local a0, b0 = part:state(2, 0), full:state(2, 0)
+    local sg = ((a0:get(1, 1)) * (b0:get(1, 1)) + (a0:get(2, 1)) * (b0:get(2, 1))) > 0 and 1 or -1
+    for k = 0, 6 do
+      local a, b = part:state(2, k), full:state(2, k)
+      for i = 1, n do
+        local ar, ai = a:get(i, 1)
+        local br, bi = b:get(i, 1)
+        assert.is_true(math.abs(ar - sg * br) < 1e-11 and math.abs(ai - sg * bi) < 1e-11, ("k=%d i=%d"):format(k, i))
+      end
+    end
+  end)
+
   it("two-level system: square-root expansion", function()
     -- E = (1 - sqrt(1 + 4 g^2 lambda^2))/2 for H0 = diag(0, 1), V = g sigma_x-like coupling (from memory;
     -- METHODS.md sec. 2: -g^2/D + g^4/D^3 - 2 g^6/D^5)
