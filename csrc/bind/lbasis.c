@@ -8,6 +8,7 @@
 
 typedef struct {
   lvs_basis *b;
+  lvs_basis *pending; /* closed while a binding was running below; freed by __gc */
 } basis_ud;
 
 typedef struct {
@@ -17,7 +18,7 @@ typedef struct {
 
 static basis_ud *checkbud(lua_State *L, int idx) {
   basis_ud *u = luaL_checkudata(L, idx, LVS_BASIS_MT);
-  if (!u->b) luaL_error(L, "attempt to use a closed basis");
+  if (!u->b) luaL_argerror(L, idx, "attempt to use a closed basis");
   return u;
 }
 
@@ -29,7 +30,7 @@ lvs_basis **lvsL_newbasis(lua_State *L) { return &newbasis(L)->b; }
 
 static basis_ud *newbasis(lua_State *L) {
   basis_ud *u = lua_newuserdatauv(L, sizeof *u, 1);
-  u->b = NULL;
+  u->b = u->pending = NULL;
   luaL_setmetatable(L, LVS_BASIS_MT);
   return u;
 }
@@ -37,6 +38,17 @@ static basis_ud *newbasis(lua_State *L) {
 static int b_gc(lua_State *L) {
   basis_ud *u = luaL_checkudata(L, 1, LVS_BASIS_MT);
   lvs_basis_free(u->b);
+  lvs_basis_free(u->pending);
+  u->b = u->pending = NULL;
+  return 0;
+}
+
+/* close()/__close: a binding running below (a callback closing the basis it
+ * was given) may still hold the basis, so then only __gc frees it */
+static int b_close(lua_State *L) {
+  basis_ud *u = luaL_checkudata(L, 1, LVS_BASIS_MT);
+  if (u->b && lvsL_inside_binding(L)) u->pending = u->b;
+  else lvs_basis_free(u->b);
   u->b = NULL;
   return 0;
 }
@@ -422,11 +434,11 @@ void lvsL_open_basis(lua_State *L, int ctxidx) {
       {"dim", b_dim}, {"sites", b_sites}, {"kind", b_kind}, {"labels", b_labels},
       {"label_names", b_label_names}, {"diag", b_diag}, {"matrix", b_matrix},
       {"identity", b_identity}, {"state", b_state}, {"find", b_find}, {"site", b_site},
-      {"close", b_gc}, {NULL, NULL}};
+      {"close", b_close}, {NULL, NULL}};
   luaL_newmetatable(L, LVS_BASIS_MT);
   lua_pushcfunction(L, b_gc);
   lua_setfield(L, -2, "__gc");
-  lua_pushcfunction(L, b_gc);
+  lua_pushcfunction(L, b_close);
   lua_setfield(L, -2, "__close");
   lua_pushcfunction(L, b_tostring);
   lua_setfield(L, -2, "__tostring");

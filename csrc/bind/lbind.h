@@ -54,6 +54,12 @@ void lvsL_open_solve_series(lua_State *L, int ctxidx);
 void lvsL_open_units(lua_State *L, int ctxidx);
 /* @@FEATURE-OPENERS@@ */
 
+/* 1 when a binding function (one registered with the context as upvalue 1)
+ * is active below the running function, or when running in a coroutine: a
+ * close() then must not free what that binding may hold (it runs a callback
+ * or a metamethod that closed the object); the free is left to __gc */
+int lvsL_inside_binding(lua_State *L);
+
 /* register funcs with the ctx userdata as upvalue into table at -1 */
 void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx);
 

@@ -19,7 +19,7 @@
 
 static lvs_effective *checkeff(lua_State *L, int idx) {
   lvs_effective **p = luaL_checkudata(L, idx, LVS_EFFECTIVE_MT);
-  if (!*p) luaL_error(L, "attempt to use a freed effective Hamiltonian");
+  if (!*p) luaL_argerror(L, idx, "attempt to use a freed effective Hamiltonian");
   return *p;
 }
 

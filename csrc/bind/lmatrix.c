@@ -35,8 +35,10 @@ int lvsL_toscalar(lua_State *L, int idx, double z[2]) {
 /* ---- matrices ------------------------------------------------------------ */
 
 lvs_matrix **lvsL_newmatrix(lua_State *L) {
-  lvs_matrix **p = lua_newuserdatauv(L, sizeof *p, 1);
-  *p = NULL;
+  /* p[0]: the matrix (NULL once closed); p[1]: one closed while a binding
+   * was running below, freed by __gc (see lvsL_inside_binding) */
+  lvs_matrix **p = lua_newuserdatauv(L, 2 * sizeof *p, 1);
+  p[0] = p[1] = NULL;
   luaL_setmetatable(L, LVS_MATRIX_MT);
   return p;
 }
@@ -44,20 +46,29 @@ lvs_matrix **lvsL_newmatrix(lua_State *L) {
 lvs_matrix *lvsL_testmatrix(lua_State *L, int idx) {
   lvs_matrix **p = luaL_testudata(L, idx, LVS_MATRIX_MT);
   if (!p) return NULL;
-  if (!*p) luaL_error(L, "attempt to use a closed matrix");
+  if (!*p) luaL_argerror(L, idx, "attempt to use a closed matrix");
   return *p;
 }
 
 lvs_matrix *lvsL_checkmatrix(lua_State *L, int idx) {
   lvs_matrix **p = luaL_checkudata(L, idx, LVS_MATRIX_MT);
-  if (!*p) luaL_error(L, "attempt to use a closed matrix");
+  if (!*p) luaL_argerror(L, idx, "attempt to use a closed matrix");
   return *p;
 }
 
 static int l_close(lua_State *L) {
   lvs_matrix **p = luaL_checkudata(L, 1, LVS_MATRIX_MT);
-  lvs_matrix_free(*p);
+  if (*p && lvsL_inside_binding(L)) p[1] = *p; /* a caller below may hold it */
+  else lvs_matrix_free(*p);
   *p = NULL;
+  return 0;
+}
+
+static int l_gc(lua_State *L) {
+  lvs_matrix **p = luaL_checkudata(L, 1, LVS_MATRIX_MT);
+  lvs_matrix_free(p[0]);
+  lvs_matrix_free(p[1]);
+  p[0] = p[1] = NULL;
   return 0;
 }
 
@@ -443,7 +454,7 @@ static int l_complex(lua_State *L) {
 void lvsL_open_matrix(lua_State *L, int ctxidx) {
   static const luaL_Reg meta[] = {{"__add", m_add}, {"__sub", m_sub}, {"__mul", m_mul},
                                   {"__div", m_div}, {"__unm", m_unm}, {"__pow", m_pow},
-                                  {"__tostring", m_tostring}, {"__gc", l_close},
+                                  {"__tostring", m_tostring}, {"__gc", l_gc},
                                   {"__close", l_close}, {NULL, NULL}};
   static const luaL_Reg methods[] = {
       {"get", m_get}, {"set", m_set}, {"dim", m_dim}, {"adj", m_adj}, {"copy", m_copy},

@@ -21,6 +21,29 @@ int lvsL_check(lua_State *L, lvs_ctx *ctx, int st, const char *fname) {
   return lua_error(L);
 }
 
+#define LVS_CTX_KEY "levelshift.ctx"
+
+int lvsL_inside_binding(lua_State *L) {
+  if (!lua_pushthread(L)) { /* not the main thread: the caller is out of sight */
+    lua_pop(L, 1);
+    return 1;
+  }
+  lua_pop(L, 1);
+  lua_getfield(L, LUA_REGISTRYINDEX, LVS_CTX_KEY);
+  int ctxud = lua_gettop(L), found = 0;
+  lua_Debug ar;
+  for (int level = 1; !found && lua_getstack(L, level, &ar); level++) {
+    lua_getinfo(L, "f", &ar);
+    if (lua_iscfunction(L, -1) && lua_getupvalue(L, -1, 1)) {
+      found = lua_rawequal(L, -1, ctxud);
+      lua_pop(L, 1);
+    }
+    lua_pop(L, 1);
+  }
+  lua_pop(L, 1);
+  return found;
+}
+
 void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx) {
   for (; l->name; l++) {
     lua_pushvalue(L, ctxidx);
@@ -136,6 +159,8 @@ __attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L)
   *p = lvs_ctx_new((lvs_alloc_fn)f, ud);
   if (!*p) return luaL_error(L, "levelshift: cannot allocate a context");
   int ctxidx = lua_gettop(L);
+  lua_pushvalue(L, ctxidx);
+  lua_setfield(L, LUA_REGISTRYINDEX, LVS_CTX_KEY); /* for lvsL_inside_binding */
   lua_newtable(L);
   static const luaL_Reg fns[] = {{"version", l_version}, {"config", l_config}, {"clock", l_clock}, {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);

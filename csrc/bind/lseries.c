@@ -10,7 +10,7 @@
 
 static lvs_series *checkseries(lua_State *L, int idx) {
   lvs_series **p = luaL_checkudata(L, idx, LVS_SERIES_MT);
-  if (!*p) luaL_error(L, "attempt to use a closed series");
+  if (!*p) luaL_argerror(L, idx, "attempt to use a closed series");
   return *p;
 }
 

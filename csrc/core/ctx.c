@@ -66,6 +66,14 @@ int lvsi_fail(lvs_ctx *ctx, int code, const char *fmt, ...) {
   va_start(ap, fmt);
   vsnprintf(ctx->msg, sizeof ctx->msg, fmt, ap);
   va_end(ap);
+  if (code == LVS_ENOMEM && ctx->refused) { /* say why: a block above the cap */
+    size_t len = strlen(ctx->msg);
+    snprintf(ctx->msg + len, sizeof ctx->msg - len,
+             " (a single block of %.3g GB is above the dense cap of %.3g GB;"
+             " raise it with ls.config{dense_cap = bytes} if the machine has the memory)",
+             ctx->refused / 1e9, ctx->dense_cap / 1e9);
+  }
+  ctx->refused = 0;
   ctx->code = code;
   return code;
 }
@@ -75,6 +83,12 @@ int lvsi_fail(lvs_ctx *ctx, int code, const char *fmt, ...) {
 #define HDR 16
 void *lvsi_malloc(lvs_ctx *ctx, size_t size) {
   if (size > SIZE_MAX - HDR) return NULL;
+  /* no single block beyond the dense cap: a size computed from user input
+   * (states, grid points, steps) fails here instead of exhausting memory */
+  if (size > ctx->dense_cap) {
+    ctx->refused = size;
+    return NULL;
+  }
   unsigned char *p = ctx->alloc(ctx->ud, NULL, 0, size + HDR);
   if (!p) return NULL;
   memcpy(p, &size, sizeof size);

@@ -16,6 +16,7 @@ struct lvs_ctx {
   int code;
   char msg[512];
   size_t dense_cap;
+  size_t refused; /* last block refused by lvsi_malloc for the cap (0: none) */
 };
 
 /* Matrix storage. Stored size rows x cols; for a padded square operator the
@@ -61,9 +62,9 @@ LVSI int lvsi_to_dense(const lvs_matrix *a, lvs_matrix **out);
  * components of the sparsity graph of a (and b), numbered by smallest state */
 LVSI long lvsi_mat_bandwidth(const lvs_matrix *m);
 LVSI int lvsi_components(const lvs_matrix *a, const lvs_matrix *b, size_t *comp, size_t *ncomp);
-
 /* eigen.c: the dense path of lvs_eigen (no structure detection) */
 LVSI int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, double *w, lvs_matrix **vecs);
+
 LVSI int lvsi_check_hermitian(const lvs_matrix *h, double tol, const char *what);
 LVSI int lvsi_basis_twoS(const lvs_basis *b);
 /* basis kinds defined in their own files (box.c, rotor.c); see basis.c */

@@ -29,14 +29,26 @@ end
 --- Format a label value: half-integers as "3/2".
 function ls.format_label(v)
   if type(v) ~= "number" then return tostring(v) end
+  if v ~= v or math.abs(v) >= 2 ^ 62 then return string.format("%g", v) end -- NaN, inf, huge
   if v == math.floor(v) then return string.format("%d", v) end
   if 2 * v == math.floor(2 * v) then return string.format("%d/2", math.floor(2 * v)) end
   return string.format("%g", v)
 end
 
+-- Re-raise the error of a C method called by a sugar method under the sugar's
+-- name (the sugar passes its arguments on in the same positions).
+local function sugar_error(fname, e)
+  e = tostring(e):gsub("^[^\n]-:%d+: ", "")
+  e = e:gsub("^bad argument (#%d+) to '[^']*'", "bad argument %1 to '" .. fname .. "'")
+  e = e:gsub("^calling '[^']*' on bad self", "calling '" .. fname .. "' on bad self")
+  if not e:find(fname, 1, true) then e = fname .. ": " .. e end
+  error(e, 3)
+end
+
 --- B:describe(i) -> "n=3" or "m1=1/2 m2=-1/2" (or the state's name).
 function basis_methods.describe(B, i)
-  local s = B:labels(i)
+  local ok, s = pcall(function() return B:labels(i) end)
+  if not ok then sugar_error("describe", s) end
   if s.name then return s.name end
   local parts = {}
   for k, name in ipairs(B:label_names()) do
@@ -47,7 +59,8 @@ end
 
 --- m:totable() -> rows of numbers (real) or {re, im} pairs (complex).
 function matrix_methods.totable(m)
-  local r, c = m:dim()
+  local ok, r, c = pcall(function() return m:dim() end)
+  if not ok then sugar_error("totable", r) end
   local cplx = m:is_complex()
   local t = {}
   for i = 1, r do
@@ -63,7 +76,11 @@ end
 
 --- m:column(j) -> Lua array of the real parts of column j (vectors)
 function matrix_methods.column(m, j)
-  local r = m:dim()
+  local ok, r, c = pcall(function() return m:dim() end)
+  if not ok then sugar_error("column", r) end
+  if math.type(j) ~= "integer" or j < 1 or j > c then
+    error("bad argument #1 to 'column' (column index must be an integer from 1 to " .. c .. ")", 2)
+  end
   local t = {}
   for i = 1, r do t[i] = (m:get(i, j)) end
   return t

@@ -406,6 +406,7 @@ end
 -- recipe's documentation instead).
 function M.run(name, params)
   params = params or {}
+  if type(params) ~= "table" then error("recipe run: parameters must be a table (got " .. type(params) .. ")", 0) end
   if name == nil or name == "" then
     local l = M.list()
     if #l == 0 then

@@ -1,39 +1,70 @@
--- A short fuzz run: every public function and method with random and hostile
--- arguments. Each call either succeeds or raises a Lua error with a string
--- message; the process never crashes (common practice for a C binding).
+-- A short, deterministic fuzz run (tests/fuzz/harness.lua): every public
+-- function, method and operator with random and hostile arguments. Each call
+-- either returns or raises a Lua error whose value is a string naming the
+-- function; the process never crashes (common practice for a C binding).
+-- Long runs: tests/fuzz/long.lua (DEVELOPERS.md, "Fuzzing").
 local ls = require "levelshift"
+local src = os.getenv("LVS_SOURCE_DIR") or "."
+local H = dofile(src .. "/tests/fuzz/harness.lua")
 
 describe("hostile arguments", function()
-  it("never crash and always raise string errors", function()
-    local vals = { 0, -1, 1.5, 0 / 0, math.huge, -math.huge, "x", {}, { {} }, { { 1, 2 }, { 3 } },
-      function() error("boom") end, function() return "g" end, function() return 0 / 0 end,
-      ls.I, ls.matrix{ { 1 } }, ls.spin(1), ls.oscillator(3), ls.spin(1).Sz, ls.oscillator(3).x,
-      1e18, -1e18, 2 ^ 62, true }
-    local fns = {}
-    for k, v in pairs(ls) do
-      if type(v) == "function" and k ~= "config" and k:sub(1, 1) ~= "_" then fns[#fns + 1] = { k, v } end
+  it("never crash and always raise string errors that name the function", function()
+    local F = H.new(ls, { seed = 20261202, slow = 2 })
+    F.run(4000)
+    local report = F.report()
+    F.finish()
+    assert.are.same({}, report)
+    assert.is_true(F.ok > 200 and F.errors > 1000) -- both paths were exercised
+  end)
+
+  it("finds every function of the module and the methods of each object type", function()
+    local F = H.new(ls, { seed = 7 })
+    local paths = {}
+    for _, f in ipairs(F.funcs) do paths[f.path] = true end
+    for _, name in ipairs { "ls.matrix", "ls.eigen", "ls.perturb", "ls.effective", "ls.sweep", "ls.transition",
+      "ls.pulse.gaussian", "ls.basis", "ls.spin", "ls.oscillator", "ls.product" } do
+      assert.is_true(paths[name], name)
     end
-    local m = ls.oscillator(4).x
-    for k, v in pairs(ls._matrix_methods) do fns[#fns + 1] = { "m:" .. k, function(...) return v(m, ...) end } end
-    local b = ls.oscillator(4)
-    for k, v in pairs(ls._basis_methods) do
-      if k ~= "close" then fns[#fns + 1] = { "b:" .. k, function(...) return v(b, ...) end } end
+    assert.is_nil(paths["ls._run_recipe"]) -- private names are skipped
+    local mts = {}
+    for _, k in ipairs(F.metatables) do mts[k] = true end
+    assert.is_true(mts["levelshift.matrix"] and mts["levelshift.basis"] and mts["levelshift.sweep"])
+    F.run(300)
+    assert.truthy(F.methods("levelshift.matrix"))
+    local has = {}
+    for _, m in ipairs(F.methods("levelshift.matrix")) do has[m] = true end
+    assert.is_true(has.get and has.set and has.adj and has.totable) -- C and Lua methods
+    for _, m in ipairs(F.methods("levelshift.sweep") or {}) do
+      assert.is_false(H.excluded(m), m) -- writers and plotters are never fuzzed
     end
-    local bx, rt = ls.box(3), ls.rotor(1) -- a box for B:potential's callback paths, a rotor's operators
-    fns[#fns + 1] = { "box:potential", function(...) return bx:potential(...) end }
-    fns[#fns + 1] = { "rotor:index", function(k) return rt[k] end }
-    math.randomseed(20261202)
-    local bad = {}
-    for _ = 1, 3000 do
-      local f = fns[math.random(#fns)]
-      local a = { vals[math.random(#vals + 1)], vals[math.random(#vals + 1)], vals[math.random(#vals + 1)] }
-      local ok, e = pcall(f[2], a[1], a[2], a[3])
-      if not ok and type(e) ~= "string" then bad[#bad + 1] = f[1] end
-      local x, y = vals[math.random(#vals)], vals[math.random(#vals)]
-      pcall(function() return x + y end)
-      pcall(function() return x * y end)
-      pcall(function() return x ^ y end)
-    end
-    assert.are.same({}, bad)
+    F.finish()
+  end)
+
+  it("is deterministic for a seed", function()
+    local a = H.new(ls, { seed = 99 })
+    a.run(500)
+    local na, oka = a.calls, a.ok
+    a.finish()
+    local b = H.new(ls, { seed = 99 })
+    b.run(500)
+    assert.are.equal(na, b.calls)
+    assert.are.equal(oka, b.ok)
+    b.finish()
+  end)
+
+  it("survives objects closed by the callback that is using them", function()
+    -- a callback closes the basis diag() is walking, and the op eigen() reads
+    local B = ls.spin(1)
+    local ok, e = pcall(function()
+      return B:diag(function(s) B:close() return s.index end)
+    end)
+    assert.is_true(ok or type(e) == "string")
+    assert.error_matches(function() return B:dim() end, "closed basis", 1, true)
+    local H0 = ls.matrix { { 1, 0 }, { 0, 2 } }
+    local opts = setmetatable({}, { __index = function() H0:close() end })
+    ok, e = pcall(ls.eigen, H0, opts)
+    assert.is_true(ok or type(e) == "string")
+    assert.error_matches(function() return H0:dim() end, "closed matrix", 1, true)
+    collectgarbage("collect")
   end)
 end)
