@@ -295,8 +295,13 @@ static int l_transition(lua_State *L) {
   if (order < 1 || order > 2)
     return luaL_error(L, "bad argument #1 to 'transition' (order must be 1 or 2, got %d)", (int)order);
   sp.order = (int)order;
-  lua_Integer steps = lvsL_optfield_int(L, 1, "steps", 4000, "transition", 1);
-  if (steps < 8 || steps > 100000000)
+  /* steps: nil = chosen from the problem (pulse time scales, or refined
+   * until first order converges) */
+  lua_Integer steps = lvsL_optfield_int(L, 1, "steps", 0, "transition", 1);
+  lua_getfield(L, 1, "steps");
+  int given = !lua_isnil(L, -1);
+  lua_pop(L, 1);
+  if (given && (steps < 8 || steps > 100000000))
     return luaL_error(L, "bad argument #1 to 'transition' (steps must be from 8 to 1e8, got %d)", (int)steps);
   sp.steps = (size_t)steps;
   lvs_transition **out = newtr(L); /* 5 */
