@@ -1529,13 +1529,14 @@ int lvs_sweep_write(const lvs_sweep *s, const char *path) {
       fputc('\n', f);
     }
   }
-  int bad = ferror(f);
-  if (fflush(f) != 0 || fsync(fileno(f)) != 0) bad = 1;
-  if (fclose(f) != 0) bad = 1;
+  int bad = ferror(f), werr = bad ? errno : 0; /* errno of the failed write (ENOSPC ...) */
+  if (!bad && (fflush(f) != 0 || fsync(fileno(f)) != 0)) bad = 1, werr = errno;
+  if (fclose(f) != 0 && !bad) bad = 1, werr = errno;
   if (bad) {
     remove(tmpname);
     lvsi_free(ctx, tmpname);
-    return lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (error while writing)", path);
+    return lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (error while writing: %s); the file is unchanged", path,
+                     strerror(werr ? werr : EIO));
   }
   if (rename(tmpname, path) != 0) {
     int e = errno;

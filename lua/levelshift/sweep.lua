@@ -114,7 +114,14 @@ return function(ls, core)
     local pad = (hi - lo) * 0.08
     if pad == 0 then pad = 1 end
     local data = path .. ".dat.tmp"
-    local f = assert(io.open(data, "w"))
+    -- every temporary file is checked: a full disk or an unwritable folder
+    -- is an error naming the path, and the earlier plot stays as it was
+    local function wfail(what, err)
+      os.remove(data)
+      error("sweep:plot: cannot write '" .. path .. "' (" .. what .. ": " .. tostring(err) .. ")", 3)
+    end
+    local f, ferr = io.open(data, "w")
+    if not f then wfail("opening " .. data, ferr) end
     for k = 1, #p do
       local row = { string.format("%.17g", p[k]) }
       for a = 1, count do row[#row + 1] = string.format("%.17g", E[a][k]) end
@@ -135,7 +142,9 @@ return function(ls, core)
       f:write(string.format("%.17g %.17g\n", c.at, e))
     end
     if #cross == 0 then f:write(string.format("%.17g %.17g\n", 0 / 0, 0 / 0)) end
-    f:close()
+    local wok, werr = f:flush()
+    local cok, cerr = f:close()
+    if not wok or not cok then wfail("writing " .. data, werr or cerr) end
     local xl = lab.param .. (lab.param_unit and (" (" .. lab.param_unit .. ")") or "")
     local yl = "energy" .. (lab.energy_unit and (" (" .. lab.energy_unit .. ")") or "")
     local tmpimg = path .. ".tmp"
@@ -168,9 +177,12 @@ return function(ls, core)
     g[#g + 1] = "plot " .. table.concat(parts, ", \\\n  ")
     g[#g + 1] = "unset output"
     local script = path .. ".gp.tmp"
-    f = assert(io.open(script, "w"))
+    f, ferr = io.open(script, "w")
+    if not f then wfail("opening " .. script, ferr) end
     f:write(table.concat(g, "\n"), "\n")
-    f:close()
+    wok, werr = f:flush()
+    cok, cerr = f:close()
+    if not wok or not cok then os.remove(script) wfail("writing " .. script, werr or cerr) end
     local errf = path .. ".err.tmp"
     local ok = os.execute("gnuplot " .. shq(script) .. " >" .. shq(errf) .. " 2>&1")
     local ef = io.open(errf)

@@ -27,7 +27,11 @@ local H = {}
 
 local WRITERS = { "^write", "^plot", "^save", "^export", "^dump" }
 local STATEFUL = { add_dir = true, attach = true }
-H.WRITERS, H.STATEFUL = WRITERS, STATEFUL
+-- option names that make a function write files (sweep{out=, plot=}): never
+-- learned from error messages, so the fuzz writes nothing
+local WRITER_KEYS = { out = true, plot = true, journal = true, shard = true, merge = true, file = true,
+  path = true, output = true, dir = true }
+H.WRITERS, H.STATEFUL, H.WRITER_KEYS = WRITERS, STATEFUL, WRITER_KEYS
 
 -- Functions whose errors name the thing the user called instead: the
 -- recipe runner behind `levelshift RECIPE ...` and its help speak as 'recipe'.
@@ -379,7 +383,7 @@ function H.new(ls, opts)
     local acc = msg:match("accepted:([^%)]*)%)")
     if acc then
       for k in acc:gmatch("[%w_]+") do
-        if not kseen[k] then
+        if not kseen[k] and not WRITER_KEYS[k] then
           kseen[k] = true
           F.keys[#F.keys + 1] = k
           table.sort(F.keys)

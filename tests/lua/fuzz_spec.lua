@@ -9,11 +9,20 @@ local H = dofile(src .. "/tests/fuzz/harness.lua")
 
 describe("hostile arguments", function()
   it("never crash and always raise string errors that name the function", function()
+    local function listing()
+      local p = io.popen("ls -A")
+      local s = p:read("a")
+      p:close()
+      return s
+    end
+    local before = listing()
     local F = H.new(ls, { seed = 20261202, slow = 2 })
     F.run(4000)
     local report = F.report()
     F.finish()
     assert.are.same({}, report)
+    assert.are.equal(before, listing()) -- it wrote no files
+    for _, k in ipairs(F.keys) do assert.is_nil(H.WRITER_KEYS[k], k) end
     assert.is_true(F.ok > 200 and F.errors > 1000) -- both paths were exercised
   end)
 
