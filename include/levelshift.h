@@ -250,6 +250,11 @@ LVS_API void lvs_effective_free(lvs_effective *e);
 LVS_API size_t lvs_effective_dim(const lvs_effective *e);
 LVS_API int lvs_effective_order(const lvs_effective *e);
 LVS_API const size_t *lvs_effective_levels(const lvs_effective *e); /* BORROWED, ascending */
+/* basis state (0-based) of group member i when H0 is diagonal, else SIZE_MAX */
+LVS_API size_t lvs_effective_state(const lvs_effective *e, size_t i);
+/* level (0-based, ascending energy, ties in basis order) of a basis state of a
+ * diagonal H0; LVS_EINVAL when H0 is not diagonal */
+LVS_API int lvs_level_of_state(const lvs_matrix *h0, size_t state, size_t *level);
 LVS_API int lvs_effective_term(const lvs_effective *e, int k, lvs_matrix **out);
 /* sum_k lambda^k term(k) through order (order < 0: all) */
 LVS_API int lvs_effective_at(const lvs_effective *e, double lambda, int order, lvs_matrix **out);
@@ -258,15 +263,11 @@ LVS_API const char *lvs_effective_warnings(const lvs_effective *e); /* "" when n
  * RS series of the levels of H0 under lambda*V to order K (1..1000),
  * degenerate groups (relative tolerance degen_tol on H0's spectrum) lifted
  * by a recursive Bloch reduction. Levels are 0-based in ascending
-/* basis state (0-based) of group member i when H0 is diagonal, else SIZE_MAX */
-LVS_API size_t lvs_effective_state(const lvs_effective *e, size_t i);
-/* level (0-based, ascending energy, ties in basis order) of a basis state of a
- * diagonal H0; LVS_EINVAL when H0 is not diagonal */
-LVS_API int lvs_level_of_state(const lvs_matrix *h0, size_t state, size_t *level);
  * unperturbed energy, inside a split group by ascending correction.
  * levels/nlevels select levels to compute (nlevels = 0: all). States are
- * in the original basis, complex interleaved, length dim; degenerate-group
- * members have order 0 only. split_order: 0 alone, k split at order k, -1
+ * in the original basis, complex interleaved, length dim, assembled on
+ * request; a member split from its group at order s has states to order
+ * K - s (state_orders). split_order: 0 alone, k split at order k, -1
  * never split within the order. */
 typedef struct lvs_series lvs_series;
 #define LVS_SERIES_NORMALIZED 1 /* flags: normalized states (default: intermediate normalization) */
@@ -281,6 +282,9 @@ LVS_API int lvs_series_energy(const lvs_series *s, size_t level, int k, double *
 LVS_API int lvs_series_at(const lvs_series *s, size_t level, double lambda, double *e);
 LVS_API int lvs_series_info(const lvs_series *s, size_t level, size_t *group, int *split_order, double *min_denominator, int *state_orders);
 LVS_API int lvs_series_state(const lvs_series *s, size_t level, int k, double *psi);
+/* basis state of the level's unperturbed state when H0 is diagonal (*pure:
+ * exactly that state, else its largest component); SIZE_MAX otherwise */
+LVS_API size_t lvs_series_basis_state(const lvs_series *s, size_t level, int *pure);
 /* ---- transitions under time-dependent perturbations (transition.c) -----
  * hbar = 1. H(t) = H0 + pulse(t) V, or H0 + W(t) from a callback. Amplitudes
  * are in the eigenbasis of H0 (levels 0-based by ascending energy),

@@ -50,7 +50,7 @@ static int l_perturb(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_matrix *h0 = lvsL_checkmatrix(L, 1);
   lvs_matrix *v = lvsL_checkmatrix(L, 2);
-  static const char *const known[] = {"order", "levels", "degen_tol", "normalized", "states", NULL};
+  static const char *const known[] = {"order", "levels", "degen_tol", "normalized", "states", "basis", NULL};
   lvsL_checkoptions(L, 3, known, "perturb", 3);
   size_t n = lvs_matrix_rows(h0);
   if (n != lvs_matrix_cols(h0)) {
@@ -73,6 +73,18 @@ static int l_perturb(lua_State *L) {
     return luaL_argerror(L, 3, lua_tostring(L, -1));
   }
   int normalized = 0, states = 1;
+  /* basis = B: labels in the report (B:describe of each level's state) */
+  if (lua_istable(L, 3)) lua_getfield(L, 3, "basis");
+  else lua_pushnil(L);
+  int bidx = lua_gettop(L);
+  if (!lua_isnil(L, bidx)) {
+    if (!luaL_testudata(L, bidx, LVS_BASIS_MT)) return luaL_argerror(L, 3, "'basis' must be a basis");
+    if (lvs_basis_dim(lvsL_checkbasis(L, bidx)) != n) {
+      lua_pushfstring(L, "'basis' has %d states but H0 is %dx%d", (int)lvs_basis_dim(lvsL_checkbasis(L, bidx)), (int)n,
+                      (int)n);
+      return luaL_argerror(L, 3, lua_tostring(L, -1));
+    }
+  }
   size_t nlev = 0;
   size_t *levels = NULL;
   if (lua_istable(L, 3)) {
@@ -101,7 +113,7 @@ static int l_perturb(lua_State *L) {
       }
     }
   }
-  lvs_series **p = lua_newuserdatauv(L, sizeof *p, 2);
+  lvs_series **p = lua_newuserdatauv(L, sizeof *p, 3);
   *p = NULL;
   luaL_setmetatable(L, LVS_SERIES_MT);
   int st = lvs_series_new(h0, v, (int)order, levels, nlev, tol,
@@ -117,6 +129,30 @@ static int l_perturb(lua_State *L) {
   lua_setiuservalue(L, -2, 1);
   lua_pushvalue(L, 2);
   lua_setiuservalue(L, -2, 2);
+  lua_pushvalue(L, bidx);
+  lua_setiuservalue(L, -2, 3);
+  return 1;
+}
+
+/* s:label(level) -> B:describe of the level's basis state ("~" in front when
+ * it is only the largest component of a degenerate member's combination),
+ * or nil without a basis or when H0 is not diagonal */
+static int s_label(lua_State *L) {
+  lvs_series *s = checkseries(L, 1);
+  size_t lev = checklevel(L, s, 2, "label");
+  int pure;
+  size_t st = lvs_series_basis_state(s, lev, &pure);
+  if (lua_getiuservalue(L, 1, 3) == LUA_TNIL || st == (size_t)-1) {
+    lua_pushnil(L);
+    return 1;
+  }
+  int bidx = lua_gettop(L);
+  if (!pure) lua_pushliteral(L, "~");
+  lua_getfield(L, bidx, "describe");
+  lua_pushvalue(L, bidx);
+  lua_pushinteger(L, (lua_Integer)st + 1);
+  lua_call(L, 2, 1);
+  if (!pure) lua_concat(L, 2);
   return 1;
 }
 
@@ -279,7 +315,7 @@ void lvsL_open_series(lua_State *L, int ctxidx) {
   static const luaL_Reg methods[] = {{"energy", s_energy}, {"at", s_at},         {"state", s_state},
                                      {"info", s_info},     {"groups", s_groups}, {"dim", s_dim},
                                      {"order", s_order},   {"vnorm", s_vnorm},   {"levels", s_levels},
-                                     {"operators", s_operators}, {NULL, NULL}};
+                                     {"operators", s_operators}, {"label", s_label}, {NULL, NULL}};
   luaL_newmetatable(L, LVS_SERIES_MT);
   lvsL_setfuncs(L, meta, ctxidx);
   lua_newtable(L);

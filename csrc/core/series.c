@@ -1128,6 +1128,31 @@ static int lev_ok(const lvs_series *s, size_t level) {
 
 int lvs_series_has(const lvs_series *s, size_t level) { return level < s->n && s->slot[level] >= 0; }
 
+/* The basis state (0-based) that carries the level's unperturbed state when
+ * H0 is diagonal: the state itself (*pure = 1) or, for a member of a
+ * degenerate group, the largest component of its zeroth-order combination
+ * (*pure = 0). SIZE_MAX when H0 is not diagonal or no states were kept. */
+size_t lvs_series_basis_state(const lvs_series *s, size_t level, int *pure) {
+  if (pure) *pure = 0;
+  if (!lvs_series_has(s, level) || s->U) return SIZE_MAX;
+  const slevel *L = LEV(s, level);
+  const sgroup *g = &s->grp[L->gi];
+  if (g->direct) return SIZE_MAX;
+  if (g->d == 1) {
+    if (pure) *pure = 1;
+    return s->perm[g->g0];
+  }
+  if (!L->z) return SIZE_MAX;
+  size_t best = 0;
+  int count = 0;
+  for (size_t b = 0; b < g->d; b++) {
+    if (cabs(L->z[b]) > 1e-12) count++;
+    if (cabs(L->z[b]) > cabs(L->z[best])) best = b;
+  }
+  if (pure) *pure = count == 1;
+  return s->perm[g->g0 + best];
+}
+
 int lvs_series_energy(const lvs_series *s, size_t level, int k, double *e) {
   int st = lev_ok(s, level);
   if (st) return st;

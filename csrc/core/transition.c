@@ -42,7 +42,7 @@ enum { P_GAUSS, P_SQUARE, P_SINE, P_RAMP, P_SUM };
 
 /* default grid refinement: the first-order error estimate (change from
  * halving) relative to the amplitude, see rel_err */
-#define LVS_TRANSITION_RTOL 1e-8
+#define LVS_TRANSITION_RTOL 1e-7
 
 struct lvs_pulse {
   lvs_ctx *ctx;
@@ -988,7 +988,10 @@ int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transiti
     /* a Lua function (or a pulse of too many carriers): halve the grid until
      * the first-order amplitudes agree */
     size_t N = explicit_steps ? explicit_steps : 512;
-    size_t cap = sp->src.field_fn ? (size_t)1 << 17 : (size_t)1 << 20;
+    /* field samples are n x n each: at most about 256 MB of them */
+    size_t cap = (size_t)1 << 20;
+    if (sp->src.field_fn && cap > ((size_t)1 << 24) / (n * n)) cap = ((size_t)1 << 24) / (n * n);
+    if (cap < 4096) cap = 4096;
     if (N > cap) cap = N;
     for (;;) {
       if ((st = sample_global(tr, &se, N, &S)) || (st = fo_sampled(tr, &S, vcol))) goto fail;
@@ -1006,7 +1009,9 @@ int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transiti
     double complex *b = lvsi_calloc(ctx, n, sizeof(double complex));
     double *e2 = lvsi_calloc(ctx, n, sizeof(double));
     if (!b || !e2) { lvsi_free(ctx, b), lvsi_free(ctx, e2); st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory"); goto fail; }
-    size_t cap = sp->src.field_fn ? (size_t)1 << 17 : (size_t)1 << 21;
+    size_t cap = (size_t)1 << 21;
+    if (sp->src.field_fn && cap > ((size_t)1 << 24) / (n * n)) cap = ((size_t)1 << 24) / (n * n);
+    if (cap < 4096) cap = 4096;
     for (;;) {
       tr->steps = S.N;
       if ((st = second_order(tr, &S, 1, tr->a[2])) || (st = second_order(tr, &S, 2, b))) break;

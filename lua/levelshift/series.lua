@@ -165,7 +165,7 @@ return function(ls, core)
       local c = {}
       for k = 1, s:order() do c[k] = s:energy(lev, k) end
       t.levels[#t.levels + 1] = { level = lev, E0 = info.E0, corrections = c, split_order = info.split_order,
-        group = info.group, min_denominator = info.min_denominator }
+        group = info.group, min_denominator = info.min_denominator, label = s:label(lev) }
     end
     return t
   end
@@ -174,7 +174,17 @@ return function(ls, core)
     local K = s:order()
     local lines = { string.format("perturbation series: %d states, order %d", s:dim(), K) }
     local show = math.min(K, 6)
-    local head = { string.format("%6s %5s %6s %14s", "level", "group", "split", "E0") }
+    local labels, lw = {}, 0
+    for _, lev in ipairs(s:levels()) do
+      labels[lev] = s:label(lev)
+      if labels[lev] then lw = math.max(lw, math.min(#labels[lev], 24)) end
+    end
+    local function lab(lev)
+      if lw == 0 then return "" end
+      return string.format(" %-" .. lw .. "s", (labels[lev] or "-"):sub(1, lw))
+    end
+    local head = { string.format("%6s%s %5s %6s %14s", "level", lw > 0 and string.format(" %-" .. lw .. "s", "state") or "",
+      "group", "split", "E0") }
     for k = 1, show do head[#head + 1] = string.format("%14s", "E(" .. k .. ")") end
     lines[#lines + 1] = table.concat(head, " ")
     local warn = {}
@@ -182,7 +192,7 @@ return function(ls, core)
     for _, lev in ipairs(s:levels()) do
       local info = s:info(lev)
       local split = info.split_order == 0 and "-" or (info.split_order < 0 and "none" or tostring(info.split_order))
-      local row = { string.format("%6d %5d %6s %14.8g", lev, info.group, split, info.E0) }
+      local row = { string.format("%6d%s %5d %6s %14.8g", lev, lab(lev), info.group, split, info.E0) }
       for k = 1, show do row[#row + 1] = string.format("%14.7g", s:energy(lev, k)) end
       lines[#lines + 1] = table.concat(row, " ")
       if info.min_denominator < 1e-6 * math.max(1, math.abs(info.E0)) then
@@ -192,6 +202,7 @@ return function(ls, core)
     end
     if K > show then lines[#lines + 1] = string.format("(orders %d..%d: s:energy(level, k))", show + 1, K) end
     lines[#lines + 1] = "split: order at which a degenerate level separated ('-' non-degenerate, 'none' not within the order)"
+    if lw > 0 then lines[#lines + 1] = "state: the unperturbed basis state ('~': largest component of a degenerate member's combination)" end
     if #warn > 0 then
       lines[#lines + 1] = "warnings:"
       for _, w in ipairs(warn) do lines[#lines + 1] = w end

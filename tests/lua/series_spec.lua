@@ -253,6 +253,20 @@ describe("ls.perturb", function()
       assert.is_true(math.abs(s:energy(i, 1) - want[i]) < 1e-12)
     end
     assert.are.equal(1, s:info(1).split_order)
+    -- with the basis the report names each level's unperturbed state (common practice)
+    local B = ls.basis { "2s", "2p0", "2p+1", "2p-1" }
+    local sb = ls.perturb(H0, V, { order = 3, basis = B })
+    assert.are.equal("2p+1", sb:label(2))
+    assert.are.equal("~2s", sb:label(1)) -- (2s + 2p0)/sqrt 2: the first largest component, marked
+    local text = tostring(sb)
+    assert.is_truthy(text:find("level state", 1, true))
+    assert.is_truthy(text:find("\n     2 2p+1 ", 1, true), text)
+    assert.are.equal("~2s", sb:totable().levels[4].label)
+    assert.is_nil(s:label(1)) -- no basis given
+    assert.error_matches(function() ls.perturb(H0, V, { basis = ls.basis(3) }) end,
+      "bad argument #3 to 'perturb' ('basis' has 3 states but H0 is 4x4)", 1, true)
+    assert.error_matches(function() ls.perturb(H0, V, { basis = "x" }) end,
+      "bad argument #3 to 'perturb' ('basis' must be a basis)", 1, true)
   end)
 
   it("complex Hermitian input, non-diagonal H0", function()

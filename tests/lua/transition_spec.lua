@@ -295,3 +295,116 @@ describe("transition: errors", function()
     assert(ex == nil and msg:find("no convergence to tol 1e-15 within 64 steps", 1, true) and code == 5, tostring(msg))
   end)
 end)
+
+describe("transition: fast carriers under an envelope (default options)", function()
+  -- Two levels 0 and w0 coupled by g, V(t) = g env(t) sin(w t + phi). Writing
+  -- sin x = (e^{ix} - e^{-ix})/2i (Euler), first order (Dirac; Sakurai, Modern
+  -- Quantum Mechanics, Sec. 5.6, Eq. for c^(1)) gives
+  --   a = -i g (1/2i) [e^{i phi} G(w0 + w) - e^{-i phi} G(w0 - w)],  G(k) = int env(t) e^{ikt} dt.
+  -- For env = exp(-(t - c)^2/(2 s^2)), G(k) = e^{ikc} s sqrt(2 pi) e^{-k^2 s^2/2}
+  -- (Fourier transform of a Gaussian, Abramowitz & Stegun 7.4.6).
+  local function gauss_ft(k, c, s)
+    local m = s * math.sqrt(2 * math.pi) * math.exp(-k * k * s * s / 2)
+    return { m * math.cos(k * c), m * math.sin(k * c) }
+  end
+  local function first_order(g, phi, Gp, Gm)
+    -- -i g (1/2i) [...] = -(g/2) [e^{i phi} Gp - e^{-i phi} Gm]
+    local t = cadd(cmul(cexpi(phi), Gp), cmul(cexpi(-phi), { -Gm[1], -Gm[2] }))
+    return { -g / 2 * t[1], -g / 2 * t[2] }
+  end
+  local w0, g = 250.0, 1e-3
+  local H0 = ls.matrix{{0, 0}, {0, w0}}
+  local V = ls.matrix{{0, g}, {g, 0}}
+
+  it("Gaussian envelope, w s = 1000, on and off resonance: the closed form to 1e-6", function()
+    local s = 4.0
+    for _, case in ipairs{ { c = 0, det = 0, phi = math.pi / 2 }, { c = 3.7, det = 1.3 / s, phi = 0.4 } } do
+      local w = w0 - case.det
+      local pulse = ls.pulse.sine{amplitude = 1, omega = w, phase = case.phi,
+                                  envelope = ls.pulse.gaussian{amplitude = 1, center = case.c, width = s}}
+      local tr = ls.transition{H0 = H0, V = V, pulse = pulse, from = 1, t0 = -math.huge, t1 = math.huge}
+      local want = first_order(g, case.phi, gauss_ft(w0 + w, case.c, s), gauss_ft(w0 - w, case.c, s))
+      local re, im = tr:amplitude(2)
+      local mag = math.sqrt(want[1] ^ 2 + want[2] ^ 2)
+      near(re, want[1], 1e-6 * mag, "Re a, c = " .. case.c)
+      near(im, want[2], 1e-6 * mag, "Im a, c = " .. case.c)
+      near(tr:probability(2), mag * mag, 1e-6 * mag * mag, "P")
+      assert(tr:error(2) < 1e-6 * mag and tr:warnings() == "", tr:warnings())
+    end
+  end)
+
+  it("a sum of two carriers drives two levels term by term", function()
+    -- three levels 0, 170, 310; each carrier resonant with one level, the
+    -- other term at least 140 * 6 widths off (its share is e^{-(140*6)^2/2} = 0)
+    local H3 = ls.matrix{{0, 0, 0}, {0, 170, 0}, {0, 0, 310}}
+    local V3 = ls.matrix{{0, 2e-3, 5e-4}, {2e-3, 0, 0}, {5e-4, 0, 0}}
+    local p = ls.pulse.sine{omega = 170, envelope = ls.pulse.gaussian{width = 6}}
+            + ls.pulse.sine{omega = 310, phase = 1.1, envelope = ls.pulse.gaussian{center = 2, width = 9}}
+    local tr = ls.transition{H0 = H3, V = V3, pulse = p, from = 1, t0 = -math.huge, t1 = math.huge}
+    local a2 = first_order(2e-3, 0, gauss_ft(340, 0, 6), gauss_ft(0, 0, 6))
+    local a3 = first_order(5e-4, 1.1, gauss_ft(620, 2, 9), gauss_ft(0, 2, 9))
+    local re, im = tr:amplitude(2)
+    near(re, a2[1], 1e-6 * math.abs(a2[1]) + 1e-12, "Re a(1->2)"); near(im, a2[2], 1e-6 * math.abs(a2[1]), "Im a(1->2)")
+    re, im = tr:amplitude(3)
+    local m3 = math.sqrt(a3[1] ^ 2 + a3[2] ^ 2)
+    near(re, a3[1], 1e-6 * m3, "Re a(1->3)"); near(im, a3[2], 1e-6 * m3, "Im a(1->3)")
+  end)
+
+  it("a linear ramp envelope under a fast carrier, piece by piece", function()
+    -- env = t/L on [0, L], 1 after; window [0, T]. G(k) = int_0^L (t/L) e^{ikt} dt + int_L^T e^{ikt} dt
+    -- = [e^{ikL}(L/(ik) + 1/k^2) - 1/k^2]/L + (e^{ikT} - e^{ikL})/(ik)   (integration by parts, common practice)
+    local L, T = 7.0, 20.0
+    local function G(k)
+      if k == 0 then return { L / 2 + (T - L), 0 } end
+      local eL, eT = cexpi(k * L), cexpi(k * T)
+      local ik_inv = { 0, -1 / k } -- 1/(ik)
+      local r = cadd(cmul(eL, cadd(cmul({ L, 0 }, ik_inv), { 1 / (k * k), 0 })), { -1 / (k * k), 0 })
+      r = { r[1] / L, r[2] / L }
+      return cadd(r, cmul(cadd(eT, { -eL[1], -eL[2] }), ik_inv))
+    end
+    local pulse = ls.pulse.sine{omega = w0, envelope = ls.pulse.ramp{from = 0, to = 1, start = 0, stop = L}}
+    local tr = ls.transition{H0 = H0, V = V, pulse = pulse, from = 1, t0 = 0, t1 = T}
+    local want = first_order(g, 0, G(2 * w0), G(0))
+    local re, im = tr:amplitude(2)
+    local mag = math.sqrt(want[1] ^ 2 + want[2] ^ 2)
+    near(re, want[1], 1e-8 * mag, "Re a"); near(im, want[2], 1e-8 * mag, "Im a")
+  end)
+
+  it("a Lua function with a fast carrier is refined until first order converges", function()
+    -- same closed form (c = 0, phi = pi/2: a cosine carrier); the window cut
+    -- at +-10 s changes G by erfc(10/sqrt2) ~ 1.5e-23 relative
+    local s = 4.0
+    local f = function(t) return math.exp(-t * t / (2 * s * s)) * math.cos(w0 * t) end
+    local want = first_order(g, math.pi / 2, gauss_ft(2 * w0, 0, s), gauss_ft(0, 0, s))
+    local P = want[1] ^ 2 + want[2] ^ 2
+    local tr = ls.transition{H0 = H0, V = V, pulse = f, from = 1, t0 = -10 * s, t1 = 10 * s}
+    near(tr:probability(2), P, 1e-6 * P, "P, refined Lua pulse")
+    assert(tr:steps() > 4000 and tr:warnings() == "", tr:steps() .. " " .. tr:warnings())
+    -- an explicit steps= is honoured, with a warning when halving changes the result
+    local coarse = ls.transition{H0 = H0, V = V, pulse = f, from = 1, t0 = -10 * s, t1 = 10 * s, steps = 4000}
+    assert(coarse:steps() == 4000)
+    assert(coarse:warnings():find("first-order error estimate", 1, true), coarse:warnings())
+    -- and so is a built-in envelope far narrower than the explicit grid
+    local narrow = ls.transition{H0 = H0, V = V, from = 1, t0 = -10, t1 = 10, steps = 64,
+                                 pulse = ls.pulse.gaussian{amplitude = 1, center = 0.1, width = 0.05}}
+    assert(narrow:warnings():find("with steps = 64", 1, true), narrow:warnings())
+  end)
+
+  it("the disagreement warning names the level that matters most", function()
+    -- invented three-level case: 1 -> 3 driven on resonance (first order 0.39, saturating),
+    -- level 2 (near level 1) reached only through level 3 at second order (exact 0.028)
+    local H = ls.matrix{{0, 0, 0}, {0, 0.05, 0}, {0, 0, 2.0}}
+    local Vr = ls.matrix{{0, 0, 0.05}, {0, 0, 0.05}, {0.05, 0.05, 0}}
+    local p = ls.pulse.sine{omega = 2.0, phase = math.pi / 2, envelope = ls.pulse.gaussian{width = 10}}
+    local tr = ls.transition{H0 = H, V = Vr, pulse = p, from = 1, t0 = -math.huge, t1 = math.huge}
+    local ex = tr:exact()
+    assert(ex:probability(2) > 0.01 and tr:probability(2) == 0)
+    local w = tr:warnings()
+    assert(w:find("disagree (level 3:", 1, true) and not w:find("level 2:", 1, true), w)
+    -- a second-order effect below 1% of the main probability is no disagreement (common practice)
+    local Vw = ls.matrix{{0, 0, 0.01}, {0, 0, 0.002}, {0.01, 0.002, 0}}
+    local weak = ls.transition{H0 = H, V = Vw, pulse = p, from = 1, t0 = -math.huge, t1 = math.huge}
+    weak:exact()
+    assert(weak:warnings() == "", weak:warnings())
+  end)
+end)
