@@ -483,11 +483,6 @@ LVS_API int lvs_clebsch_gordan(lvs_ctx *ctx, int two_j1, int two_m1, int two_j2,
 LVS_API int lvs_wigner_3j(lvs_ctx *ctx, int two_j1, int two_j2, int two_j3, int two_m1, int two_m2,
                           int two_m3, double *out);
 
-/* ---- units: CODATA 2018 constants and conversions (units.c) ------------- */
-/* Source: Tiesinga, Mohr, Newell, Taylor, "CODATA recommended values of the
- * fundamental physical constants: 2018", Rev. Mod. Phys. 93, 025010 (2021). */
-typedef struct {
-  const char *name;   /* e.g. "mu_B", "E_h", "alpha" */
 /* ---- structure, radial grids, linear-solve series (blocks.c, radial.c,
  * solve_series.c) ---------------------------------------------------------
  * Block assembly: blk is an nbr x nbc row-major grid of operators (NULL = a
@@ -524,6 +519,11 @@ LVS_API const double *lvs_dlseries_state(const lvs_dlseries *s, int k);  /* BORR
 /* sum_k lambda^k E(k) through order (order < 0: all) */
 LVS_API int lvs_dlseries_at(const lvs_dlseries *s, double lambda, int order, double *e);
 
+/* ---- units: CODATA 2018 constants and conversions (units.c) ------------- */
+/* Source: Tiesinga, Mohr, Newell, Taylor, "CODATA recommended values of the
+ * fundamental physical constants: 2018", Rev. Mod. Phys. 93, 025010 (2021). */
+typedef struct {
+  const char *name;   /* e.g. "mu_B", "E_h", "alpha" */
   double value;       /* SI unless `unit` says otherwise */
   double uncertainty; /* standard uncertainty in the same unit; 0 = exact */
   const char *unit;   /* e.g. "J T^-1"; "" = dimensionless */
