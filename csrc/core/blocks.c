@@ -19,6 +19,15 @@ static double complex bval(const lvs_matrix *m, size_t k) {
  * copies). 0 for a diagonal or empty matrix. */
 long lvsi_mat_bandwidth(const lvs_matrix *m) {
   long b = 0;
+  if (m->sparse && !m->cplx) {
+    for (size_t j = 0; j < m->cols; j++)
+      for (size_t k = m->cp[j]; k < m->cp[j + 1]; k++) {
+        long d = (long)m->ri[k] - (long)j;
+        d = d < 0 ? -d : d;
+        if (d > b && m->a[k] != 0.0) b = d;
+      }
+    return b;
+  }
   if (m->sparse) {
     for (size_t j = 0; j < m->cols; j++)
       for (size_t k = m->cp[j]; k < m->cp[j + 1]; k++) {

@@ -25,6 +25,9 @@
 #include <string.h>
 #include "internal.h"
 
+#define MAXD(a, b) ((a) > (b) ? (a) : (b))
+#define MIND(a, b) ((a) < (b) ? (a) : (b))
+
 struct lvs_dlseries {
   lvs_ctx *ctx;
   size_t n;
@@ -285,10 +288,7 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
   double *e2 = lvsi_malloc(ctx, n * sizeof(double));
   double *dl = lvsi_malloc(ctx, n * sizeof(double));
   double *dd = lvsi_malloc(ctx, n * sizeof(double));
-  double *du = lvsi_malloc(ctx, n * sizeof(double));
-  double *du2 = lvsi_malloc(ctx, n * sizeof(double));
-  lapack_int *ipiv = lvsi_malloc(ctx, n * sizeof(lapack_int));
-  if (!d || !e2 || !dl || !dd || !du || !du2 || !ipiv) {
+  if (!d || !e2 || !dl || !dd) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory finding the unperturbed level");
     goto done;
   }
@@ -297,18 +297,18 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
     d[i] = hb[2 * i];
     double el = i > 0 ? fabs(hb[2 * (i - 1) + 1]) : 0.0, er = i + 1 < n ? fabs(hb[2 * i + 1]) : 0.0;
     if (i + 1 < n) e2[i] = hb[2 * i + 1] * hb[2 * i + 1];
-    lo = fmin(lo, d[i] - el - er);
-    hi = fmax(hi, d[i] + el + er);
-    emax = fmax(emax, er);
+    lo = MIND(lo, d[i] - el - er);
+    hi = MAXD(hi, d[i] + el + er);
+    emax = MAXD(emax, er);
   }
-  double scale = fmax(fabs(lo), fabs(hi));
+  double scale = MAXD(fabs(lo), fabs(hi));
   if (scale == 0.0) scale = 1.0;
-  double pivmin = 2.2250738585072014e-308 * fmax(1.0, emax * emax);
+  double pivmin = 2.2250738585072014e-308 * MAXD(1.0, emax * emax);
   double a = lo - 1e-12 * scale, bb = hi + 1e-12 * scale;
   size_t ca = 0, cb = n; /* Sturm counts at a and bb: ca <= level < cb */
   double x[LANES];
   size_t cnt[LANES];
-  int extra = 1, retries = 0, comp_found = 0;
+  int extra = 0, retries = 0, comp_found = 0;
   for (;;) {
     /* narrow [a, bb] until eigenvalue `level` is alone in it (then `extra`
      * more passes) */
@@ -382,20 +382,24 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
     for (int it = 0; it < 10; it++) {
       double *vs = vec + s0;
       const double *ds = d + s0, *es = hb + 2 * s0 + 1; /* off-diagonal es[2 i] */
-      for (size_t i = 0; i < m; i++) {
-        dd[i] = ds[i] - sigma;
-        if (i + 1 < m) dl[i] = du[i] = es[2 * i];
+      /* (T - sigma) = L D L^T without pivoting, fused with the forward
+       * substitution: inverse iteration tolerates the element growth, and a
+       * tiny pivot is replaced by pivmin as in the Sturm count (source:
+       * common practice, cf. LAPACK dlar1v) */
+      double piv = ds[0] - sigma;
+      if (fabs(piv) < pivmin) piv = -pivmin;
+      dd[0] = piv;
+      for (size_t i = 1; i < m; i++) {
+        double e = es[2 * (i - 1)], l = e / dd[i - 1];
+        dl[i - 1] = l;
+        piv = (ds[i] - sigma) - l * e;
+        if (fabs(piv) < pivmin) piv = -pivmin;
+        dd[i] = piv;
+        vs[i] -= l * vs[i - 1];
       }
-      lapack_int info = LAPACKE_dgttrf((lapack_int)m, dl, dd, du, du2, ipiv);
-      if (info > 0) dd[info - 1] = pivmin; /* sigma is an eigenvalue to working precision */
-      double nv = sqrt(dot(m, vs, vs));
-      for (size_t i = 0; i < m; i++) vs[i] /= nv;
-      info = LAPACKE_dgttrs_work(LAPACK_COL_MAJOR, 'N', (lapack_int)m, 1, dl, dd, du, du2, ipiv, vs,
-                                 (lapack_int)m);
-      if (info) {
-        st = lvsi_fail(ctx, LVS_ELAPACK, "dgttrs failed (info %d)", (int)info);
-        goto done;
-      }
+      vs[m - 1] /= dd[m - 1];
+      for (size_t i = m - 1; i-- > 0;) vs[i] = vs[i] / dd[i] - dl[i] * vs[i + 1];
+      double nv;
       nv = sqrt(dot(m, vs, vs));
       /* rho = v^T T v / v^T v, residual |T v - rho v| / |v| */
       double inv = 1.0 / nv, r2 = 0.0;
@@ -437,9 +441,6 @@ done:
   lvsi_free(ctx, e2);
   lvsi_free(ctx, dl);
   lvsi_free(ctx, dd);
-  lvsi_free(ctx, du);
-  lvsi_free(ctx, du2);
-  lvsi_free(ctx, ipiv);
   return st;
 }
 
@@ -467,7 +468,7 @@ static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, 
   if (level != 0 || nsplit == 0) return tridiag_range(ctx, hb, n, level, E, vec);
   double scale = 0.0;
   for (size_t i = 0; i < n; i++)
-    scale = fmax(scale, fabs(hb[2 * i]) + 2 * (i + 1 < n ? fabs(hb[2 * i + 1]) : 0.0));
+    scale = MAXD(scale, fabs(hb[2 * i]) + 2 * (i + 1 < n ? fabs(hb[2 * i + 1]) : 0.0));
   double tau = 1e-10 * (scale > 0 ? scale : 1.0), best = INFINITY;
   size_t bs = 0, bt = 0;
   memset(vec, 0, n * sizeof(double));
@@ -553,7 +554,7 @@ static int find_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t b, size_t 
     /* inverse iteration with (H - w I), LU with pivoting */
     double ev = w[level - lo];
     double scale = 0.0;
-    for (size_t i = 0; i < n; i++) scale = fmax(scale, fabs(hb[i * ld]));
+    for (size_t i = 0; i < n; i++) scale = MAXD(scale, fabs(hb[i * ld]));
     double shift = ev + 1e-13 * (scale > 0 ? scale : 1.0);
     size_t ldl = 3 * b + 1;
     double *lu = lvsi_calloc(ctx, ldl * n, sizeof(double));
@@ -588,8 +589,8 @@ static int find_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t b, size_t 
   }
   *E = w[level - lo];
   double g = lo == hi ? NAN : INFINITY; /* tridiagonal: isolation checked by Sturm counts */
-  if (level > lo) g = fmin(g, w[level - lo] - w[0]);
-  if (hi > level) g = fmin(g, w[hi - lo] - w[level - lo]);
+  if (level > lo) g = MIND(g, w[level - lo] - w[0]);
+  if (hi > level) g = MIND(g, w[hi - lo] - w[level - lo]);
   *gap = g;
   /* fix the sign: largest component positive (deterministic) */
   size_t p = 0;
@@ -597,6 +598,47 @@ static int find_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t b, size_t 
     if (fabs(vec[i]) > fabs(vec[p])) p = i;
   if (vec[p] < 0)
     for (size_t i = 0; i < n; i++) vec[i] = -vec[i];
+  return LVS_OK;
+}
+
+/* Symmetry and finiteness of H from its lower band hb and its upper
+ * entries, in O(n b) (the generic check searches every transposed entry).
+ * Same messages as lvsi_check_hermitian. */
+static int band_check(lvs_ctx *ctx, const lvs_matrix *h, size_t b, const double *hb) {
+  size_t n = h->rows, ld = b + 1;
+  double scale = 0.0;
+  size_t cnt = h->sparse ? h->nnz : n * n;
+  for (size_t k = 0; k < cnt; k++) {
+    if (!isfinite(h->a[k])) return lvsi_fail(ctx, LVS_EINVAL, "H0 has a NaN or infinite entry");
+    double v = fabs(h->a[k]);
+    scale = MAXD(scale, v);
+  }
+  if (b == 0) return LVS_OK;
+  double *ub = lvsi_calloc(ctx, ld * n, sizeof(double));
+  if (!ub) return lvsi_fail(ctx, LVS_ENOMEM, "out of memory checking H0");
+  for (size_t j = 0; j < n; j++) {
+    if (h->sparse) {
+      for (size_t k = h->cp[j]; k < h->cp[j + 1] && h->ri[k] < j; k++) ub[(j - h->ri[k]) + h->ri[k] * ld] = h->a[k];
+    } else {
+      for (size_t i = j >= b ? j - b : 0; i < j; i++) ub[(j - i) + i * ld] = h->a[i + j * n];
+    }
+  }
+  double worst = 0.0;
+  size_t wi = 0, wj = 0;
+  for (size_t i = 0; i < n; i++)
+    for (size_t d = 1; d <= b && i + d < n; d++) {
+      double diff = fabs(ub[d + i * ld] - hb[d + i * ld]); /* H(i, i+d) vs H(i+d, i) */
+      if (diff > worst) {
+        worst = diff;
+        wi = i;
+        wj = i + d;
+      }
+    }
+  lvsi_free(ctx, ub);
+  if (worst > LVS_DEFAULT_HERM_TOL * (scale > 0 ? scale : 1.0))
+    return lvsi_fail(ctx, LVS_ENOTHERM,
+                     "H0 is not Hermitian: |H(%zu,%zu) - conj(H(%zu,%zu))| = %.3g (largest entry %.3g)",
+                     wi + 1, wj + 1, wj + 1, wi + 1, worst, scale);
   return LVS_OK;
 }
 
@@ -627,7 +669,6 @@ int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
   if (h0->vis && (st = lvs_matrix_visible(h0, 0, &hp))) goto done;
   if (v->vis && (st = lvs_matrix_visible(v, 0, &vp))) goto done;
   const lvs_matrix *H = hp ? hp : h0, *Vm = vp ? vp : v;
-  if ((st = lvsi_check_hermitian(H, LVS_DEFAULT_HERM_TOL, "H0"))) goto done;
   if ((st = lvsi_check_hermitian(Vm, LVS_DEFAULT_HERM_TOL, "V"))) goto done;
   size_t b = (size_t)lvsi_mat_bandwidth(H);
   /* the LU fallback needs 3b+1 rows of band storage; keep under the cap */
@@ -654,10 +695,11 @@ int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
     goto done;
   }
   lower_band(H, b, hb);
+  if ((st = band_check(ctx, H, b, hb))) goto done;
   double *nvec = s->psi, E0 = 0.0;
   double scale = 0.0;
-  for (size_t i = 0; i < n; i++) scale = fmax(scale, fabs(hb[i * (b + 1)]));
-  if (b) scale = fmax(scale, 2 * fabs(hb[1]));
+  for (size_t i = 0; i < n; i++) scale = MAXD(scale, fabs(hb[i * (b + 1)]));
+  if (b) scale = MAXD(scale, 2 * fabs(hb[1]));
   if (scale == 0.0) scale = 1.0;
   if (!opts->state) {
     if ((st = find_pair(ctx, hb, n, b, opts->level, &E0, nvec, &s->gap))) goto done;
@@ -692,7 +734,7 @@ int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
   for (size_t i = 1; i < n; i++)
     if (fabs(nvec[i]) > fabs(nvec[p])) p = i;
   double sigma = 0.0;
-  for (size_t i = 0; i < n; i++) sigma = fmax(sigma, fabs(hb[i * (b + 1)] - E0));
+  for (size_t i = 0; i < n; i++) sigma = MAXD(sigma, fabs(hb[i * (b + 1)] - E0));
   if (sigma == 0.0) sigma = 1.0;
   if ((st = shifted_factor(ctx, hb, n, b, E0, p, sigma, &M, &s->solver))) goto done;
   double *vpsi = tmp;

@@ -194,5 +194,9 @@ describe("perturb_solve", function()
     assert.error_matches(function() ls.perturb_solve(T2, ls.zeros(100)) end, "level 1 is degenerate", 1, true)
     assert.error_matches(function() ls.perturb_solve(H0, ls.matrix{ { 0, 1, 0, 0, 0, 0 }, { 0, 0, 0, 0, 0, 0 }, { 0, 0, 0, 0, 0, 0 }, { 0, 0, 0, 0, 0, 0 }, { 0, 0, 0, 0, 0, 0 }, { 0, 0, 0, 0, 0, 0 } }) end,
       "bad argument #2 to 'perturb_solve' (V is not Hermitian", 1, true)
+    local A = ls.radial(6, { rmax = 5 })
+    A:set(1, 2, (A:get(1, 2)) + 0.5)
+    assert.error_matches(function() ls.perturb_solve(A, V) end,
+      "bad argument #1 to 'perturb_solve' (H0 is not Hermitian: |H(1,2) - conj(H(2,1))| = 0.5", 1, true)
   end)
 end)
