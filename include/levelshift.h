@@ -324,7 +324,7 @@ typedef struct {
   size_t from;             /* 0-based level of H0 */
   double t0, t1;           /* t0 = -inf / t1 = +inf allowed for a pulse that ends */
   int order;               /* 1 or 2 */
-  size_t steps;            /* grid intervals (rounded up to a multiple of 4); 0 = 4000 */
+  size_t steps;            /* grid intervals (rounded up to a multiple of 4); 0 = from the problem, refined */
 } lvs_transition_spec;
 typedef struct lvs_transition lvs_transition;
 /* CONSTRUCTOR: perturbative amplitudes to every level. */
