@@ -94,7 +94,9 @@ static int l_oscillator(lua_State *L) {
   static const char *const known[] = {"pad", NULL};
   lvsL_checkoptions(L, 2, known, "oscillator", 2);
   lua_Integer pad = lvsL_optfield_int(L, 2, "pad", LVS_DEFAULT_PAD, "oscillator", 2);
-  luaL_argcheck(L, pad >= 0 && pad <= 100000, 2, "pad must be between 0 and 100000");
+  /* pad 0 would make products silently wrong at the edge (nothing to pad into) */
+  luaL_argcheck(L, pad >= 1 && pad <= 100000, 2,
+                "pad must be between 1 and 100000 (products need padded levels to stay exact at the edge)");
   basis_ud *u = newbasis(L);
   lvsL_check(L, ctx, lvs_basis_oscillator(ctx, (size_t)n, (size_t)pad, &u->b), "oscillator");
   return 1;
