@@ -361,7 +361,14 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
 #define RB(k) (R + (size_t)((k) - 1) * dd)
 #define OMB(k) (OM + (size_t)((k) - 1) * dd)
 #define WAB(k) (WA + (size_t)((k) - 1) * dd)
+  /* eigenvalues only: the last order needs just the subgroups' diagonal
+   * blocks of R(Kp), so RB(Kp) keeps M[Kp] C and the blocks come later */
+  int lastblocks = !z && Kp > 0;
   for (int k = 1; k <= Kp; k++) {
+    if (k == Kp && lastblocks) {
+      if ((st = gemm(ctx, real, 0, d, d, d, 1.0, M + (size_t)k * dd, d, c, d, 0.0, RB(k), d))) goto done;
+      break;
+    }
     if ((st = gemm(ctx, real, 0, d, d, d, 1.0, M + (size_t)k * dd, d, c, d, 0.0, T, d))) goto done;
     if ((st = gemm(ctx, real, 1, d, d, d, 1.0, c, d, T, d, 0.0, RB(k), d))) goto done;
   }
@@ -371,8 +378,16 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
   /* also relative to the size of the whole series, so tiny rounding
    * eigenvalues of an all-zero block count as equal */
   double ms = 0;
-  for (size_t q = 0; q < dd; q++) ms = fmax(ms, cabs(M[q]));
-  for (size_t q = 0; q < (size_t)Kp * dd; q++) ms = fmax(ms, cabs(R[q]));
+  /* a scale only: max(|re|, |im|) is within sqrt 2 of |z| and much cheaper */
+#define MAG(z) (fabs(creal(z)) > fabs(cimag(z)) ? fabs(creal(z)) : fabs(cimag(z)))
+  for (size_t q = 0; q < dd; q++)
+    if (MAG(M[q]) > ms) ms = MAG(M[q]);
+  for (size_t q = 0; q < (size_t)(lastblocks ? Kp - 1 : Kp) * dd; q++)
+    if (MAG(R[q]) > ms) ms = MAG(R[q]);
+  if (lastblocks) /* RB(Kp) holds M[Kp] C: take the scale from M[Kp] itself */
+    for (size_t q = 0; q < dd; q++)
+      if (MAG(M[(size_t)Kp * dd + q]) > ms) ms = MAG(M[(size_t)Kp * dd + q]);
+#undef MAG
   double atol = tol * fmax(scale, ms) + 1e-14 * ms;
   /* subgroups of equal eigenvalues */
   size_t ng = 0;
@@ -401,13 +416,27 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
    * subgroup's wave operator in its own columns, WA[k] is block diagonal */
   for (int k = 1; k <= Kp; k++) {
     dc *Y = T;
+    if (k == Kp && lastblocks) { /* W(Kp) blocks: C_g^H (M C)_g + sum_j R(j)_g. OM(Kp-j)_.g */
+      dc *Wk = WAB(k);
+      memset(Wk, 0, dd * sizeof *Wk);
+      for (size_t g0 = 0; g0 < d;) {
+        size_t g1 = g0 + 1;
+        while (g1 < d && sg[g1] == sg[g0]) g1++;
+        size_t gd = g1 - g0, off = g0 * d + g0;
+        if ((st = gemm(ctx, real, 1, gd, gd, d, 1.0, c + g0 * d, d, RB(k) + g0 * d, d, 0.0, Wk + off, d))) goto done;
+        for (int j = 1; j < k; j++)
+          if ((st = gemm(ctx, real, 0, gd, gd, d, 1.0, RB(j) + g0, d, OMB(k - j) + g0 * d, d, 1.0, Wk + off, d)))
+            goto done;
+        g0 = g1;
+      }
+      break;
+    }
     memcpy(Y, RB(k), dd * sizeof *Y);
     for (int j = 1; j < k; j++)
       if ((st = gemm(ctx, real, 0, d, d, d, 1.0, RB(j), d, OMB(k - j), d, 1.0, Y, d))) goto done;
     dc *Wk = WAB(k), *Ok = OMB(k);
     for (size_t a = 0; a < d; a++)
       for (size_t r = 0; r < d; r++) Wk[a * d + r] = sg[r] == sg[a] ? Y[a * d + r] : 0.0;
-    if (k == Kp && !z) break; /* OM(Kp) only serves the eigenvectors */
     for (int i = 1; i < k; i++)
       if ((st = gemm(ctx, real, 0, d, d, d, -1.0, OMB(i), d, WAB(k - i), d, 1.0, Y, d))) goto done;
     for (size_t a = 0; a < d; a++)
