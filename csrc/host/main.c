@@ -31,7 +31,8 @@
  * costs a trap. So the program (not the library: embedders keep their own
  * policy) keeps freed memory in the heap instead of returning it, and asks
  * for transparent huge pages on the first 128 MiB of heap. Pages are only
- * committed when touched. */
+ * committed when touched. LVS_NO_TUNE=1 in the environment turns this off
+ * (to measure what it brings: README, Benchmarks). */
 static void tune_memory(void) {
 #if defined(__GLIBC__) && defined(MADV_HUGEPAGE)
   mallopt(M_MMAP_THRESHOLD, 256 << 20);
@@ -180,7 +181,7 @@ static int sweep_run_options(lua_State *L, int *argc, char **argv) {
 }
 
 int main(int argc, char **argv) {
-  tune_memory();
+  if (getenv("LVS_NO_TUNE") == NULL) tune_memory();
   if (argc < 2) {
     usage(stderr);
     return 2;
