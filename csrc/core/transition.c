@@ -805,6 +805,10 @@ static int fo_terms(lvs_transition *tr, const carrier_term *T, size_t nt, double
         if (!(p = lvsi_malloc(ctx, cap * sizeof(double)))) { st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory (pulse samples)"); goto done; }
       }
       double hk = len / (double)N;
+      if (!(hk > 1e-100)) { /* Filon's weights take h^3 */
+        st = lvsi_fail(ctx, LVS_EINVAL, "transition: a pulse time scale of %g is too short to integrate (below 1e-100)", len);
+        goto done;
+      }
       for (size_t j = 0; j <= N; j++) p[j] = T[k].env ? lvs_pulse_eval(T[k].env, lo[c] + (double)j * hk) : 1.0;
       if (scale > 0) { /* the global grid that resolves this envelope as well */
         double g = ceil((tr->t1 - tr->t0) / hk);
@@ -865,6 +869,8 @@ static int sample_global(lvs_transition *tr, source_eval *se, size_t N, samples 
   double h = (tr->t1 - tr->t0) / (double)N;
   int keep = S->N && 2 * S->N == N;
   int st;
+  if (!(h > 1e-100)) /* Filon's weights take h^3 */
+    return lvsi_fail(ctx, LVS_EINVAL, "transition: the time step %g is too short to integrate (below 1e-100)", h);
   if (se->src->field_fn) {
     if ((st = lvsi_dense_ok(ctx, (N + 1) * n, n, sizeof(double complex), "transition (field samples)"))) return st;
     double complex *W = lvsi_malloc(ctx, (N + 1) * nn * sizeof(double complex));
@@ -987,7 +993,7 @@ int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transiti
   } else {
     /* a Lua function (or a pulse of too many carriers): halve the grid until
      * the first-order amplitudes agree */
-    size_t N = explicit_steps ? explicit_steps : 512;
+    size_t N = explicit_steps ? explicit_steps : 4096;
     /* field samples are n x n each: at most about 256 MB of them */
     size_t cap = (size_t)1 << 20;
     if (sp->src.field_fn && cap > ((size_t)1 << 24) / (n * n)) cap = ((size_t)1 << 24) / (n * n);
@@ -1029,6 +1035,13 @@ int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transiti
     lvsi_free(ctx, b), lvsi_free(ctx, e2);
     if (st) goto fail;
   }
+  for (size_t f = 0; f < n; f++)
+    for (int k = 1; k <= tr->order; k++)
+      if (!isfinite(creal(tr->a[k][f])) || !isfinite(cimag(tr->a[k][f]))) {
+        st = lvsi_fail(ctx, LVS_ERANGE, "transition: the order-%d amplitude to level %zu overflows (pulse or V too large)",
+                       k, f + 1);
+        goto fail;
+      }
   for (size_t f = 0; f < n; f++)
     if (f != i && creal(tr->a[1][f] * conj(tr->a[1][f])) > 0.1) {
       add_warning(tr, "first-order probability exceeds 0.1: perturbation theory is not reliable here");
