@@ -114,6 +114,39 @@ int main(void) {
    * (1/(pi g)) (1 + 2 * 1/2) (common practice) */
   CHECK(fabs(r.rho - 2 / (M_PI * 0.1)) < 1e-12, "band rho %.17g", r.rho);
 
+  /* a fast carrier under a Gaussian at the default grid (steps = 0): levels 0
+   * and w0 = 250 coupled by g, pulse exp(-t^2/(2 s^2)) cos(w0 t), w0 s = 1000.
+   * source: first order (Sakurai, Modern Quantum Mechanics, Sec. 5.6) with the
+   * Fourier transform of a Gaussian (Abramowitz & Stegun 7.4.6):
+   * |a| = (g/2) s sqrt(2 pi) (1 + e^{-2 w0^2 s^2}) */
+  {
+    double w0 = 250.0, g = 1e-3, s = 4.0;
+    lvs_matrix *H2, *V2;
+    lvs_pulse *env = NULL, *car = NULL;
+    CHECK(lvs_matrix_new(ctx, 2, 2, 0, &H2) == LVS_OK && lvs_matrix_new(ctx, 2, 2, 0, &V2) == LVS_OK, "matrices");
+    lvs_matrix_set(H2, 1, 1, w0, 0);
+    lvs_matrix_set(V2, 0, 1, g, 0);
+    lvs_matrix_set(V2, 1, 0, g, 0);
+    CHECK(lvs_pulse_gaussian(ctx, 1.0, 0.0, s, &env) == LVS_OK, "envelope");
+    CHECK(lvs_pulse_sine(ctx, 1.0, w0, M_PI / 2, env, &car) == LVS_OK, "carrier");
+    lvs_transition_spec fc;
+    memset(&fc, 0, sizeof fc);
+    fc.h0 = H2, fc.v = V2, fc.pulse = car, fc.from = 0, fc.t0 = -INFINITY, fc.t1 = INFINITY, fc.order = 1;
+    lvs_transition *ft = NULL;
+    CHECK(lvs_transition_new(ctx, &fc, &ft) == LVS_OK, "fast carrier: %s", lvs_errmsg(ctx));
+    if (ft) {
+      double re, im, want = g / 2 * s * sqrt(2 * M_PI);
+      CHECK(lvs_transition_amplitude(ft, 1, 1, &re, &im) == LVS_OK, "amplitude");
+      CHECK(fabs(hypot(re, im) - want) < 1e-7 * want, "fast carrier |a| %.15g vs %.15g", hypot(re, im), want);
+      CHECK(lvs_transition_warnings(ft)[0] == 0, "warnings: %s", lvs_transition_warnings(ft));
+    }
+    lvs_transition_free(ft);
+    lvs_pulse_free(car);
+    lvs_pulse_free(env);
+    lvs_matrix_free(H2);
+    lvs_matrix_free(V2);
+  }
+
   lvs_transition_free(ex);
   lvs_transition_free(tr);
   lvs_pulse_free(sq);
