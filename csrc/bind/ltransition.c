@@ -4,6 +4,7 @@
  *   ls.pulse.sine{amplitude=, omega=, phase=, envelope=}  .ramp{from=, to=, start=, stop=}
  *   pulse + pulse, pulse(t)
  *   ls.transition{H0=, V=, pulse=, from=, t0=, t1=, order=, steps=}
+ *     (steps nil: grids chosen from the pulse and refined; see transition.c)
  *     V an op with pulse (a pulse or a Lua function of t), or V a Lua
  *     function of t returning an op (then no pulse).
  *   tr:amplitude(to [, order]) -> re, im; tr:probability(to [, order]);

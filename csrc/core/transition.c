@@ -8,6 +8,11 @@
  * panels (Filon, Proc. R. Soc. Edinb. 49, 38 (1929); Abramowitz & Stegun
  * 25.4.47), error from n vs n/2 panels. The phase e^{i w c} of successive
  * panels comes from a complex recurrence, re-seeded with cexp every 256 steps.
+ * A built-in pulse is split into carriers c_k e^{i nu_k t} s_k(t) first, so
+ * Filon's weights carry w_fi + nu_k and the grid of each envelope s_k (on its
+ * own support) follows the envelope only. Default grids (steps = 0): from
+ * the envelope widths, or 4096 samples of a Lua function, doubled until the
+ * change from halving is below LVS_TRANSITION_RTOL relative (see rel_err).
  * Second order: c1_m(t) by cumulative linear Filon on each interval (exact
  * in the oscillation, second order in W), then the outer integral the same
  * way (Dyson, Phys. Rev. 75, 486 (1949)); error again from halving.
