@@ -316,6 +316,7 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
       if (ca == level && cb == level + 1) extra--;
       for (int k = 0; k < LANES; k++) x[k] = a + (bb - a) * (double)(k + 1) / (LANES + 1);
       sturm(n, d, e2, pivmin, x, cnt);
+
       double na = a, nb = bb;
       size_t nca = ca, ncb = cb;
       for (int k = LANES - 1; k >= 0; k--)
@@ -417,9 +418,8 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
       rho += vs[m - 1] * dd[m - 1];
       for (size_t i = 0; i < m; i++) r2 += (dd[i] - rho * vs[i]) * (dd[i] - rho * vs[i]);
       double r = sqrt(r2);
-      if (!(rho > a && rho < bb)) break; /* converging to another level: narrow more */
       if (polish) { /* one more step after convergence: residual at the rounding floor */
-        ok = 1;
+        ok = rho > a && rho < bb; /* else it found another level: narrow more, retry */
         break;
       }
       if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-12 * scale)) polish = 1;
