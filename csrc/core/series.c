@@ -328,8 +328,10 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
   double *m = lvsi_malloc(ctx, d * sizeof *m), *rc = lvsi_malloc(ctx, dd * sizeof *rc);
   /* R, OM, WA hold orders 1..Kp (block k at k-1): R(0) = diag(m), OM(0) = 1 */
   size_t kb = Kp > 0 ? (size_t)Kp : 1;
-  dc *R = lvsi_malloc(ctx, kb * dd * sizeof *R), *T = lvsi_malloc(ctx, dd * sizeof *T);
-  dc *OM = lvsi_malloc(ctx, kb * dd * sizeof *OM), *WA = lvsi_malloc(ctx, kb * dd * sizeof *WA);
+  /* T and OM serve the orders below Kp and the eigenvectors only */
+  int needom = z || Kp > 1;
+  dc *R = lvsi_malloc(ctx, kb * dd * sizeof *R), *T = lvsi_malloc(ctx, (needom ? dd : 1) * sizeof *T);
+  dc *OM = lvsi_malloc(ctx, (needom ? kb * dd : 1) * sizeof *OM), *WA = lvsi_malloc(ctx, kb * dd * sizeof *WA);
   dc *UU = Kp > 0 && z ? lvsi_calloc(ctx, nk * dd, sizeof *UU) : lvsi_malloc(ctx, sizeof *UU);
   size_t *sg = lvsi_malloc(ctx, d * sizeof *sg);
   double *mean = lvsi_malloc(ctx, d * sizeof *mean);
