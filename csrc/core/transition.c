@@ -990,8 +990,10 @@ int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *sp, lvs_transiti
     }
     lvsi_free(ctx, w);
     if (st) goto fail;
+    /* the one grid of second order and exact: a start, which second order
+     * refines itself and exact raises to its own resolution */
     tr->steps = explicit_steps ? explicit_steps
-                               : grid_for(window, wmax + tr->numax, 0.2, envsteps, (size_t)1 << 21);
+                               : grid_for(window, wmax + tr->numax, 0.2, envsteps, (size_t)1 << 16);
     if (explicit_steps ? rel > 1e-3 : rel > LVS_TRANSITION_RTOL)
       warn_grid(tr, "first-order", rel, lvl, explicit_steps ? explicit_steps : envsteps, !explicit_steps);
     if (tr->order >= 2 && (st = sample_global(tr, &se, tr->steps, &S))) goto fail;
@@ -1355,8 +1357,8 @@ int lvs_transition_exact(lvs_transition *tr, const lvs_transition_source *src, c
   } else {
     /* default: the grid of tr, but at least 0.2 rad per step of the fastest
      * coupled Bohr frequency plus carrier */
-    m = es->steps ? es->steps
-                  : grid_for(tr->t1 - tr->t0, bohr_max(tr) + tr->numax, 0.2, tr->steps, (size_t)1 << 22);
+    m = es->steps ? es->steps : grid_for(tr->t1 - tr->t0, bohr_max(tr) + tr->numax, 0.2, 0, (size_t)1 << 18);
+    if (!es->steps && m < tr->steps) m = tr->steps < ((size_t)1 << 18) ? tr->steps : (size_t)1 << 18;
     if (m < 8) m = 8;
     m = (m + 1) / 2 * 2;
     if ((st = run(tr, &se, m, fine)) || (st = run(tr, &se, m / 2, coarse))) goto fail;
