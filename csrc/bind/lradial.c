@@ -1,4 +1,5 @@
-/* lradial.c -- ls.radial(n, {rmax=, l=, charge=}) -> H, r;
+/* lradial.c -- ls.radial(n, {rmax=, l=, charge=}) -> H, r (l a list: the
+ * channels side by side, block-diagonal H; r stays one channel);
  * ls.blocks{{A, 0}, {0, B}} and ls.blockdiag(A, B, ...) -> op;
  * op:bandwidth() -> largest |i - j| of a nonzero entry. */
 #include <math.h>
@@ -13,14 +14,58 @@ static int l_radial(lua_State *L) {
   static const char *const known[] = {"rmax", "l", "charge", NULL};
   lvsL_checkoptions(L, 2, known, "radial", 2);
   double rmax = lvsL_optfield_num(L, 2, "rmax", 60.0, "radial", 2);
-  lua_Integer l = lvsL_optfield_int(L, 2, "l", 0, "radial", 2);
   double charge = lvsL_optfield_num(L, 2, "charge", 1.0, "radial", 2);
   luaL_argcheck(L, rmax > 0 && isfinite(rmax), 2, "rmax must be positive and finite");
-  luaL_argcheck(L, l >= 0 && l <= 100000, 2, "l must be from 0 to 100000");
   luaL_argcheck(L, isfinite(charge), 2, "charge must be finite");
+  /* l = {l1, l2, ...}: the channels side by side (block-diagonal H), built
+   * here so the single-channel matrices are freed at once */
+  size_t nl = 0;
+  int *ls_ = NULL;
+  if (lua_istable(L, 2)) {
+    lua_getfield(L, 2, "l");
+    if (lua_istable(L, -1)) {
+      nl = lua_rawlen(L, -1);
+      luaL_argcheck(L, nl >= 1 && nl <= 1000, 2, "l must be a number or a list of 1 to 1000 numbers");
+      ls_ = lua_newuserdatauv(L, nl * sizeof(int), 0); /* GC-owned */
+      for (size_t k = 0; k < nl; k++) {
+        lua_rawgeti(L, -2, (lua_Integer)k + 1);
+        int ok;
+        lua_Integer lk = lua_tointegerx(L, -1, &ok);
+        lua_pop(L, 1);
+        luaL_argcheck(L, ok && lk >= 0 && lk <= 100000, 2, "l must be from 0 to 100000");
+        ls_[k] = (int)lk;
+      }
+      lua_remove(L, -2); /* drop the list, keep the userdata on the stack */
+    } else {
+      lua_pop(L, 1);
+    }
+  }
+  lua_Integer l = 0;
+  if (!ls_) {
+    l = lvsL_optfield_int(L, 2, "l", 0, "radial", 2);
+    luaL_argcheck(L, l >= 0 && l <= 100000, 2, "l must be from 0 to 100000");
+  }
   lvs_matrix **h = lvsL_newmatrix(L);
   lvs_matrix **r = lvsL_newmatrix(L);
-  lvsL_check(L, ctx, lvs_radial(ctx, (size_t)n, rmax, (int)l, charge, h, r), "radial");
+  if (!ls_) {
+    lvsL_check(L, ctx, lvs_radial(ctx, (size_t)n, rmax, (int)l, charge, h, r), "radial");
+    return 2;
+  }
+  lvsL_check(L, ctx, lvs_radial(ctx, (size_t)n, rmax, 0, charge, NULL, r), "radial");
+  /* channel matrices live in a GC-owned array of pointers until assembled */
+  lvs_matrix **ch = lua_newuserdatauv(L, nl * sizeof *ch, 0);
+  for (size_t k = 0; k < nl; k++) ch[k] = NULL;
+  const lvs_matrix **g = lua_newuserdatauv(L, nl * nl * sizeof *g, 0);
+  int st = LVS_OK;
+  for (size_t k = 0; k < nl && !st; k++) st = lvs_radial(ctx, (size_t)n, rmax, ls_[k], charge, &ch[k], NULL);
+  if (!st) {
+    for (size_t i = 0; i < nl; i++)
+      for (size_t j = 0; j < nl; j++) g[i * nl + j] = i == j ? ch[i] : NULL;
+    st = lvs_matrix_blocks(ctx, nl, nl, g, h);
+  }
+  for (size_t k = 0; k < nl; k++) lvs_matrix_free(ch[k]);
+  lua_pop(L, 2);
+  lvsL_check(L, ctx, st, "radial");
   return 2;
 }
 
