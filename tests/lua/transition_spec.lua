@@ -60,6 +60,14 @@ describe("transition: oscillator under a Gaussian force", function()
     -- cumulative linear-Filon quadrature is second order in h: 3e-5 relative at 4000 steps
     near(tr:probability(3, 2), a2 * a2 / 2, 1e-7, "P2(0->2)")
   end)
+  it("second order refines its own grid when steps is left out", function()
+    -- same source; the default grid doubles until halving changes a2 by < 1e-4 relative
+    local d = ls.transition{H0 = B.number, V = -1 * B.x, pulse = pulse, from = 1,
+                            t0 = -math.huge, t1 = math.huge, order = 2}
+    near(d:probability(2, 1), a2, 1e-8 * a2, "P1(0->1), default grid")
+    near(d:probability(3, 2), a2 * a2 / 2, 2e-4 * a2 * a2 / 2, "P2(0->2), default grid")
+    assert(d:warnings() == "", d:warnings())
+  end)
   it("exact propagation gives the Poisson law", function()
     local ex = tr:exact()
     -- Glauber, Phys. Rev. 131, 2766 (1963): P(n) = |alpha|^{2n} e^{-|alpha|^2}/n!
