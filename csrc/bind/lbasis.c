@@ -410,11 +410,13 @@ static int b_tostring(lua_State *L) {
 }
 
 static int b_index(lua_State *L) {
-  lvs_basis *b = lvsL_checkbasis(L, 1);
-  /* methods first */
+  luaL_checkudata(L, 1, LVS_BASIS_MT);
+  /* methods first: they check for a closed basis themselves, and close()
+   * must stay reachable so that closing twice is harmless */
   lua_pushvalue(L, 2);
   if (lua_rawget(L, lua_upvalueindex(2)) != LUA_TNIL) return 1;
   lua_pop(L, 1);
+  lvs_basis *b = lvsL_checkbasis(L, 1);
   const char *k = lua_tostring(L, 2);
   if (!k) return 0;
   if (lvs_basis_kind_of(b) == LVS_BASIS_PRODUCT)
