@@ -53,6 +53,16 @@ describe("eigen by symmetry sectors", function()
       assert.are.equal((U:get(5, k)), (U2:get(5, k)))
     end
   end)
+  it("sorts a diagonal op without LAPACK, ties in state order", function()
+    local D = ls.zeros(5)
+    for i, v in ipairs{ 2.5, -1.25, 0.75, -1.25, 3 } do D:set(i, i, v) end
+    local E, U = ls.eigen(D, { count = 3 })
+    assert.are.same({ -1.25, -1.25, 0.75 }, E)
+    assert.are.equal(1, (U:get(2, 1))); assert.are.equal(1, (U:get(4, 2))); assert.are.equal(1, (U:get(3, 3)))
+    assert.are.equal(0, (U:get(4, 1)))
+    local Ez = ls.eigen(D * ls.I * ls.I * -1, { count = 1, vectors = false })
+    assert.are.equal(-1.25, Ez[1])
+  end)
   it("takes the sectors from the user", function()
     -- invented 4x4 with blocks {1, 3} and {2, 4}
     local H = ls.matrix{ { 1.3, 0, 0.4, 0 }, { 0, -0.7, 0, 0.25 }, { 0.4, 0, 2.1, 0 }, { 0, 0.25, 0, 0.9 } }
