@@ -331,8 +331,9 @@ typedef struct lvs_transition lvs_transition;
 LVS_API int lvs_transition_new(lvs_ctx *ctx, const lvs_transition_spec *spec, lvs_transition **out);
 /* How tr:exact propagates. method: LVS_EXACT_AUTO (RK4 in the interaction
  * picture for pulse(t) * V, Magnus-4 for a V(t) callback), LVS_EXACT_RK4,
- * LVS_EXACT_MAGNUS4. tol = 0: steps fixed (0 = the grid of tr), error from
- * steps/2; tol > 0: from steps (0 = estimated from the Bohr frequencies
+ * LVS_EXACT_MAGNUS4. tol = 0: steps fixed (0 = the finer of the grid of tr and
+ * 0.2 rad per step of the coupled Bohr frequencies plus carriers, at most
+ * 2^18), error from steps/2; tol > 0: from steps (0 = estimated from the Bohr frequencies
  * V couples) the count grows (x2, then as the error constant predicts,
  * x2..x16) until the Richardson estimate |c_m - c_m'|/((m/m')^4 - 1) of
  * every amplitude is <= tol, up to LVS_EXACT_MAX_STEPS (then LVS_ENOCONV). */
