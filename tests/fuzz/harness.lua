@@ -140,7 +140,7 @@ local OPNAMES = sorted_keys(OPS)
 -- slow (seconds; calls slower than this are reported), dense_cap (bytes).
 function H.new(ls, opts)
   opts = opts or {}
-  local F = { ls = ls, calls = 0, ok = 0, errors = 0, findings = {}, slow = {}, keys = {}, byname = {} }
+  local F = { ls = ls, calls = 0, ok = 0, errors = 0, findings = {}, slow = {}, keys = {}, byname = {}, oom = 0 }
   local seed = opts.seed or 20261202
   math.randomseed(seed)
   local R = math.random
@@ -404,7 +404,12 @@ function H.new(ls, opts)
       return
     end
     learn(e)
+    if e:find("out of memory", 1, true) then F.oom = F.oom + 1 end
     if e:find(CB_MSG, 1, true) or e:find("attempt to yield", 1, true) then return end
+    if e == "not enough memory" then -- Lua's own, under a host's memory cap
+      F.oom = F.oom + 1
+      return
+    end
     if is_op then return end
     -- a Lua-side method on a closed object: the C method it calls first
     -- reports the closed self under its own name (known limitation, accepted)
