@@ -513,7 +513,7 @@ LVS_API void lvs_dlseries_free(lvs_dlseries *s);
 LVS_API size_t lvs_dlseries_dim(const lvs_dlseries *s);
 LVS_API int lvs_dlseries_order(const lvs_dlseries *s);
 LVS_API size_t lvs_dlseries_band(const lvs_dlseries *s);    /* bandwidth of H0 used */
-LVS_API double lvs_dlseries_gap(const lvs_dlseries *s);     /* to nearest level, NAN if state given */
+LVS_API double lvs_dlseries_gap(const lvs_dlseries *s);     /* to nearest level (bands wider than 1); else NAN */
 LVS_API const char *lvs_dlseries_solver(const lvs_dlseries *s); /* "dpttrf", "dgbtrf", ... */
 LVS_API int lvs_dlseries_energy(const lvs_dlseries *s, int k, double *e); /* k = 0..order */
 LVS_API const double *lvs_dlseries_state(const lvs_dlseries *s, int k);  /* BORROWED, n values; NULL if k >= order */
