@@ -35,8 +35,10 @@ static basis_ud *newbasis(lua_State *L) {
   return u;
 }
 
+static int b_close(lua_State *L);
 static int b_gc(lua_State *L) {
   basis_ud *u = luaL_checkudata(L, 1, LVS_BASIS_MT);
+  if (lvsL_gc_by_hand(L)) return b_close(L); /* a script's call: maybe in use */
   lvs_basis_free(u->b);
   lvs_basis_free(u->pending);
   u->b = u->pending = NULL;

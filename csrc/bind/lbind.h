@@ -59,6 +59,12 @@ void lvsL_open_units(lua_State *L, int ctxidx);
  * close() then must not free what that binding may hold (it runs a callback
  * or a metamethod that closed the object); the free is left to __gc */
 int lvsL_inside_binding(lua_State *L);
+/* 1 when the running __gc was called by a script (getmetatable(x).__gc(x)),
+ * 0 when Lua's collector runs it (the object is then unreachable) */
+int lvsL_gc_by_hand(lua_State *L);
+/* in a __gc: raise when a script calls it by hand while a binding below may
+ * hold the object (the collector itself never gets here with one in use) */
+void lvsL_gc_guard(lua_State *L, const char *what);
 
 /* register funcs with the ctx userdata as upvalue into table at -1 */
 void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx);

@@ -258,6 +258,7 @@ static int e_warnings(lua_State *L) {
 
 static int e_gc(lua_State *L) {
   lvs_effective **p = luaL_checkudata(L, 1, LVS_EFFECTIVE_MT);
+  lvsL_gc_guard(L, "effective Hamiltonian");
   lvs_effective_free(*p);
   *p = NULL;
   return 0;

@@ -66,6 +66,7 @@ static int l_close(lua_State *L) {
 
 static int l_gc(lua_State *L) {
   lvs_matrix **p = luaL_checkudata(L, 1, LVS_MATRIX_MT);
+  if (lvsL_gc_by_hand(L)) return l_close(L); /* a script's call: maybe in use */
   lvs_matrix_free(p[0]);
   lvs_matrix_free(p[1]);
   p[0] = p[1] = NULL;

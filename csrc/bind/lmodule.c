@@ -5,7 +5,11 @@
 #include <time.h>
 #include "bind/lbind.h"
 
+int lvsL_gc_by_hand(lua_State *L);
+
 static int ctx_gc(lua_State *L) {
+  /* every object of the module uses the context: only the collector ends it */
+  if (lvsL_gc_by_hand(L)) return luaL_error(L, "the levelshift context is freed by the collector only");
   lvs_ctx **p = lua_touserdata(L, 1);
   if (*p) {
     lvs_ctx_free(*p);
@@ -42,6 +46,17 @@ int lvsL_inside_binding(lua_State *L) {
   }
   lua_pop(L, 1);
   return found;
+}
+
+int lvsL_gc_by_hand(lua_State *L) {
+  lua_Debug ar;
+  if (!lua_getstack(L, 0, &ar) || !lua_getinfo(L, "n", &ar)) return 0;
+  return !(ar.namewhat && strcmp(ar.namewhat, "metamethod") == 0 && ar.name && strcmp(ar.name, "__gc") == 0);
+}
+
+void lvsL_gc_guard(lua_State *L, const char *what) {
+  if (lvsL_gc_by_hand(L) && lvsL_inside_binding(L))
+    luaL_error(L, "__gc: the %s may be in use by a running levelshift function; drop it instead", what);
 }
 
 void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx) {

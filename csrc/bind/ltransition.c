@@ -116,6 +116,7 @@ static int p_call(lua_State *L) {
 
 static int p_gc(lua_State *L) {
   lvs_pulse **p = luaL_checkudata(L, 1, LVS_PULSE_MT);
+  lvsL_gc_guard(L, "pulse");
   lvs_pulse_free(*p);
   *p = NULL;
   return 0;
@@ -477,6 +478,7 @@ static int t_energies(lua_State *L) {
 
 static int t_gc(lua_State *L) {
   lvs_transition **p = luaL_checkudata(L, 1, LVS_TRANSITION_MT);
+  lvsL_gc_guard(L, "transition");
   lvs_transition_free(*p);
   *p = NULL;
   return 0;

@@ -296,6 +296,12 @@ function H.new(ls, opts)
       if type(v) == "userdata" then pcall(function() local c <close> = v end) end
       return 0.5
     end,
+    function() -- call a finalizer by hand on something that may be in use
+      local v = pool[R(#pool)]
+      local mt = type(v) == "userdata" and getmetatable(v)
+      if type(mt) == "table" and type(mt.__gc) == "function" then pcall(mt.__gc, v) end
+      return 0.75
+    end,
     function() coroutine.yield(1) end,
     function(x) return x end,
     function() return gen(1) end,

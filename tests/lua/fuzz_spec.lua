@@ -74,6 +74,18 @@ describe("hostile arguments", function()
     ok, e = pcall(ls.eigen, H0, opts)
     assert.is_true(ok or type(e) == "string")
     assert.error_matches(function() return H0:dim() end, "closed matrix", 1, true)
+    -- a finalizer called by hand: like close for ops and bases, refused for
+    -- objects a running function may hold, and for the module's context
+    local B2 = ls.spin(1)
+    ok = pcall(B2.diag, B2, function() getmetatable(B2).__gc(B2) return 1 end)
+    assert.error_matches(function() return B2:dim() end, "closed basis", 1, true)
+    local s = ls.spin(0.5)
+    local tr
+    tr = ls.transition { H0 = s.Sz, V = s.Sx, from = 1, t0 = -1, t1 = 1, steps = 16,
+      pulse = function() if tr then getmetatable(tr).__gc(tr) end return 0.1 end }
+    assert.error_matches(function() return tr:exact() end, "may be in use by a running levelshift function", 1, true)
+    assert.error_matches(function() getmetatable(ls._ctx).__gc(ls._ctx) end, "freed by the collector only", 1, true)
+    assert.are.equal(3, #ls.eigen(ls.spin(1).Sz)) -- and the module carries on
     collectgarbage("collect")
   end)
 end)
