@@ -30,7 +30,7 @@ local STATEFUL = { add_dir = true, attach = true }
 -- option names that make a function write files (sweep{out=, plot=}): never
 -- learned from error messages, so the fuzz writes nothing
 local WRITER_KEYS = { out = true, plot = true, journal = true, shard = true, merge = true, file = true,
-  path = true, output = true, dir = true }
+  path = true, output = true, dir = true, progress = true }
 H.WRITERS, H.STATEFUL, H.WRITER_KEYS = WRITERS, STATEFUL, WRITER_KEYS
 
 -- Functions whose errors name the thing the user called instead: the

@@ -19,7 +19,9 @@ describe("documented errors", function()
   it("eigen: non-Hermitian input, the dense cap, ls.config", function()
     errs("bad argument #1 to 'eigen' (matrix is not Hermitian: |H(1,2) - conj(H(2,1))| = 1.5 (largest entry 2))", function() return ls.eigen(ls.matrix { { 1, 2 }, { 0.5, 1 } }) end)
     local P = ls.product(ls.spin(0.5), 21) -- 2,097,152 states
-    errs("2097152x2097152 dense storage needs 3.52e+04 GB, above the dense cap of 4.29 GB", function() return ls.eigen(P:site(1).Sz) end)
+    errs("eigen: eigen (vectors): 2097152x2097152 dense storage needs 3.52e+04 GB, above the dense cap of 4.29 GB "
+      .. "(raise it with ls.config{dense_cap = bytes} if the machine has the memory)",
+      function() return ls.eigen(P:site(1).Sz) end)
     errs("dense_cap must be a positive number of bytes", function() return ls.config({ dense_cap = -1 }) end)
     errs("option 'blocks': entry (2, 1) = 0.1 couples two blocks", function() return ls.eigen(ls.matrix { { 1, 0.1, 0 }, { 0.1, 1, 0 }, { 0, 0, 2 } }, { blocks = { { 1 }, { 2, 3 } } }) end)
   end)
@@ -95,6 +97,8 @@ describe("documented errors", function()
     errs("unknown unit 'furlong'; accepted: energy: hartree", function() return ls.units.convert(1, "eV", "furlong") end)
     errs("bad argument #1 to 'recipe' (unknown recipe 'nosuch'; known: ", function() return ls.recipe("nosuch") end)
     errs("unknown parameter 'nosuch' (accepted: ", function() return ls.recipe("linear_force", { nosuch = 1 }) end)
+    errs("recipe 'zeeman': parameter 'spin' must be a multiple of 1/2 (got 0.3)",
+      function() return ls.recipe("zeeman", { spin = 0.3 }) end)
   end)
 
   it("files: an unwritable path names the file and the reason", function()
@@ -103,6 +107,33 @@ describe("documented errors", function()
     errs("cannot write '/nonexistent-dir-lvs/x.csv' (opening '/nonexistent-dir-lvs/x.csv.tmp': No such file or directory)",
       function() return sw:write("/nonexistent-dir-lvs/x.csv") end)
     errs("bad argument #1 to 'plot' (a path ending in .svg or .png expected)", function() return sw:plot("x.pdf") end)
+  end)
+
+  it("warnings the README lists appear where it says", function()
+    -- invented models, each built to trip one warning (common practice)
+    local H0 = ls.matrix { { 0, 0, 0 }, { 0, 1e-9, 0 }, { 0, 0, 1 } }
+    local V = ls.matrix { { 0, 1, 0.5 }, { 1, 0, 0.5 }, { 0.5, 0.5, 0 } }
+    local s = ls.perturb(H0, V, { order = 3, degen_tol = 1e-12 })
+    assert.truthy(tostring(s):find("level 1: small denominator 1e-09 (||V|| = 1.5)", 1, true))
+    assert.truthy(s:check(0.1).levels[1].warning:find("below |lambda|*||V|| = 0.15: series unreliable", 1, true))
+    local o = ls.oscillator(30)
+    local _, note = ls.perturb(o.number + 0.5, o.x ^ 4, { order = 12, levels = { 1 } }):radius(1)
+    assert.truthy(note:find("ratios still falling (radius may be 0)", 1, true), note)
+    local h = ls.effective(ls.matrix { { 0, 0, 0 }, { 0, 0, 0 }, { 0, 0, 1 } },
+      ls.matrix { { 0, 0, 1 }, { 0, 0, 1 }, { 1, 1, 0 } }, { levels = { 1, 2 }, order = 2 })
+    assert.truthy(h:warnings()[1]:find("is not large compared with the coupling max|V_am| = 1", 1, true))
+    local sp = ls.spin(0.5)
+    local tr = ls.transition { H0 = sp.Sz, V = sp.Sx, from = 1, t0 = -6, t1 = 6,
+      pulse = ls.pulse.gaussian { amplitude = 2, center = 0, width = 1 } }
+    assert.truthy(tr:warnings():find("first-order probability exceeds 0.1", 1, true))
+    assert.truthy(tr:exact():warnings():find("perturbation theory and exact propagation disagree (level 2:", 1, true))
+    local _, info = ls.golden_rule { V = 0.01, band = { 0, 1, 2, 3 }, E = 10, broadening = 0.1 }
+    for _, w in ipairs { "is below the mean level spacing 1: the band does not act as a continuum",
+      "the final energy lies outside the band", "longer than the recurrence time" } do
+      assert.truthy(info.warning:find(w, 1, true), w)
+    end
+    _, info = ls.golden_rule { V = 1, band = { 0, 0.1, 0.2, 0.3 }, E = 0.15, broadening = 0.2 }
+    assert.truthy(info.warning:find("is not small against the band width 0.3: the golden rule is unreliable", 1, true))
   end)
 
   it("the program: name=value arguments, script errors, a missing gnuplot", function()
