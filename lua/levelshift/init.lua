@@ -87,10 +87,41 @@ function matrix_methods.column(m, j)
 end
 
 -- @@FEATURE-SUGAR@@ (feature modules are required below this line)
-require("levelshift.sweep")(ls, core)
-require("levelshift.series")(ls, core)
-require("levelshift.recipes").attach(ls)
-ls.units = require("levelshift.units")
+-- The sugar modules load on first use (start-up of `levelshift -e ''` is
+-- measured in bench/run.py): touching one of a module's keys loads it;
+-- pairs(ls) loads them all first, so listings stay complete.
+local lazy = {
+  sweep = function() require("levelshift.sweep")(ls, core) end,
+  perturb = function() require("levelshift.series")(ls, core) end,
+  recipe = function() require("levelshift.recipes").attach(ls) end,
+  units = function() rawset(ls, "units", require("levelshift.units")) end,
+}
+lazy.have_gnuplot, lazy.recipes = lazy.sweep, lazy.recipe
+local loaded = {}
+local function load(k)
+  local f = lazy[k]
+  if f and not loaded[f] then
+    loaded[f] = true
+    f()
+  end
+end
+for k in pairs(lazy) do ls[k] = nil end
+setmetatable(ls, {
+  __index = function(t, k)
+    if lazy[k] == nil then return nil end
+    load(k)
+    local v = rawget(t, k)
+    if v == nil then v = core[k] end
+    return v
+  end,
+  __pairs = function(t)
+    for k in pairs(lazy) do
+      load(k)
+      if rawget(t, k) == nil and core[k] ~= nil then rawset(t, k, core[k]) end
+    end
+    return next, t, nil
+  end,
+})
 
 --- Recipes by name (used by the program: levelshift RECIPE name=value ...).
 function ls._run_recipe(name, params)
