@@ -59,6 +59,9 @@ void lvsL_open_units(lua_State *L, int ctxidx);
  * close() then must not free what that binding may hold (it runs a callback
  * or a metamethod that closed the object); the free is left to __gc */
 int lvsL_inside_binding(lua_State *L);
+/* let the collector know about memory the core allocated (called before a
+ * new matrix is made): a step worth the net growth since the last one */
+void lvsL_gcstep(lua_State *L);
 /* 1 when the running __gc was called by a script (getmetatable(x).__gc(x)),
  * 0 when Lua's collector runs it (the object is then unreachable) */
 int lvsL_gc_by_hand(lua_State *L);

@@ -35,6 +35,7 @@ int lvsL_toscalar(lua_State *L, int idx, double z[2]) {
 /* ---- matrices ------------------------------------------------------------ */
 
 lvs_matrix **lvsL_newmatrix(lua_State *L) {
+  lvsL_gcstep(L);
   /* p[0]: the matrix (NULL once closed); p[1]: one closed while a binding
    * was running below, freed by __gc (see lvsL_inside_binding) */
   lvs_matrix **p = lua_newuserdatauv(L, 2 * sizeof *p, 1);

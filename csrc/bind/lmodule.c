@@ -7,6 +7,37 @@
 
 int lvsL_gc_by_hand(lua_State *L);
 
+/* The context userdata. The core allocates through the state's allocator,
+ * wrapped here to count the net bytes it adds: Lua's collector sees only the
+ * small userdata of a matrix, so without this dead matrices pile up between
+ * cycles (a loop making 8 MB products grew to gigabytes). lvsL_gcstep turns
+ * the count into collector work. */
+typedef struct {
+  lvs_ctx *ctx; /* first: lvsL_ctx reads it */
+  lua_Alloc f;
+  void *fud;
+  long long grown; /* net bytes allocated by the core since the last step */
+} ctx_ud;
+
+static void *counting_alloc(void *ud, void *ptr, size_t osize, size_t nsize) {
+  ctx_ud *u = ud;
+  void *q = u->f(u->fud, ptr, osize, nsize);
+  if (ptr == NULL) osize = 0;
+  if (nsize == 0 || q) u->grown += (long long)nsize - (long long)osize;
+  return q;
+}
+
+void lvsL_gcstep(lua_State *L) {
+  lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.ctx");
+  ctx_ud *u = lua_touserdata(L, -1);
+  lua_pop(L, 1);
+  if (u && u->grown > (1LL << 20)) {
+    long long kb = u->grown >> 10;
+    u->grown = 0;
+    lua_gc(L, LUA_GCSTEP, kb > (1 << 30) ? (1 << 30) : (int)kb);
+  }
+}
+
 static int ctx_gc(lua_State *L) {
   /* every object of the module uses the context: only the collector ends it */
   if (lvsL_gc_by_hand(L)) return luaL_error(L, "the levelshift context is freed by the collector only");
@@ -165,13 +196,14 @@ static int l_config(lua_State *L) {
 __attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L) {
   void *ud;
   lua_Alloc f = lua_getallocf(L, &ud);
-  lvs_ctx **p = lua_newuserdatauv(L, sizeof *p, 0);
-  *p = NULL;
+  ctx_ud *cu = lua_newuserdatauv(L, sizeof *cu, 0);
+  cu->ctx = NULL, cu->f = f, cu->fud = ud, cu->grown = 0;
+  lvs_ctx **p = &cu->ctx;
   lua_createtable(L, 0, 1);
   lua_pushcfunction(L, ctx_gc);
   lua_setfield(L, -2, "__gc");
   lua_setmetatable(L, -2);
-  *p = lvs_ctx_new((lvs_alloc_fn)f, ud);
+  *p = lvs_ctx_new((lvs_alloc_fn)counting_alloc, cu);
   if (!*p) return luaL_error(L, "levelshift: cannot allocate a context");
   int ctxidx = lua_gettop(L);
   lua_pushvalue(L, ctxidx);

@@ -15,11 +15,20 @@ function ls.sum(first, last, f)
   if math.type(first) ~= "integer" then error("bad argument #1 to 'sum' (integer expected)", 2) end
   if math.type(last) ~= "integer" then error("bad argument #2 to 'sum' (integer expected)", 2) end
   if type(f) ~= "function" then error("bad argument #3 to 'sum' (function expected)", 2) end
+  if last > first and (last - first < 0 or last - first >= 1 << 31) then -- (the difference may overflow)
+    error("bad argument #2 to 'sum' (the range " .. first .. ".." .. last .. " has more than 2^31 terms)", 2)
+  end
   local acc
   for i = first, last do
     local term = f(i)
     if term ~= nil then
-      if acc == nil then acc = term else acc = acc + term end
+      if acc == nil then
+        acc = term
+      else
+        local ok, r = pcall(function() return acc + term end)
+        if not ok then error("sum: cannot add term " .. i .. " (" .. tostring(r):gsub("^[^\n]-:%d+: ", "") .. ")", 2) end
+        acc = r
+      end
     end
   end
   if acc == nil then error("sum: empty range " .. first .. ".." .. last .. " (no terms)", 2) end

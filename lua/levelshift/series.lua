@@ -19,6 +19,10 @@ return function(ls, core)
     if level < 1 or level > n then
       error(string.format("bad argument #1 to '%s' (level must be from 1 to %d, got %d)", fname, n, level), 3)
     end
+    local ok, e = pcall(s.energy, s, level, 0) -- a level left out by the 'levels' option
+    if not ok then
+      error("bad argument #1 to '" .. fname .. "' (" .. (tostring(e):match("%((.*)%)$") or tostring(e)) .. ")", 3)
+    end
   end
 
   local function argcheck_lambda(lambda, fname, argn)

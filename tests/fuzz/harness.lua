@@ -122,6 +122,51 @@ local SEEDS = {
 }
 H.SEEDS = SEEDS
 
+-- Valid calls of the main constructors, by path: the fuzz mutates one or two
+-- arguments or option fields of these with hostile values, so the code past
+-- the argument checks runs too. Missing functions are skipped.
+local TEMPLATES = {
+  ["ls.eigen"] = function(ls) return { ls.matrix { { 1.3, 0.4 }, { 0.4, -0.7 } }, { count = 2 } } end,
+  ["ls.perturb"] = function(ls)
+    local o = ls.oscillator(5)
+    return { o.number + 0.5, o.x ^ 2, { order = 3, levels = { 1, 2 } } }
+  end,
+  ["ls.effective"] = function(ls)
+    return { ls.matrix { { 0, 0, 0 }, { 0, 0, 0 }, { 0, 0, 5 } }, ls.matrix { { 0, 0, 1 }, { 0, 0, 1 }, { 1, 1, 0 } },
+      { levels = { 1, 2 }, order = 2 } }
+  end,
+  ["ls.sweep"] = function(ls)
+    return { { H0 = ls.matrix { { 0, 0.1 }, { 0.1, 0 } }, V = ls.matrix { { 1, 0 }, { 0, -1 } }, from = -1, to = 1,
+      steps = 6 } }
+  end,
+  ["ls.transition"] = function(ls)
+    local s = ls.spin(0.5)
+    return { { H0 = s.Sz, V = s.Sx, pulse = ls.pulse.gaussian { amplitude = 0.1, center = 0, width = 1 }, from = 1,
+      t0 = -3, t1 = 3, steps = 32 } }
+  end,
+  ["ls.pulse.gaussian"] = function() return { { amplitude = 0.1, center = 0, width = 1 } } end,
+  ["ls.pulse.square"] = function() return { { amplitude = 0.2, start = 0, stop = 1 } } end,
+  ["ls.pulse.sine"] = function() return { { amplitude = 0.2, omega = 1 } } end,
+  ["ls.pulse.ramp"] = function() return { { from = 0, to = 1, start = 0, stop = 1 } } end,
+  ["ls.golden_rule"] = function() return { { V = 0.01, band = { 0, 0.1, 0.2, 0.3 }, E = 0.15, broadening = 0.1 } } end,
+  ["ls.clebsch"] = function() return { 1, 0, 1, 0, 1, 0 } end,
+  ["ls.wigner3j"] = function() return { 1, 1, 1, 0, 0, 0 } end,
+  ["ls.units.convert"] = function() return { 1, "eV", "hartree" } end,
+  ["ls.recipe"] = function() return { "linear_force", { levels = 6 } } end,
+  ["ls.sum"] = function(ls) return { 1, 3, function(i) return i * ls.spin(0.5).Sz end } end,
+  ["ls.perturb_solve"] = function(ls)
+    local o = ls.oscillator(8)
+    return { o.number + 0.5, o.x, { order = 2, levels = { 1 } } }
+  end,
+  ["ls.blocks"] = function(ls) return { ls.matrix { { 1, 0 }, { 0, 2 } } } end,
+  ["ls.box"] = function() return { 4, { width = 1.5 } } end,
+  ["ls.rotor"] = function() return { 2 } end,
+  ["ls.oscillator"] = function() return { 4, { pad = 4 } } end,
+  ["ls.product"] = function(ls) return { ls.spin(0.5), 2 } end,
+  -- @@FEATURE-FUZZ-TEMPLATES@@ (a valid call per new constructor, above this line)
+}
+H.TEMPLATES = TEMPLATES
+
 local OPS = {
   add = function(a, b) return a + b end, sub = function(a, b) return a - b end,
   mul = function(a, b) return a * b end, div = function(a, b) return a / b end,
@@ -140,7 +185,7 @@ local OPNAMES = sorted_keys(OPS)
 -- slow (seconds; calls slower than this are reported), dense_cap (bytes).
 function H.new(ls, opts)
   opts = opts or {}
-  local F = { ls = ls, calls = 0, ok = 0, errors = 0, findings = {}, slow = {}, keys = {}, byname = {}, oom = 0 }
+  local F = { ls = ls, calls = 0, ok = 0, errors = 0, findings = {}, slow = {}, keys = {}, byname = {}, okname = {}, oom = 0 }
   local seed = opts.seed or 20261202
   math.randomseed(seed)
   local R = math.random
@@ -426,7 +471,7 @@ function H.new(ls, opts)
 
   local function args(n)
     local a = {}
-    for i = 1, n do a[i] = gen(0) end
+    for i = 1, n do a[i] = (R() < 0.35) and R(1, 3) or gen(0) end -- small indices half the time
     return a
   end
 
@@ -449,6 +494,7 @@ function H.new(ls, opts)
     local dt = clock() - t0
     if dt > slow_limit then F.slow[#F.slow + 1] = string.format("%.2f s  %s", dt, what) end
     F.byname[key] = (F.byname[key] or 0) + 1
+    if r[1] then F.okname[key] = (F.okname[key] or 0) + 1 end
     return r
   end
 
@@ -465,6 +511,31 @@ function H.new(ls, opts)
     return table.concat(s, ", ")
   end
 
+  -- a valid call of path with one or two arguments or option fields mutated
+  local tpaths = {}
+  for _, f in ipairs(funcs) do
+    if TEMPLATES[f.path] then tpaths[#tpaths + 1] = f end
+  end
+  local function mutated(path)
+    local ok, a = pcall(TEMPLATES[path], ls)
+    if not ok or type(a) ~= "table" then return nil end
+    local n = #a
+    for _ = 1, R(0, 2) do
+      local i = R(n + 1)
+      if i <= n and type(a[i]) == "table" and getmetatable(a[i]) == nil and R() < 0.7 then
+        local keys = sorted_keys(a[i])
+        if #keys > 0 and R() < 0.6 then a[i][keys[R(#keys)]] = gen(1) -- spoil a field (nil drops it)
+        else a[i][learned_key()] = gen(1) end                         -- or add one
+      elseif i <= n then
+        a[i] = gen(0)
+      else
+        a[i] = gen(0) -- one argument too many
+        n = i
+      end
+    end
+    return a, n
+  end
+
   -- one random call
   function F.step()
     F.calls = F.calls + 1
@@ -475,16 +546,23 @@ function H.new(ls, opts)
     local n = R(0, 4)
     local a = args(n)
     local res
-    if r <= 40 then
+    if r <= 20 and #tpaths > 0 then
+      local f = tpaths[R(#tpaths)]
+      local ta, tn = mutated(f.path)
+      if ta then a, n = ta, tn end
+      local what = f.path .. "(" .. arglist(a, n) .. ")"
+      res = timed(f.path, what, caller("f", f.path, n), ls, table.unpack(a, 1, n))
+      check(res[1], res[2], f.name, f.path, what)
+    elseif r <= 45 then
       local f = funcs[R(#funcs)]
       local what = f.path .. "(" .. arglist(a, n) .. ")"
       res = timed(f.path, what, caller("f", f.path, n), ls, table.unpack(a, 1, n))
       if f.name == "config" then ls.config { dense_cap = dense_cap } end
       check(res[1], res[2], f.name, f.path, what)
-    elseif r <= 85 and #pool > 0 then
+    elseif r <= 88 and #pool > 0 then
       local obj = pool[R(#pool)]
       local ms = methods(obj)
-      if R(20) == 1 then -- a method of some other type, on this object
+      if R(20) == 1 and type(obj) == "userdata" then -- a method of some other type, on this object
         local other = pool[R(#pool)]
         ms = methods(other)
       end

@@ -1,5 +1,5 @@
 -- tests/fuzz/long.lua -- a long fuzz run on its own (see DEVELOPERS.md):
---   build-asan/levelshift tests/fuzz/long.lua calls=100000 seed=7 [trace=1] [every=10000]
+--   build-asan/levelshift tests/fuzz/long.lua calls=100000 seed=7 [trace=1] [every=10000] [coverage=1]
 -- Prints progress every `every` calls and, at the end, each distinct finding
 -- (errors that are not strings or do not name the function) and every call
 -- slower than `slow` seconds; exits 1 if there was a finding. A crash or a
@@ -33,6 +33,12 @@ for _, l in ipairs(lines) do print(l) end
 local names = {}
 for k in pairs(F.byname) do names[#names + 1] = k end
 print(string.format("fuzz: %d distinct functions, methods and operators called", #names))
+if p.coverage then -- which ones never returned normally (their deeper paths were not reached)
+  table.sort(names)
+  for _, k in ipairs(names) do
+    if not F.okname[k] then print(string.format("never returned: %s (%d calls)", k, F.byname[k])) end
+  end
+end
 F.finish()
 local nfind = 0
 for _ in pairs(F.findings) do nfind = nfind + 1 end
