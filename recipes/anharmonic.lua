@@ -23,7 +23,7 @@ With both terms the second order is the sum of the two (parity kills the
 cross term). A cubic term alone has no ground state (x^3 unbounded below):
 the truncated basis hides that, so trust only low orders there.]],
   params = {
-    { name = "quartic", default = 0.1, unit = "energy (omega units, x in oscillator units)",
+    { name = "quartic", default = 0.1, invented = true, unit = "energy (omega units, x in oscillator units)",
       about = "coefficient of x^4" },
     { name = "cubic", default = 0, unit = "energy", about = "coefficient of x^3" },
     { name = "omega", default = 1, unit = "energy (hbar = 1)", about = "harmonic frequency", positive = true },

@@ -19,7 +19,7 @@ the sum identity checked to 30 digits, see tests/lua/box_spec.lua). In the
 centred box every odd order vanishes. model.e2_ground holds this value;
 model.x is the position operator.]],
   params = {
-    { name = "F", default = 1, unit = "energy/length", about = "uniform force: V = F x" },
+    { name = "F", default = 1, invented = true, unit = "energy/length", about = "uniform force: V = F x" },
     { name = "width", default = 1, unit = "length", about = "box width", positive = true },
     { name = "mass", default = 1, unit = "mass", about = "particle mass", positive = true },
     { name = "states", default = 40, unit = "", about = "box states kept (n = 1 .. states)",

@@ -18,8 +18,8 @@ model.first_order(n) returns it; model.exact is not available (the
 levels follow from matching sines across the step; use ls.eigen on
 H0 + V for them).]],
   params = {
-    { name = "V0", default = 5, unit = "energy", about = "height of the step (negative: a well)" },
-    { name = "edge", default = 0.5, unit = "length", about = "the step covers 0 < x < edge", positive = true },
+    { name = "V0", default = 5, invented = true, unit = "energy", about = "height of the step (negative: a well)" },
+    { name = "edge", default = 0.5, invented = true, unit = "length", about = "the step covers 0 < x < edge", positive = true },
     { name = "width", default = 1, unit = "length", about = "box width", positive = true },
     { name = "mass", default = 1, unit = "mass", about = "particle mass", positive = true },
     { name = "states", default = 40, unit = "", about = "box states kept (n = 1 .. states)",

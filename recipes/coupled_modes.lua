@@ -17,8 +17,8 @@ With omega1 = omega2 the levels of H0 are degenerate; ls.perturb groups them.
 Truncation: levels near n = levels-1 miss their upper partners.]],
   params = {
     { name = "omega1", default = 1, unit = "energy (hbar = 1)", about = "frequency of mode 1", positive = true },
-    { name = "omega2", default = 1.3, unit = "energy (hbar = 1)", about = "frequency of mode 2", positive = true },
-    { name = "coupling", default = 0.1, unit = "energy^2 (mass = 1)", about = "coefficient of x1 x2" },
+    { name = "omega2", default = 1.3, invented = true, unit = "energy (hbar = 1)", about = "frequency of mode 2", positive = true },
+    { name = "coupling", default = 0.1, invented = true, unit = "energy^2 (mass = 1)", about = "coefficient of x1 x2" },
     { name = "levels", default = 12, unit = "", about = "states kept per mode", integer = true, min = 2, max = 200 },
   },
   check = function(p)

@@ -44,7 +44,7 @@ n = 2: E1 = -3F, 0, 0, +3F and E2 = -(F^2/16) n^4 [17 n^2 - 3 (n1 - n2)^2
 Model fields besides basis, H0, V: z (the operator z, so V = F z), field,
 bohr(n) = -1/(2 n^2), units = "hartree".]],
   params = {
-    { name = "field", default = 1e-3, unit = "a.u. of field (5.142e11 V/m)", about = "field F along z: V = F z" },
+    { name = "field", default = 1e-3, invented = true, unit = "a.u. of field (5.142e11 V/m)", about = "field F along z: V = F z" },
     { name = "lmax", default = 3, unit = "", about = "largest orbital angular momentum l kept",
       integer = true, min = 0, max = 200 },
     { name = "nmax", default = 16, unit = "", about = "radial Laguerre functions per l (k = 0..nmax-1); at least 2 so that n = 2 fits",

@@ -19,7 +19,7 @@ model.exact(level) returns omega (level - 1/2) - g^2/(2 mass omega^2)
 Sakurai & Napolitano, Modern Quantum Mechanics, 2nd ed. (2011), the
 chapter 5 problems (problem number from memory: 5.1).]],
   params = {
-    { name = "g", default = 0.1, unit = "energy/length", about = "constant force: V = g x" },
+    { name = "g", default = 0.1, invented = true, unit = "energy/length", about = "constant force: V = g x" },
     { name = "mass", default = 1, unit = "mass", about = "oscillator mass", positive = true },
     { name = "omega", default = 1, unit = "1/time (= energy, hbar = 1)", about = "angular frequency", positive = true },
     { name = "levels", default = 40, unit = "", about = "oscillator states kept (n = 0 .. levels-1)",

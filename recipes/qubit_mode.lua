@@ -21,9 +21,9 @@ excited, -1/2 = ground) and n2 (photons). model.level(q, n) gives the number
 of state (q = "e" or "g", n photons) in the ordering of ls.perturb /
 ls.effective (ascending H0; ties by basis order).]],
   params = {
-    { name = "omega_qubit", default = 1.2, unit = "energy (hbar = 1)", about = "qubit splitting", positive = true },
+    { name = "omega_qubit", default = 1.2, invented = true, unit = "energy (hbar = 1)", about = "qubit splitting", positive = true },
     { name = "omega_mode", default = 1, unit = "energy (hbar = 1)", about = "mode frequency", positive = true },
-    { name = "coupling", default = 0.02, unit = "energy", about = "coupling g" },
+    { name = "coupling", default = 0.02, invented = true, unit = "energy", about = "coupling g" },
     { name = "form", default = "jc", about = "jc (rotating wave) or rabi (full)", choices = { "jc", "rabi" } },
     { name = "levels", default = 20, unit = "", about = "photon states kept (n = 0 .. levels-1)", integer = true, min = 2, max = 2000 },
   },

@@ -18,7 +18,7 @@ model.e2(J, M) returns the formula; exact for J < Jmax - 1 at second order.]],
   params = {
     { name = "B", default = 1, unit = "energy", about = "rotational constant", positive = true },
     { name = "mu", default = 1, unit = "dipole (energy/field)", about = "dipole moment" },
-    { name = "E", default = 0.2, unit = "field", about = "static field along z" },
+    { name = "E", default = 0.2, invented = true, unit = "field", about = "static field along z" },
     { name = "Jmax", default = 12, unit = "", about = "largest J kept", integer = true, min = 1, max = 200 },
     { name = "M", default = "all", unit = "", about = "\"all\", or one integer M (|M| <= Jmax)" },
   },

@@ -19,7 +19,7 @@ Basis: ls.spin(spin), states m = +S .. -S (label m).]],
   params = {
     { name = "spin", default = 0.5, unit = "hbar", about = "spin quantum number S", half_integer = true,
       positive = true, max = 100 },
-    { name = "field", default = 0.35, unit = "field_unit", about = "field magnitude B" },
+    { name = "field", default = 0.35, invented = true, unit = "field_unit", about = "field magnitude B" },
     { name = "field_unit", default = "T", about = "unit of field (tesla or an energy for mu_B B)", choices = FIELD },
     { name = "theta", default = 0, unit = "degree", about = "polar angle of the field from z" },
     { name = "phi", default = 0, unit = "degree", about = "azimuth of the field from x" },

@@ -119,6 +119,7 @@ local CHECK_KEYS = {
   name = true, default = true, unit = true, about = true, min = true, max = true,
   integer = true, positive = true, nonnegative = true, half_integer = true, choices = true,
   type = true,
+  invented = true, -- the default is an invented illustration value (report and help say so)
 }
 
 -- the definition table of recipe `name`, validated once per file
@@ -327,9 +328,10 @@ function M.help(name)
       for _, x in ipairs(pd.choices) do c[#c + 1] = fmt(x) end
       checks[#checks + 1] = "one of " .. table.concat(c, "|")
     end
-    out[#out + 1] = string.format("  %-16s default %-12s %-14s %s%s", pd.name,
+    out[#out + 1] = string.format("  %-16s default %-12s %-14s %s%s%s", pd.name,
       pd.default == nil and "(required)" or fmt(pd.default), pd.unit and ("[" .. pd.unit .. "]") or "",
-      pd.about or "", #checks > 0 and ("  (" .. table.concat(checks, ", ") .. ")") or "")
+      pd.about or "", #checks > 0 and ("  (" .. table.concat(checks, ", ") .. ")") or "",
+      pd.invented and "  (default invented)" or "")
   end
   return table.concat(out, "\n")
 end
@@ -346,7 +348,9 @@ local function report(m, show_levels, show_order, show_exact)
   w("parameters:\n")
   local def = M.info(m.name)
   for _, pd in ipairs(def.params) do
-    w(string.format("  %-16s = %-14s %s\n", pd.name, fmt(m.params[pd.name]), pd.unit or ""))
+    local inv = pd.invented and m.params[pd.name] == pd.default
+    w(string.format("  %-16s = %-14s %s%s\n", pd.name, fmt(m.params[pd.name]), pd.unit or "",
+      inv and "  (invented)" or ""))
   end
   local n = m.H0:dim()
   local count = math.min(show_levels, n)
