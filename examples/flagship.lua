@@ -36,7 +36,7 @@ end
 
 -- 1. Exact levels at the working field.
 local E, U = ls.eigen(H)
-print(string.format("== 1. exact levels: invented spin-1 defect + nuclear spin 1/2, B = %.2f mT at %.0f deg",
+print(string.format("== 1. exact levels: invented spin-1 defect + nuclear spin 1/2, B = %.2f mT at %g deg",
   B_mT, p.tilt))
 print(string.format("%5s  %14s  %14s  %s", "level", "E (GHz)", "E - E1 (MHz)", "largest component"))
 for k = 1, #E do

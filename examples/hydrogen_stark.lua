@@ -1,11 +1,11 @@
 -- Hydrogen in a uniform field (Stark effect): perturbation series with the
 -- continuum carried by Coulomb-Sturmian pseudostates, beside exact
--- diagonalization. Atomic units; F = 5e-4 a.u. is about 2.6e8 V/m.
+-- diagonalization. Atomic units; F = 5e-4 a.u. (invented) is about 2.6e8 V/m.
 local ls = require "levelshift"
 local h = ls.recipe("hydrogen", { field = 5e-4 })
 local F = h.params.field
 local s = ls.perturb(h.H0, h.V, { order = 4, levels = { 1, 2, 3, 4, 5 } })
-print(string.format("%d states (lmax %d, %d functions per l, kappa %g)", h.basis:dim(), h.params.lmax,
+print(string.format("F = %g a.u. (an invented field strength); %d states (lmax %d, %d functions per l, kappa %g)", F, h.basis:dim(), h.params.lmax,
   h.params.nmax, h.params.kappa))
 print(string.format("1s polarizability: %.10f a.u. (9/2 exactly)", -2 * s:energy(1, 2) / F ^ 2))
 local E = ls.eigen(h.H0 + h.V, { count = 5, vectors = false })
