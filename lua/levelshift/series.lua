@@ -46,8 +46,12 @@ return function(ls, core)
     -- consecutive nonzero coefficients a_j, a_k: radius ~ |a_j/a_k|^(1/(k-j))
     -- (handles series in lambda^2)
     local prev
+    -- rounding noise is judged against the first nonzero coefficient (a[1]
+    -- vanishes whenever V has no diagonal element, e.g. g x on an oscillator)
+    local ref = 0
+    for k = 1, K do if a[k] ~= 0 then ref = a[k]; break end end
     for k = 1, K do
-      if a[k] ~= 0 and math.abs(a[k]) > 1e-13 * math.abs(a[1] ~= 0 and a[1] or a[k]) then
+      if a[k] ~= 0 and math.abs(a[k]) > 1e-13 * math.abs(ref) then
         if prev then r[#r + 1] = math.abs(a[prev] / a[k]) ^ (1 / (k - prev)) end
         prev = k
       end

@@ -295,6 +295,20 @@ describe("ls.perturb", function()
     assert.is_table(s:totable().levels)
   end)
 
+  it("radius of a terminating series: no estimate from rounding noise", function()
+    -- linear force g x on an oscillator: E = n + 1/2 - g^2/2 exactly, so
+    -- E(1) = 0, E(2) = -1/2 (g = 1) and every higher order is 0 (completing
+    -- the square, common practice); the computed E(4), E(6) are ~1e-17 noise
+    local o = ls.oscillator(30)
+    local s = ls.perturb(o.number + 0.5, o.x, { order = 8, levels = { 1, 2 } })
+    assert.is_true(math.abs(s:energy(1, 2) + 0.5) < 1e-14)
+    for level = 1, 2 do
+      local r, note = s:radius(level)
+      assert.is_nil(r)
+      assert.truthy(note:find("coefficients vanish", 1, true), note)
+    end
+  end)
+
   it("raises clear errors", function()
     local H0 = ls.matrix { { 0, 0 }, { 0, 1 } }
     local V = ls.matrix { { 0, 1 }, { 1, 0 } }
