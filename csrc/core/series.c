@@ -41,6 +41,25 @@
 
 typedef double complex dc;
 
+/* OpenBLAS thread control (weak: absent with another BLAS). The dense work
+ * of a small degenerate group (an eigendecomposition and a few products of
+ * order d <= SERIES_BLAS1_MAX) runs on one BLAS thread: waking the pool
+ * costs more than it brings there (bench/jobs/degenerate.lua, d = 252, and
+ * dense groups of 128..600 levels, measured on 2 shared cores: README,
+ * Benchmarks). The previous setting is restored afterwards. */
+extern void openblas_set_num_threads(int) __attribute__((weak));
+extern int openblas_get_num_threads(void) __attribute__((weak));
+#define SERIES_BLAS1_MAX 512
+static int blas_hold1(size_t d) {
+  if (d < 2 || d > SERIES_BLAS1_MAX || !openblas_get_num_threads || !openblas_set_num_threads) return 0;
+  int t = openblas_get_num_threads();
+  if (t > 1) openblas_set_num_threads(1);
+  return t > 1 ? t : 0;
+}
+static void blas_release(int t) {
+  if (t > 0) openblas_set_num_threads(t);
+}
+
 /* Omega of one group: per order k = 0..nom a block of rows [lo[k], hi[k]) x d */
 typedef struct {
   size_t g0, d;
@@ -225,6 +244,9 @@ static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, i
     wop_range(V, plo, phi, &ylo, &yhi);
     dc *Wk = W + (size_t)(k - 1) * dd;
     int last = k > g->nom; /* only W(k) is wanted: P rows of V Omega(k-1) */
+    /* Omega(k-1) identically zero (V does not leave P, e.g. a conserved
+     * quantity): W(k) = P V Omega(k-1) = 0, and W is zeroed already */
+    if (last && k > 1 && plo >= phi) continue;
     size_t lo = ylo, hi = yhi;
     if (last) {
       lo = g0, hi = g1;
@@ -236,6 +258,24 @@ static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, i
           if (g->hi[i] > hi) hi = g->hi[i];
         }
       if (lo >= hi) lo = hi = g0;
+    }
+    if (!last && k == 1 && lo >= g0 && hi <= g1) {
+      if (ylo >= yhi) ylo = yhi = g0; /* V has no entries in these columns */
+      /* V maps P into P: Omega(1) (zero on P) vanishes, and W(1) = P V P is
+       * the product itself, written straight into W(1) */
+      for (size_t a = 0; a < d; a++) {
+        if (d == 1) {
+          static const dc one1 = 1.0;
+          wop_apply(V, &one1, plo, phi, Wk + (ylo - g0), ylo);
+        } else {
+          if (a) x0[a - 1] = 0;
+          x0[a] = 1.0;
+          wop_apply(V, x0, plo, phi, Wk + a * d + (ylo - g0), ylo);
+        }
+      }
+      g->om[k] = NULL;
+      g->lo[k] = g->hi[k] = g0;
+      continue;
     }
     size_t on = hi - lo;
     /* y = V Omega(k-1) lands in the block at rows [lo, hi); a product's rows
@@ -306,6 +346,10 @@ static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, i
         for (size_t a = 0; a < d; a++) ok[r + a * on] /= den;
       }
     }
+    /* an all-zero Omega(k) gets an empty row range: later orders skip it */
+    size_t nz = 0;
+    while (nz < on * d && ok[nz] == 0) nz++;
+    if (nz == on * d) g->hi[k] = g->lo[k];
   }
   lvsi_free(ctx, x0);
   lvsi_free(ctx, tmp);
@@ -324,14 +368,25 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
   int st = LVS_OK, real = 1;
   for (size_t q = 0; q < nk * dd && real; q++)
     if (cimag(M[q]) != 0) real = 0;
-  dc *c = lvsi_malloc(ctx, dd * sizeof *c);
-  double *m = lvsi_malloc(ctx, d * sizeof *m), *rc = lvsi_malloc(ctx, dd * sizeof *rc);
+  /* M(1..Kp) all exactly zero (nothing beyond first order couples the
+   * group, e.g. V conserves a quantity that labels it): the eigenvalues of
+   * M(0) are the whole series, and without eigenvector series they are all
+   * that is wanted: no eigenvectors, no products, no sub-reductions */
+  int hizero = 1;
+  for (size_t q = dd; q < nk * dd && hizero; q++)
+    if (M[q] != 0) hizero = 0;
+  int eonly = !z && hizero;
+  char jobz = eonly ? 'N' : 'V';
+  /* eonly: a real M(0) needs rc alone (fresh pages are what small problems pay for) */
+  size_t cb = eonly && real ? 1 : dd;
+  dc *c = lvsi_malloc(ctx, cb * sizeof *c);
+  double *m = lvsi_malloc(ctx, d * sizeof *m), *rc = lvsi_malloc(ctx, (real ? dd : 1) * sizeof *rc);
   /* R, OM, WA hold orders 1..Kp (block k at k-1): R(0) = diag(m), OM(0) = 1 */
-  size_t kb = Kp > 0 ? (size_t)Kp : 1;
+  size_t kb = Kp > 0 && !eonly ? (size_t)Kp : 0;
   /* T and OM serve the orders below Kp and the eigenvectors only */
-  int needom = z || Kp > 1;
-  dc *R = lvsi_malloc(ctx, kb * dd * sizeof *R), *T = lvsi_malloc(ctx, (needom ? dd : 1) * sizeof *T);
-  dc *OM = lvsi_malloc(ctx, (needom ? kb * dd : 1) * sizeof *OM), *WA = lvsi_malloc(ctx, kb * dd * sizeof *WA);
+  int needom = !eonly && (z || Kp > 1);
+  dc *R = lvsi_malloc(ctx, (kb * dd + 1) * sizeof *R), *T = lvsi_malloc(ctx, (needom ? dd : 1) * sizeof *T);
+  dc *OM = lvsi_malloc(ctx, (needom ? kb * dd + 1 : 1) * sizeof *OM), *WA = lvsi_malloc(ctx, (kb * dd + 1) * sizeof *WA);
   dc *UU = Kp > 0 && z ? lvsi_calloc(ctx, nk * dd, sizeof *UU) : lvsi_malloc(ctx, sizeof *UU);
   size_t *sg = lvsi_malloc(ctx, d * sizeof *sg);
   double *mean = lvsi_malloc(ctx, d * sizeof *mean);
@@ -346,15 +401,16 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
   if (real) {
     for (size_t j = 0; j < d; j++)
       for (size_t i = 0; i < d; i++) rc[j * d + i] = 0.5 * creal(M[j * d + i] + M[i * d + j]);
-    if (LAPACKE_dsyevd(LAPACK_COL_MAJOR, 'V', 'L', (lapack_int)d, rc, (lapack_int)d, m)) {
+    if (LAPACKE_dsyevd(LAPACK_COL_MAJOR, jobz, 'L', (lapack_int)d, rc, (lapack_int)d, m)) {
       st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: dsyevd failed on a degenerate group");
       goto done;
     }
-    for (size_t q = 0; q < dd; q++) c[q] = rc[q];
+    if (!eonly)
+      for (size_t q = 0; q < dd; q++) c[q] = rc[q];
   } else {
     for (size_t j = 0; j < d; j++)
       for (size_t i = 0; i < d; i++) c[j * d + i] = 0.5 * (M[j * d + i] + conj(M[i * d + j]));
-    if (LAPACKE_zheevd(LAPACK_COL_MAJOR, 'V', 'L', (lapack_int)d, (lapack_complex_double *)c, (lapack_int)d, m)) {
+    if (LAPACKE_zheevd(LAPACK_COL_MAJOR, jobz, 'L', (lapack_int)d, (lapack_complex_double *)c, (lapack_int)d, m)) {
       st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: zheevd failed on a degenerate group");
       goto done;
     }
@@ -366,7 +422,11 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
   /* eigenvalues only: the last order needs just the subgroups' diagonal
    * blocks of R(Kp), so RB(Kp) keeps M[Kp] C and the blocks come later */
   int lastblocks = !z && Kp > 0;
-  for (int k = 1; k <= Kp; k++) {
+  for (int k = 1; k <= Kp && !eonly; k++) {
+    if (hizero) { /* C^H 0 C */
+      memset(RB(k), 0, dd * sizeof(dc));
+      continue;
+    }
     if (k == Kp && lastblocks) {
       if ((st = gemm(ctx, real, 0, d, d, d, 1.0, M + (size_t)k * dd, d, c, d, 0.0, RB(k), d))) goto done;
       break;
@@ -384,7 +444,7 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
 #define MAG(z) (fabs(creal(z)) > fabs(cimag(z)) ? fabs(creal(z)) : fabs(cimag(z)))
   for (size_t q = 0; q < dd; q++)
     if (MAG(M[q]) > ms) ms = MAG(M[q]);
-  for (size_t q = 0; q < (size_t)(lastblocks ? Kp - 1 : Kp) * dd; q++)
+  for (size_t q = 0; !hizero && q < (size_t)(lastblocks ? Kp - 1 : Kp) * dd; q++)
     if (MAG(R[q]) > ms) ms = MAG(R[q]);
   if (lastblocks) /* RB(Kp) holds M[Kp] C: take the scale from M[Kp] itself */
     for (size_t q = 0; q < dd; q++)
@@ -403,10 +463,11 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
     ng++;
     g0 = g1;
   }
-  if (Kp == 0) {
+  if (Kp == 0 || eonly) { /* eonly: higher orders all vanish, nothing splits later */
     for (size_t i = 0; i < d; i++) {
       int alone = (i == 0 || sg[i - 1] != sg[i]) && (i + 1 == d || sg[i + 1] != sg[i]);
-      mu[i] = alone ? m[i] : mean[sg[i]];
+      mu[i * nk] = alone ? m[i] : mean[sg[i]];
+      for (size_t k = 1; k < nk; k++) mu[i * nk + k] = 0.0;
       split[i] = alone ? ord0 : -1;
       zord[i] = 0;
       if (z)
@@ -925,7 +986,7 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
   memset(&w, 0, sizeof w);
   tri t;
   memset(&t, 0, sizeof t);
-  int bordered = 0;
+  int bordered = 0, bheld = 0; /* bheld: BLAS threads to restore (blas_hold1) */
   unsigned char *want = NULL;
   ekey *raw = NULL;
   dc *W = NULL, *zz = NULL;
@@ -1035,6 +1096,8 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
       st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
       goto fail;
     }
+    blas_release(bheld);
+    bheld = blas_hold1(d);
     if (bordered)
       st = bordered_level(ctx, &t, hp, vp, E, g0, K, g, W);
     else
@@ -1125,6 +1188,7 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
   }
   st = LVS_OK;
 fail:
+  blas_release(bheld);
   wop_free(ctx, &w);
   tri_free(ctx, &t);
   lvs_matrix_free(vkeep);
