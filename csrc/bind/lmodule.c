@@ -51,7 +51,11 @@ static int ctx_gc(lua_State *L) {
 
 int lvsL_check(lua_State *L, lvs_ctx *ctx, int st, const char *fname) {
   if (st == LVS_OK) return 0;
-  lua_pushfstring(L, "%s: %s", fname, lvs_errmsg(ctx));
+  const char *msg = lvs_errmsg(ctx);
+  size_t fl = strlen(fname);
+  /* the core may already name the function ("transition: ..."): say it once */
+  if (!strncmp(msg, fname, fl) && msg[fl] == ':' && msg[fl + 1] == ' ') msg += fl + 2;
+  lua_pushfstring(L, "%s: %s", fname, msg);
   lvs_clear_error(ctx);
   return lua_error(L);
 }

@@ -195,7 +195,7 @@ static int eigen_tridiag(const lvs_matrix *a, size_t count, int want, double *w,
   lvs_ctx *ctx = a->ctx;
   size_t n = a->rows;
   int st;
-  if (want && (st = lvsi_dense_ok(ctx, n, count, 8, "eigen (vectors)"))) return st;
+  if (want && (st = lvsi_dense_ok(ctx, n, count, 8, "eigenvectors"))) return st;
   double *d = lvsi_calloc(ctx, n, sizeof(double)), *e = lvsi_calloc(ctx, n, sizeof(double));
   double *wf = lvsi_malloc(ctx, n * sizeof(double));
   lapack_int *sup = lvsi_malloc(ctx, 2 * n * sizeof(lapack_int));
@@ -246,7 +246,7 @@ int lvs_eigen_sectors(const lvs_matrix *h, const size_t *comp, size_t count, int
   if (st) return st;
   size_t n = lvs_matrix_rows(h);
   if (count == 0 || count > n) count = n;
-  if (want_vectors && (st = lvsi_dense_ok(ctx, n, count, h->cplx ? 16 : 8, "eigen (vectors)"))) return st;
+  if (want_vectors && (st = lvsi_dense_ok(ctx, n, count, h->cplx ? 16 : 8, "eigenvectors"))) return st;
   lvs_matrix *p = NULL;
   if (h->vis && (st = lvs_matrix_visible(h, 0, &p))) return st;
   const lvs_matrix *a = p ? p : h;
@@ -298,7 +298,7 @@ int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, double 
   if (n > 2147483647u) return lvsi_fail(ctx, LVS_ECAP, "matrix of %zu states is too large for LAPACK", n);
   /* cap: working copy plus vectors */
   if ((st = lvsi_dense_ok(ctx, n, n, h->cplx ? 16 : 8, "eigen (working copy)"))) return st;
-  if (want_vectors && (st = lvsi_dense_ok(ctx, n, count, h->cplx ? 16 : 8, "eigen (vectors)"))) return st;
+  if (want_vectors && (st = lvsi_dense_ok(ctx, n, count, h->cplx ? 16 : 8, "eigenvectors"))) return st;
   lvs_matrix *a = NULL, *z = NULL;
   if ((st = lvs_matrix_visible(h, 1, &a))) return st;
   lapack_int N = (lapack_int)n, info, found = 0;

@@ -19,7 +19,7 @@ describe("documented errors", function()
   it("eigen: non-Hermitian input, the dense cap, ls.config", function()
     errs("bad argument #1 to 'eigen' (matrix is not Hermitian: |H(1,2) - conj(H(2,1))| = 1.5 (largest entry 2))", function() return ls.eigen(ls.matrix { { 1, 2 }, { 0.5, 1 } }) end)
     local P = ls.product(ls.spin(0.5), 21) -- 2,097,152 states
-    errs("eigen: eigen (vectors): 2097152x2097152 dense storage needs 3.52e+04 GB, above the dense cap of 4.29 GB "
+    errs("eigen: eigenvectors: 2097152x2097152 dense storage needs 3.52e+04 GB, above the dense cap of 4.29 GB "
       .. "(raise it with ls.config{dense_cap = bytes} if the machine has the memory)",
       function() return ls.eigen(P:site(1).Sz) end)
     errs("dense_cap must be a positive number of bytes", function() return ls.config({ dense_cap = -1 }) end)
