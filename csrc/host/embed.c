@@ -1,7 +1,12 @@
 /* embed.c -- the embedding API: a Lua state with levelshift preloaded.
  * Search order for the Lua sugar and recipes: directories added with
- * lvs_host_add_path, LVS_PATH from the environment, the source tree this
- * library was built from, then the install prefix. */
+ * lvs_host_add_path, LVS_PATH from the environment, then either the source
+ * tree (when this library runs from the build tree it was built in) or the
+ * installed Lua directory found next to this library (an install moved with
+ * `cmake --install --prefix OTHER`), then the configured install prefix. */
+#define _GNU_SOURCE
+#include <dlfcn.h>
+#include <limits.h>
 #include <lauxlib.h>
 #include <lua.h>
 #include <lualib.h>
@@ -78,6 +83,26 @@ static void prepend_path(lua_State *L, const char *dir) {
   lua_pop(L, 2);
 }
 
+/* Where this library runs from: inside the build tree it was built in,
+ * return 0 (use the source tree); installed, write the Lua directory of that
+ * install (LVS_REL_LUA relative to the library's folder) and return 1. */
+static int own_lua_dir(char *out, size_t len) {
+  Dl_info di;
+  if (!dladdr((void *)lvs_host_new, &di) || !di.dli_fname) return 0;
+  char *real = realpath(di.dli_fname, NULL);
+  if (!real) return 0;
+  size_t bl = strlen(LVS_BINARY_DIR);
+  int in_build = !strncmp(real, LVS_BINARY_DIR, bl) && real[bl] == '/';
+  char *slash = strrchr(real, '/');
+  int ok = 0;
+  if (!in_build && slash) {
+    *slash = 0;
+    ok = snprintf(out, len, "%s/%s", real, LVS_REL_LUA) < (int)len;
+  }
+  free(real);
+  return ok;
+}
+
 int lvs_host_add_path(lvs_host *h, const char *dir) {
   if (!h || !dir) return 1;
   prepend_path(h->L, dir);
@@ -126,9 +151,12 @@ lvs_host *lvs_host_new_ex(const lvs_host_opts *opts) {
   } else {
     luaL_openlibs(L);
   }
-  /* installed prefix last, then the source tree, then LVS_PATH first */
+  /* configured install prefix last, then the source tree or the install
+   * found next to this library, then LVS_PATH first */
   prepend_path(L, LVS_INSTALL_LUA);
-  prepend_path(L, LVS_SOURCE_DIR);
+  char own[PATH_MAX];
+  if (own_lua_dir(own, sizeof own)) prepend_path(L, own);
+  else prepend_path(L, LVS_SOURCE_DIR);
   const char *env = getenv("LVS_PATH");
   if (env && *env) prepend_path(L, env);
   luaL_getsubtable(L, LUA_REGISTRYINDEX, LUA_PRELOAD_TABLE);
