@@ -194,6 +194,12 @@ int main(int argc, char **argv) {
     printf("levelshift %s (%s)\n", lvs_version(), LUA_RELEASE);
     return 0;
   }
+  if (argv[1][0] == '-' && strcmp(argv[1], "-e") && strcmp(argv[1], "--recipes")) {
+    fprintf(stderr, "levelshift: unknown option '%s' (options before a script: -e, --help, --version, --recipes)\n",
+            argv[1]);
+    usage(stderr);
+    return 2;
+  }
   lvs_host *h = lvs_host_new(LVS_HOST_GLOBAL);
   if (!h) {
     fprintf(stderr, "levelshift: cannot create a Lua state\n");
