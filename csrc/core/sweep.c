@@ -1313,6 +1313,24 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     goto finish;
   }
 
+  /* Levels exactly degenerate at `from` come out of LAPACK in no particular
+   * order: number them by their energies at the next grid point, so that
+   * "level a is the a-th lowest at from" also holds just after from. */
+  if (npts >= 2) {
+    for (size_t a = 0; a < count;) {
+      size_t b = a + 1;
+      while (b < count && fabs(s->e[b * npts] - s->e[a * npts]) <= degen_tol) b++;
+      for (size_t i = a + 1; i < b; i++) /* insertion sort of rows a..b-1 by e at k = 1 */
+        for (size_t j = i; j > a && s->e[j * npts + 1] < s->e[(j - 1) * npts + 1]; j--)
+          for (size_t k = 0; k < npts; k++) {
+            double t = s->e[j * npts + k];
+            s->e[j * npts + k] = s->e[(j - 1) * npts + k];
+            s->e[(j - 1) * npts + k] = t;
+          }
+      a = b;
+    }
+  }
+
   /* crossings: local minima of adjacent gaps over the grid, refined */
   if (npts >= 3 && count >= 2) {
     /* rank r at point k is the tracked level with the r-th smallest energy

@@ -490,4 +490,15 @@ echo "killed=$?"]], bin, s, args, out, out, 48 + 5 * rec))
         "cannot write '/nonexistent-dir/levels.csv'", 1, true)
     end)
   end)
+  it("numbers levels degenerate at `from` by their order just after it", function()
+    -- H(p) = p diag(1, -1, 0.5) on a zero H0: all three degenerate at p = 0.
+    -- Level a must be the a-th lowest just after from (common practice).
+    local sw = ls.sweep{ H0 = ls.matrix{ { 0, 0, 0 }, { 0, 0, 0 }, { 0, 0, 0 } },
+      V = ls.matrix{ { 1, 0, 0 }, { 0, -1, 0 }, { 0, 0, 0.5 } }, from = 0, to = 1, steps = 10 }
+    local slopes = { -1, 0.5, 1 }
+    for a = 1, 3 do
+      local e = sw:level(a)
+      for k, p in ipairs(sw.p) do assert.is_true(math.abs(e[k] - slopes[a] * p) < 1e-12) end
+    end
+  end)
 end)
