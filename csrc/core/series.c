@@ -30,6 +30,11 @@
  *     series division. A member split at order s has states to order K - s
  *     (the P-space part of psi(k) needs W(k + s)).
  *   - States are assembled on request (lvs_series_state), not stored.
+ *   - Short paths, exact for any model: when V maps a group into itself,
+ *     Omega(1) vanishes and is not stored (W(1) = P V P written directly);
+ *     an all-zero Omega(k) gets an empty row range; when M(1..) are all
+ *     exactly zero and only energies are wanted, a group costs the
+ *     eigenvalues of M(0) alone.
  */
 #include <cblas.h>
 #include <complex.h>
