@@ -349,7 +349,10 @@ local function report(m, show_levels, show_order, show_exact)
   local def = M.info(m.name)
   for _, pd in ipairs(def.params) do
     local inv = pd.invented and m.params[pd.name] == pd.default
-    w(string.format("  %-16s = %-14s %s%s\n", pd.name, fmt(m.params[pd.name]), pd.unit or "",
+    -- a unit given as the name of another parameter (energy_unit) shows its value
+    local unit = pd.unit
+    if unit and type(m.params[unit]) == "string" then unit = m.params[unit] end
+    w(string.format("  %-16s = %-14s %s%s\n", pd.name, fmt(m.params[pd.name]), unit or "",
       inv and "  (invented)" or ""))
   end
   local n = m.H0:dim()
@@ -373,6 +376,14 @@ local function report(m, show_levels, show_order, show_exact)
   head = head .. string.format("  %16s", "sum to order " .. show_order)
   if E then head = head .. string.format("  %16s", "exact (H0+V)") end
   w(head .. "\n")
+  -- corrections below rounding level of the energies print as 0
+  local scale = 0
+  for i = 1, count do
+    local e0 = s and s:energy(i, 0) or (E0 and E0[i]) or 0
+    if math.abs(e0) > scale then scale = math.abs(e0) end
+  end
+  local function clip(e) return math.abs(e) < 1e-13 * scale and 0.0 or e + 0.0 end
+  local sums, shift = {}, 0
   for i = 1, count do
     local e0 = s and s:energy(i, 0) or (E0 and E0[i])
     local line = e0 and string.format("%5d  %16.10g", i, e0 + 0.0) -- + 0.0 turns -0 into 0
@@ -382,9 +393,11 @@ local function report(m, show_levels, show_order, show_exact)
       for k = 0, show_order do
         local e = s:energy(i, k)
         sum = sum + e
-        if k > 0 then line = line .. string.format("  %14.7g", e + 0.0) end
+        if k > 0 then line = line .. string.format("  %14.7g", clip(e)) end
       end
       line = line .. string.format("  %16.10g", sum + 0.0)
+      sums[#sums + 1] = sum
+      if math.abs(sum - e0) > shift then shift = math.abs(sum - e0) end
     else
       for _ = 1, show_order do line = line .. string.format("  %14s", "-") end
       line = line .. string.format("  %16s", "-")
@@ -393,6 +406,17 @@ local function report(m, show_levels, show_order, show_exact)
     w(line .. "\n")
   end
   if serr then w("perturbation series not available: " .. serr .. "\n") end
+  if E and #sums == count and count > 0 then
+    -- compare the sums with the exact levels, both in ascending order
+    table.sort(sums)
+    local miss = 0
+    for i = 1, count do miss = math.max(miss, math.abs(sums[i] - E[i])) end
+    if miss > 1e-2 * shift and miss > 1e-9 * math.max(scale, 1e-300) then
+      w(string.format("warning: the order-%d sums miss the exact levels by up to %.4g (%.0f%% of the largest shift): " ..
+        "the perturbation is past the series' range here; trust the exact column, or lower the perturbation\n",
+        show_order, miss, 100 * miss / math.max(shift, 1e-300)))
+    end
+  end
   if E then
     w("levels numbered by ascending E0 (series) and by ascending exact energy (last column)\n")
   elseif n > EXACT_LIMIT then
