@@ -361,6 +361,72 @@ static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, i
   return st;
 }
 
+/* ---- eigenvalues of M(0) sector by sector ----------------------------- */
+static size_t uf_find(size_t *par, size_t i) {
+  while (par[i] != i) i = par[i] = par[par[i]];
+  return i;
+}
+static int cmp_dbl(const void *a, const void *b) {
+  double x = *(const double *)a, y = *(const double *)b;
+  return (x > y) - (x < y);
+}
+/* When the nonzero pattern of M0 (d x d, column-major) has more than one
+ * connected component, the ascending eigenvalues of its Hermitian part go to
+ * m (*done = 1), each component solved alone in rc (real) or c (complex),
+ * scratch of d*d. One component: nothing is done (*done = 0). */
+static int sector_eigvals(lvs_ctx *ctx, size_t d, const dc *M0, int real, double *rc, dc *c, double *m, int *done) {
+  *done = 0;
+  size_t *par = lvsi_malloc(ctx, 4 * d * sizeof *par);
+  if (!par) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  size_t *idx = par + d, *start = par + 2 * d, *root = par + 3 * d, ncomp = d;
+  for (size_t i = 0; i < d; i++) par[i] = i;
+  for (size_t j = 0; j < d && ncomp > 1; j++)
+    for (size_t i = j + 1; i < d; i++)
+      if (M0[j * d + i] != 0 || M0[i * d + j] != 0) {
+        size_t a = uf_find(par, i), b = uf_find(par, j);
+        if (a != b) par[a] = b, ncomp--;
+      }
+  int st = LVS_OK;
+  if (ncomp > 1) {
+    /* states grouped by root: counting sort on the root index */
+    for (size_t i = 0; i < d; i++) start[i] = 0, root[i] = uf_find(par, i);
+    for (size_t i = 0; i < d; i++) start[root[i]]++;
+    size_t acc = 0;
+    for (size_t r = 0; r < d; r++) {
+      size_t cnt = start[r];
+      start[r] = acc;
+      acc += cnt;
+    }
+    for (size_t i = 0; i < d; i++) idx[start[root[i]]++] = i;
+    size_t b0 = 0;
+    while (b0 < d && !st) {
+      size_t r = root[idx[b0]], b1 = b0;
+      while (b1 < d && root[idx[b1]] == r) b1++;
+      size_t n = b1 - b0;
+      const size_t *ix = idx + b0;
+      if (real) {
+        for (size_t q = 0; q < n; q++)
+          for (size_t p = 0; p < n; p++)
+            rc[q * n + p] = 0.5 * creal(M0[ix[q] * d + ix[p]] + M0[ix[p] * d + ix[q]]);
+        if (LAPACKE_dsyevd(LAPACK_COL_MAJOR, 'N', 'L', (lapack_int)n, rc, (lapack_int)n, m + b0))
+          st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: dsyevd failed on a degenerate group");
+      } else {
+        for (size_t q = 0; q < n; q++)
+          for (size_t p = 0; p < n; p++) c[q * n + p] = 0.5 * (M0[ix[q] * d + ix[p]] + conj(M0[ix[p] * d + ix[q]]));
+        if (LAPACKE_zheevd(LAPACK_COL_MAJOR, 'N', 'L', (lapack_int)n, (lapack_complex_double *)c, (lapack_int)n, m + b0))
+          st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: zheevd failed on a degenerate group");
+      }
+      b0 = b1;
+    }
+    if (!st) {
+      qsort(m, d, sizeof *m, cmp_dbl);
+      *done = 1;
+    }
+  }
+  lvsi_free(ctx, par);
+  return st;
+}
+
 /* ---- eigenvalue series of a small matrix series ----------------------- */
 /* M: Kp+1 blocks d x d (column-major), d >= 2. Per member i (ascending):
  * mu[i*(Kp+1)+k], split[i], zord[i] and the eigenvector series
@@ -402,8 +468,14 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
     st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
     goto done;
   }
+  /* eigenvalues only and M(0) block-diagonal up to a permutation (V
+   * conserves a quantity inside the group): one small eigenvalue problem per
+   * connected component of M(0)'s nonzero pattern, then sorted together */
+  int split_done = 0;
+  if (eonly && d > 2 && (st = sector_eigvals(ctx, d, M, real, rc, c, m, &split_done))) goto done;
   /* Hermitian part of M[0] (exactly Hermitian at the first two levels) */
-  if (real) {
+  if (split_done) {
+  } else if (real) {
     for (size_t j = 0; j < d; j++)
       for (size_t i = 0; i < d; i++) rc[j * d + i] = 0.5 * creal(M[j * d + i] + M[i * d + j]);
     if (LAPACKE_dsyevd(LAPACK_COL_MAJOR, jobz, 'L', (lapack_int)d, rc, (lapack_int)d, m)) {

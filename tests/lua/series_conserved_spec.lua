@@ -75,6 +75,29 @@ describe("ls.perturb, V conserving the group's quantum number", function()
     assert.is_true(s:check(0.3).max_error < 1e-12)
   end)
 
+  for _, phi in ipairs { 0, 0.7 } do
+    it("H0 = 0: the whole space is one group, P V P splits into the Sz sectors (phi = " .. phi .. ")", function()
+      -- all 16 levels of the 4-site chain are degenerate; V conserves total Sz, so its matrix is
+      -- block-diagonal (sectors of 1, 4, 6, 4, 1 states). Lieb, Schultz & Mattis (1961): the
+      -- spectrum is every sum of N distinct modes cos(k pi / 5), N = 0..4.
+      local _, V = chain(4, phi)
+      local s = ls.perturb(ls.zeros(16, 16), V, { order = 2, states = false })
+      local eps, ref16 = {}, {}
+      for k = 1, 4 do eps[k] = math.cos(k * math.pi / 5) end
+      for mask = 0, 15 do
+        local e = 0
+        for k = 1, 4 do if (mask >> (k - 1)) & 1 == 1 then e = e + eps[k] end end
+        ref16[#ref16 + 1] = e
+      end
+      table.sort(ref16)
+      for lev = 1, 16 do
+        assert.is_true(math.abs(s:energy(lev, 1) - ref16[lev]) < 1e-12, "E1 of level " .. lev)
+        assert.are.equal(0, s:energy(lev, 2))
+      end
+      assert.is_true(s:check(0.3).max_error < 1e-12)
+    end)
+  end
+
   it("a single level that V maps onto itself: E = E0 + lambda V_nn exactly", function()
     -- diagonal V: H0 + lambda V is diagonal, its levels are E0 + lambda V_nn (closed form)
     local H0 = ls.matrix { { 0, 0, 0 }, { 0, 1, 0 }, { 0, 0, 2 } }
