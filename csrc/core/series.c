@@ -34,7 +34,8 @@
  *     Omega(1) vanishes and is not stored (W(1) = P V P written directly);
  *     an all-zero Omega(k) gets an empty row range; when M(1..) are all
  *     exactly zero and only energies are wanted, a group costs the
- *     eigenvalues of M(0) alone.
+ *     eigenvalues of M(0) alone, found sector by sector when M(0)'s nonzero
+ *     pattern splits into several connected components.
  */
 #include <cblas.h>
 #include <complex.h>
