@@ -537,7 +537,8 @@ LVS_API const lvs_constant *lvs_constant_find(const char *name);
 /* the i-th unit name from 0 (STATIC), its kind in *kind if kind != NULL:
  * "energy" (hartree, eV, cm^-1, Hz..THz, rad/s, K, and T/mT/uT/G as mu_B B),
  * "electric field" (V/m .. au_field), "length", "magnetic field"
- * (tesla, gauss, au_bfield); NULL past the end. */
+ * (tesla, gauss, au_bfield), "dipole" (D = debye = 1e-21/c C m, ea0 =
+ * au_dipole, C*m); NULL past the end. */
 LVS_API const char *lvs_unit_at(size_t i, const char **kind);
 /* the kind of a unit name (STATIC string), NULL if unknown. */
 LVS_API const char *lvs_unit_kind(const char *name);

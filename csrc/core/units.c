@@ -10,7 +10,11 @@
  * (E = h f), angular frequencies (hbar omega), wavenumbers (h c / lambda),
  * temperatures (k_B T) and magnetic fields as Bohr-magneton energies (mu_B B,
  * units T, mT, uT, G); the magnetic field as such has its own kind (tesla,
- * gauss, au_bfield). All tables are static: no allocation, no state. */
+ * gauss, au_bfield). Electric dipole moments are a kind of their own: the
+ * debye (D) is 1e-21/c C m exactly by its definition (1e-18 statC cm; c the
+ * exact SI value), and the atomic unit e a0 is the CODATA 2018 value
+ * 8.4783536255e-30 C m, so 1 D = 0.393430... e a0.
+ * All tables are static: no allocation, no state. */
 #include <string.h>
 #include "internal.h"
 
@@ -24,6 +28,8 @@
 #define A0_ 5.29177210903e-11
 #define EAU_ 5.14220674763e11
 #define BAU_ 2.35051756758e5
+#define DAU_ 8.4783536255e-30 /* atomic unit of electric dipole moment e a0, C m */
+#define DEBYE_ (1e-21 / C_) /* debye, C m, exact by definition */
 
 static const lvs_constant table[] = {
     /* exact (SI 2019) */
@@ -62,7 +68,7 @@ static const lvs_constant table[] = {
     {"au_time", 2.4188843265857e-17, 0.0000000000047e-17, "s", "atomic unit of time"},
     {"au_efield", EAU_, 0.00000000078e11, "V m^-1", "atomic unit of electric field"},
     {"au_bfield", BAU_, 0.00000000071e5, "T", "atomic unit of magnetic flux density"},
-    {"au_dipole", 8.4783536255e-30, 0.0000000013e-30, "C m", "atomic unit of electric dipole moment"},
+    {"au_dipole", DAU_, 0.0000000013e-30, "C m", "atomic unit of electric dipole moment"},
     {"mu_0", 1.25663706212e-6, 0.00000000019e-6, "N A^-2", "vacuum magnetic permeability"},
     {"eps_0", 8.8541878128e-12, 0.0000000013e-12, "F m^-1", "vacuum electric permittivity"},
 };
@@ -71,10 +77,11 @@ static const lvs_constant table[] = {
 typedef struct {
   const char *name;
   const char *kind;
-  double si; /* size of one unit in the kind's SI unit (J, V/m, m, T) */
+  double si; /* size of one unit in the kind's SI unit (J, V/m, m, T, C m) */
 } unit;
 
-static const char K_E[] = "energy", K_F[] = "electric field", K_L[] = "length", K_B[] = "magnetic field";
+static const char K_E[] = "energy", K_F[] = "electric field", K_L[] = "length", K_B[] = "magnetic field",
+                  K_D[] = "dipole";
 
 static const unit units[] = {
     {"hartree", K_E, EH_}, {"Eh", K_E, EH_}, {"eV", K_E, E_}, {"meV", K_E, 1e-3 * E_},
@@ -87,6 +94,8 @@ static const unit units[] = {
     {"m", K_L, 1}, {"cm", K_L, 1e-2}, {"mm", K_L, 1e-3}, {"um", K_L, 1e-6}, {"nm", K_L, 1e-9},
     {"pm", K_L, 1e-12}, {"angstrom", K_L, 1e-10}, {"bohr", K_L, A0_},
     {"tesla", K_B, 1}, {"gauss", K_B, 1e-4}, {"au_bfield", K_B, BAU_},
+    {"D", K_D, DEBYE_}, {"debye", K_D, DEBYE_}, {"ea0", K_D, DAU_}, {"au_dipole", K_D, DAU_},
+    {"C*m", K_D, 1},
 };
 #define NUNITS (sizeof units / sizeof units[0])
 

@@ -19,6 +19,10 @@
 --   length: m, cm, mm, um, nm, pm, angstrom, bohr (a0)
 --   magnetic field: tesla, gauss, au_bfield (atomic unit hbar/(e a0^2))
 --     (use "T" and friends for an energy mu_B B; "tesla" for the field itself)
+--   dipole: D (debye), ea0 (au_dipole), C*m
+--     (1 D = 1e-21/c C m exactly by definition; e a0 = 8.4783536255e-30 C m,
+--     CODATA 2018; so 1 D = 0.3934302... e a0. Dipole times field is an
+--     energy: convert(mu, "D", "C*m") * convert(F, "kV/cm", "V/m") is in J.)
 -- The table and the conversion factors live in the C core (csrc/core/units.c,
 -- lvs_constant_* and lvs_unit_convert); this file words the errors.
 local core = require "levelshift.core"
@@ -65,7 +69,7 @@ end
 -- Energies, frequencies (E = h f), wavenumbers (E = h c / lambda), temperatures
 -- (E = k_B T) and magnetic fields as Zeeman energies (E = mu_B B, units T, mT,
 -- uT, G) convert into each other; so do electric fields, lengths and magnetic
--- fields among themselves.
+-- fields among themselves; so do dipole moments.
 function U.convert(value, from, to)
   if type(value) ~= "number" then
     error("bad argument #1 to 'convert' (number expected, got " .. type(value) .. ")", 2)
@@ -85,7 +89,7 @@ function U.convert(value, from, to)
   return core._unit_convert(value, from, to)
 end
 
---- units.kind(name) -> "energy" | "electric field" | "length" | "magnetic field" | nil
+--- units.kind(name) -> "energy" | "electric field" | "length" | "magnetic field" | "dipole" | nil
 function U.kind(name)
   return kind_of[name]
 end

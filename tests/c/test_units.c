@@ -64,6 +64,10 @@ int main(void) {
   CHECK(lvs_unit_convert(ctx, 1, "au_field", "V/m", &x) == LVS_OK && x == 5.14220674763e11, "au field");
   CHECK(lvs_unit_convert(ctx, 2.385, "MHz", "MHz", &x) == LVS_OK && x == 2.385, "identity");
   CHECK(strcmp(lvs_unit_kind("kV/cm"), "electric field") == 0, "kind");
+  /* debye: 1e-21/c C m by definition; e a0 = 8.4783536255e-30 C m (CODATA 2018,
+   * Tiesinga et al., Rev. Mod. Phys. 93, 025010 (2021)); 1 D = 0.393430269522 e a0 */
+  CHECK(strcmp(lvs_unit_kind("D"), "dipole") == 0, "dipole kind");
+  CHECK(lvs_unit_convert(ctx, 1, "D", "ea0", &x) == LVS_OK && fabs(x / 0.393430269522 - 1) < 1e-11, "debye in e a0");
   CHECK(lvs_unit_kind("parsec") == NULL && lvs_unit_kind(NULL) == NULL, "unknown kind");
   const char *kind = NULL;
   CHECK(lvs_unit_at(0, &kind) != NULL && kind != NULL, "unit_at");

@@ -239,6 +239,79 @@ describe("ls.rotor", function()
     assert.error_matches(function() ls.recipe("rotor_stark", { B = -1 }) end, "parameter 'B' must be positive")
   end)
 
+  it("recipe rotor_stark in laboratory units (B in GHz, mu in debye, E in kV/cm)", function()
+    -- invented molecule: B = 10 GHz, mu = 1 D, E = 1 kV/cm.
+    -- Hand conversion (done outside the module, 30-digit decimal arithmetic) from
+    -- CODATA 2018 exact values (Tiesinga et al., Rev. Mod. Phys. 93, 025010 (2021)):
+    -- 1 D = 1e-21/c C m (definition of the debye), so
+    -- mu E / h = 1e-21/c * 1e5 V/m / h = 1e-16/(c h) Hz = 0.50341165675427 GHz
+    -- (0.5034 GHz from memory) = 0.0167920053797 cm^-1.
+    local muE_GHz, muE_cm = 0.50341165675427, 0.0167920053797441
+    local p = { B = 10, B_unit = "GHz", mu = 1, mu_unit = "D", E = 1, E_unit = "kV/cm", Jmax = 8 }
+    local m = ls.recipe("rotor_stark", p)
+    assert.are.equal("GHz", m.units)
+    assert.are.equal("GHz", m.params.energy_unit)
+    assert.is_true(near(m.muE, muE_GHz, 1e-14 * muE_GHz), "muE = " .. m.muE)
+    assert.is_true(near(m.B, 10, 0))
+    -- series shifts against the dimensionless Townes & Schawlow (1955) formula,
+    -- every level with J <= 3 and every M; groups sorted by ascending correction
+    local levels = {}
+    for i = 1, 16 do levels[i] = i end
+    local s = ls.perturb(m.H0, m.V, { order = 2, levels = levels })
+    for J = 0, 3 do
+      local want = {}
+      for M = -J, J do want[#want + 1] = stark(10, muE_GHz, J, M) end
+      table.sort(want)
+      for k = 1, 2 * J + 1 do
+        assert.is_true(near(s:energy(J * J + k, 2), want[k], 1e-12 * muE_GHz ^ 2 / 10), "J=" .. J .. " k=" .. k)
+      end
+    end
+    -- same molecule with B in MHz and cm^-1, energies in cm^-1 and MHz
+    local q = { B = 10000, B_unit = "MHz", mu = 1, mu_unit = "debye", E = 1e5, E_unit = "V/m", Jmax = 8,
+      energy_unit = "cm^-1", M = 1 }
+    local mc = ls.recipe("rotor_stark", q)
+    assert.are.equal("cm^-1", mc.units)
+    assert.is_true(near(mc.muE, muE_cm, 1e-13 * muE_cm))
+    local Bcm = 10 / 29.9792458 -- c in cm/ns, exact
+    assert.is_true(near(mc.B, Bcm, 1e-14 * Bcm))
+    local sc = ls.perturb(mc.H0, mc.V, { order = 2 })
+    for lev = 1, 3 do
+      local J = mc.basis:labels(lev).J
+      assert.is_true(near(sc:energy(lev, 2), stark(Bcm, muE_cm, J, 1), 1e-12 * muE_cm ^ 2 / Bcm), "cm J=" .. J)
+    end
+    -- field in atomic units, dipole in e a0, B in cm^-1: 1 au_field = 5.14220674763e11 V/m and
+    -- 1 D = 0.3934302695 e a0 (CODATA 2018 e a0 = 8.4783536255e-30 C m; hand conversion)
+    local ma = ls.recipe("rotor_stark", { B = Bcm, B_unit = "cm^-1", mu = 0.3934302695, mu_unit = "ea0",
+      E = 1e5 / 5.14220674763e11, E_unit = "au_field", energy_unit = "GHz" })
+    assert.is_true(near(ma.muE, muE_GHz, 1e-9 * muE_GHz))
+    assert.is_true(near(ma.B, 10, 1e-13))
+    -- the old arbitrary-unit form is the default and unchanged
+    local old = ls.recipe("rotor_stark", { B = 2, mu = 3, E = 0.5 })
+    assert.is_nil(old.units)
+    assert.are.equal(1.5, old.muE)
+    -- mixing, unknown names, energy_unit without laboratory units
+    assert.error_matches(function() ls.recipe("rotor_stark", { B_unit = "GHz", mu_unit = "D" }) end,
+      "parameters 'B_unit', 'mu_unit', 'E_unit' must be all \"arb\" or all laboratory units", 1, true)
+    assert.error_matches(function() ls.recipe("rotor_stark", { B_unit = "GHz", mu_unit = "Debye", E_unit = "V/m" }) end,
+      "parameter 'mu_unit' must be one of arb, D, debye, ea0, au_dipole, C*m (got Debye)", 1, true)
+    assert.error_matches(function() ls.recipe("rotor_stark", { B_unit = "GHz", mu_unit = "D", E_unit = "kV/mm" }) end,
+      "parameter 'E_unit' must be one of arb, V/m, V/cm, kV/cm, au_field (got kV/mm)", 1, true)
+    assert.error_matches(function() ls.recipe("rotor_stark", { B_unit = "Ghz", mu_unit = "D", E_unit = "V/m" }) end,
+      "parameter 'B_unit' must be one of arb, GHz, MHz", 1, true)
+    assert.error_matches(function() ls.recipe("rotor_stark", { energy_unit = "GHz" }) end,
+      "parameter 'energy_unit' = GHz needs laboratory units for B, mu and E", 1, true)
+    -- the program's report runs and names the units
+    local bin = os.getenv("LVS_BIN") or "build/levelshift"
+    local f = io.popen(bin .. " rotor_stark B=10 B_unit=GHz mu=1 mu_unit=D E=1 E_unit=kV/cm Jmax=6 2>&1; echo \"rc=$?\"")
+    local out = f:read("a")
+    f:close()
+    assert.truthy(out:find("energies in GHz", 1, true), out)
+    assert.truthy(out:find("mu_unit          = D", 1, true), out)
+    assert.truthy(out:find("rc=0", 1, true), out)
+    -- first level: E0 = 0, E2 = -(mu E)^2/(6B) in GHz, printed with 7 digits
+    assert.truthy(out:find(string.format("%.7g", -muE_GHz ^ 2 / 60), 1, true), out)
+  end)
+
   it("rejects bad input with clear messages", function()
     assert.error_matches(function() ls.rotor(-1) end, "bad argument #1 to '.-rotor' %(Jmax must be at least 0%)")
     assert.error_matches(function() ls.rotor(1.5) end, "Jmax must be an integer")

@@ -94,6 +94,31 @@ describe("ls.units.convert", function()
     assert.are.equal(1e-4, u.convert(1, "gauss", "tesla"))
   end)
 
+  it("converts dipole moments (debye by definition, e a0 from CODATA 2018)", function()
+    -- 1 D = 1e-18 statC cm = 1e-21/c C m exactly (definition of the debye, c exact in SI 2019)
+    rel(1e-21 / 299792458, u.convert(1, "D", "C*m"), 1e-15)
+    rel(3.33564095198152e-30, u.convert(1, "debye", "C*m"), 1e-14)
+    -- atomic unit of electric dipole moment e a0 = 8.4783536255e-30 C m
+    -- source: CODATA 2018 (Tiesinga et al., Rev. Mod. Phys. 93, 025010 (2021))
+    rel(8.4783536255e-30, u.convert(1, "ea0", "C*m"), 1e-15)
+    rel(8.4783536255e-30, u.convert(1, "au_dipole", "C*m"), 1e-15)
+    -- and e a0 from the table's e and a0 agrees within the table's uncertainty (1.5e-10)
+    rel(1.602176634e-19 * 5.29177210903e-11, u.convert(1, "ea0", "C*m"), 3e-10)
+    -- 1 D in e a0: (1e-21/c) / 8.4783536255e-30 = 0.393430269522 (hand division)
+    rel(0.393430269522, u.convert(1, "D", "ea0"), 1e-11)
+    rel(1 / 0.393430269522, u.convert(1, "ea0", "D"), 1e-11)
+    assert.are.equal("dipole", u.kind("D"))
+    -- dipole times field is an energy: 1 D * 1 kV/cm / h = 1e-16/(c h) Hz = 0.50341165675 GHz
+    -- (hand conversion from the exact c and h; 0.5034 GHz from memory)
+    rel(0.50341165675427, u.convert(u.convert(1, "D", "C*m") * u.convert(1, "kV/cm", "V/m"), "J", "GHz"), 1e-13)
+    assert.error_matches(function() u.convert(1, "Debye", "C*m") end,
+      "unknown unit 'Debye'; accepted: energy:", 1, true)
+    assert.error_matches(function() u.convert(1, "furlong", "D") end,
+      "dipole: D debye ea0 au_dipole C*m", 1, true)
+    assert.error_matches(function() u.convert(1, "D", "V/m") end,
+      "cannot convert dipole 'D' to electric field 'V/m'", 1, true)
+  end)
+
   it("round-trips and is linear", function()
     local names = u.units().energy
     for i = 1, #names do
