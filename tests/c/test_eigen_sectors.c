@@ -4,16 +4,7 @@
 #include <stdio.h>
 #include "levelshift.h"
 
-static int failures = 0;
-#define CHECK(cond, ...)                                   \
-  do {                                                     \
-    if (!(cond)) {                                         \
-      failures++;                                          \
-      fprintf(stderr, "FAIL %s:%d: ", __FILE__, __LINE__); \
-      fprintf(stderr, __VA_ARGS__);                        \
-      fprintf(stderr, "\n");                               \
-    }                                                      \
-  } while (0)
+#include "check.h"
 
 int main(void) {
   lvs_ctx *ctx = lvs_ctx_new(NULL, NULL);

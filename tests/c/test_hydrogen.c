@@ -7,16 +7,7 @@
 #include <string.h>
 #include "levelshift.h"
 
-static int failures = 0;
-#define CHECK(cond, ...)                                   \
-  do {                                                     \
-    if (!(cond)) {                                         \
-      failures++;                                          \
-      fprintf(stderr, "FAIL %s:%d: ", __FILE__, __LINE__); \
-      fprintf(stderr, __VA_ARGS__);                        \
-      fprintf(stderr, "\n");                               \
-    }                                                      \
-  } while (0)
+#include "check.h"
 
 static double at(const lvs_matrix *m, size_t i, size_t j) {
   double re, im;

@@ -6,16 +6,7 @@
 #include <string.h>
 #include "levelshift.h"
 
-static int failures = 0;
-#define CHECK(cond, ...)                                   \
-  do {                                                     \
-    if (!(cond)) {                                         \
-      failures++;                                          \
-      fprintf(stderr, "FAIL %s:%d: ", __FILE__, __LINE__); \
-      fprintf(stderr, __VA_ARGS__);                        \
-      fprintf(stderr, "\n");                               \
-    }                                                      \
-  } while (0)
+#include "check.h"
 
 static double rel(double a, double b) { return fabs(a - b) / fmax(fabs(b), 1e-300); }
 

@@ -5,16 +5,7 @@
 #include <string.h>
 #include "levelshift.h"
 
-static int failures = 0;
-#define CHECK(cond, ...)                                   \
-  do {                                                     \
-    if (!(cond)) {                                         \
-      failures++;                                          \
-      fprintf(stderr, "FAIL %s:%d: ", __FILE__, __LINE__); \
-      fprintf(stderr, __VA_ARGS__);                        \
-      fprintf(stderr, "\n");                               \
-    }                                                      \
-  } while (0)
+#include "check.h"
 
 /* hydrogen 1s polarizability on an n-point grid: -2 E(2) for V = z */
 static double alpha(lvs_ctx *ctx, size_t n) {
