@@ -232,9 +232,9 @@ int main(int argc, char **argv) {
     } else {
       lua_pop(L, 1);
       lua_pushstring(L, !strcmp(argv[1], "--recipes") ? "" : argv[1]);
-      lua_pushcfunction(L, traceback);
-      lua_insert(L, -3);
-      rc = report(L, lua_pcall(L, 1, 0, -3));
+      /* a bad recipe name or parameter is the user's input, not a script
+       * bug: the message alone (it names the recipe and the parameter) */
+      rc = report(L, lua_pcall(L, 1, 0, 0));
     }
   } else {
     rc = sweep_run_options(L, &argc, argv);

@@ -197,6 +197,7 @@ describe("levelshift RECIPE", function()
     assert.truthy(out:find("rc=1", 1, true))
     out = run("linear_force mass=-2")
     assert.truthy(out:find("levelshift: recipe 'linear_force': parameter 'mass' must be positive (got -2)", 1, true))
+    assert.falsy(out:find("stack traceback", 1, true)) -- the user's input, not a script bug
     assert.truthy(out:find("rc=1", 1, true))
     out = run("linear_force k=1")
     assert.truthy(out:find("unknown parameter 'k' (accepted: g, mass, omega, levels)", 1, true))
