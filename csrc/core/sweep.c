@@ -22,8 +22,24 @@
  * eigenvectors by inverse iteration on the band matrix itself (dgbtrf +
  * dgbtrs, three solves, Gram-Schmidt inside clusters closer than 1e-3 of
  * the 1-norm, as LAPACK's dstein does for tridiagonal ones; Wilkinson, The
- * Algebraic Eigenvalue Problem, 1965, ch. 9). Everything else goes through
- * lvs_eigen (dsyevr / zheevr).
+ * Algebraic Eigenvalue Problem, 1965, ch. 9). With vectors the bisection
+ * is our own (sturm_lowest: all midpoints counted in one pass, to 1e-10 of
+ * the 1-norm, then Rayleigh-Ritz), since dstebz's one-shift-at-a-time
+ * Sturm counts wait on each division (46% of the bench sweep, perf).
+ * Everything else goes through lvs_eigen (dsyevr / zheevr).
+ *
+ * Symmetry sectors. When the band path applies and the union sparsity of
+ * H0 and V falls apart into >= 2 connected components (lvsi_components;
+ * parity for an oscillator with x^2 or x^4), every H(p) is block diagonal
+ * in them for all p: each point runs the band path per sector on the
+ * sector's own band matrix (states in ascending order; x^4's half-bandwidth
+ * 4 becomes 2 in each parity sector, so the band reduction, ~ n^2 kd, costs
+ * a quarter), takes the lowest `count` of the union (ties: lower sector
+ * first; bisection values first, vectors only for the chosen levels, then
+ * ordered again by their Rayleigh-Ritz energies) and embeds the vectors in
+ * the full space with zeros elsewhere. Tracking is unchanged: overlaps
+ * between sectors are exactly zero, so crossings between sectors are
+ * clean. The journal keeps full-length vectors (same format).
  *
  * Tracking (METHODS.md section 5). Between neighbouring points the overlap
  * matrix O_ij = |<u_i(k)|u_j(k+1)>| is formed and the assignment maximizing
@@ -102,6 +118,7 @@
 /* OpenBLAS thread control (weak: absent with another BLAS) */
 extern void openblas_set_num_threads(int) __attribute__((weak));
 extern int openblas_get_num_threads(void) __attribute__((weak));
+extern void blas_thread_shutdown_(void) __attribute__((weak));
 
 struct lvs_sweep {
   lvs_ctx *ctx;
@@ -143,7 +160,18 @@ typedef struct {
   const double *hb0, *vb; /* lower band storage (kd+1) x n of H0 and V (band path) */
   lvs_sweep_family_fn family; /* H(p) from a callback (main thread only), or NULL */
   void *family_ud;
+  /* symmetry sectors (band path only, nsec >= 2, else nsec = 0): sector s
+   * holds the states secidx[secoff[s] .. secoff[s+1]-1], ascending */
+  size_t nsec;
+  const size_t *secoff, *secidx;
+  const struct bandmod *sec;
 } model;
+
+/* a real banded matrix family H0 + p V in lower band storage (kd+1) x n */
+typedef struct bandmod {
+  size_t n, kd;
+  const double *hb0, *vb;
+} bandmod;
 
 static double grid_p(double from, double to, size_t steps, size_t k) {
   if (k == steps) return to;
@@ -236,15 +264,10 @@ static void band_solve(size_t n, size_t kd, const double *g, const size_t *ipiv,
  * Rayleigh-Ritz step on the m vectors gives energies to rounding (error
  * quadratic in the vectors'; Parlett, The Symmetric Eigenvalue Problem,
  * 1980, ch. 4 and 11). Pairs ascending. */
-static int solve_band(const model *md, double p, size_t m, double *w, double *vec, band_scratch *bs, lvs_ctx *tctx) {
-  size_t n = md->n, kd = (size_t)md->kd, ldab = kd + 1, ldg = 3 * kd + 1;
-  double *buf = bs->buf;
-  lapack_int *ibuf = bs->ibuf;
-  double *ab = buf, *d = ab + ldab * n, *e = d + n, *work = e + n, *hb = work + 4 * n,
-         *gb = hb + ldab * n, *wfull = gb + ldg * n;
-  lapack_int *iwork = ibuf, *iblock = iwork + 3 * n, *isplit = iblock + n;
-  size_t *ipiv = bs->piv;
-  const double *b0 = md->hb0, *b1 = md->vb;
+/* H(p) in band storage into hb; returns its 1-norm (1 when zero) */
+static double band_form(const bandmod *bm, double p, double *hb) {
+  size_t n = bm->n, kd = bm->kd, ldab = kd + 1;
+  const double *b0 = bm->hb0, *b1 = bm->vb;
   double onenrm = 0;
   for (size_t q = 0; q < ldab * n; q++) hb[q] = b0[q] + p * b1[q];
   for (size_t j = 0; j < n; j++) {
@@ -253,22 +276,107 @@ static int solve_band(const model *md, double p, size_t m, double *w, double *ve
     for (size_t r = 1; r <= kd && r <= j; r++) cs += fabs(hb[(j - r) * ldab + r]);
     if (cs > onenrm) onenrm = cs;
   }
-  if (onenrm == 0) onenrm = 1;
+  return onenrm == 0 ? 1 : onenrm;
+}
+
+/* lowest m eigenvalues of the symmetric tridiagonal (d, e) to within abstol
+ * by Sturm-count bisection (Kahan's counts with LAPACK's pivmin guard, as in
+ * dstebz; Wilkinson, The Algebraic Eigenvalue Problem, 1965, ch. 5), all
+ * unfinished midpoints counted together in one pass over the matrix (the
+ * divisions of different shifts are independent, so they overlap) and every
+ * count used to narrow every interval. scr: 6n doubles, idx: n. */
+static void sturm_lowest(size_t n, const double *d, const double *e, size_t m, double abstol, double *w,
+                         double *scr, size_t *idx) {
+  const double eps = 2.220446049250313e-16;
+  double *e2 = scr, *a = e2 + n, *b = a + n, *x = b + n, *q = x + n, *c = q + n;
+  double lo = d[0], hi = d[0], emax = 0;
+  for (size_t i = 0; i < n; i++) {
+    double r = (i ? fabs(e[i - 1]) : 0) + (i + 1 < n ? fabs(e[i]) : 0);
+    if (d[i] - r < lo) lo = d[i] - r;
+    if (d[i] + r > hi) hi = d[i] + r;
+    if (i + 1 < n) {
+      e2[i] = e[i] * e[i];
+      if (e2[i] > emax) emax = e2[i];
+    }
+  }
+  double pivmin = 2.2250738585072014e-308 * (emax > 1 ? emax : 1);
+  double t = fabs(lo) > fabs(hi) ? fabs(lo) : fabs(hi);
+  lo -= 2 * eps * t * (double)n + 2 * pivmin;
+  hi += 2 * eps * t * (double)n + 2 * pivmin;
+  for (size_t j = 0; j < m; j++) { a[j] = lo; b[j] = hi; }
+  for (int round = 0; round < 256; round++) {
+    size_t k = 0;
+    for (size_t j = 0; j < m; j++) {
+      double big = fabs(a[j]) > fabs(b[j]) ? fabs(a[j]) : fabs(b[j]);
+      double tol = abstol > 2 * eps * big ? abstol : 2 * eps * big;
+      if (b[j] - a[j] > tol) { idx[k] = j; x[k] = 0.5 * (a[j] + b[j]); k++; }
+    }
+    if (!k) break;
+    for (size_t u = 0; u < k; u++) {
+      double qq = d[0] - x[u];
+      if (fabs(qq) < pivmin) qq = -pivmin;
+      q[u] = qq;
+      c[u] = qq < 0 ? 1.0 : 0.0;
+    }
+    for (size_t i = 1; i < n; i++) {
+      double di = d[i], ei = e2[i - 1];
+      for (size_t u = 0; u < k; u++) {
+        double qq = di - x[u] - ei / q[u];
+        qq = fabs(qq) < pivmin ? -pivmin : qq;
+        q[u] = qq;
+        c[u] += qq < 0 ? 1.0 : 0.0;
+      }
+    }
+    for (size_t u = 0; u < k; u++)
+      for (size_t j = 0; j < m; j++) {
+        if (c[u] > (double)j) { if (x[u] < b[j]) b[j] = x[u]; }
+        else if (x[u] > a[j]) a[j] = x[u];
+      }
+  }
+  for (size_t j = 0; j < m; j++) w[j] = 0.5 * (a[j] + b[j]);
+}
+
+/* lowest m eigenvalues, ascending, to full accuracy (coarse = 0) or to 1e-10
+ * of the 1-norm (coarse = 1: band_vectors' Rayleigh-Ritz step follows) */
+static int band_values(const bandmod *bm, double p, size_t m, int coarse, double *w, band_scratch *bs,
+                       lvs_ctx *tctx) {
+  size_t n = bm->n, kd = bm->kd, ldab = kd + 1, ldg = 3 * kd + 1;
+  double *buf = bs->buf;
+  lapack_int *ibuf = bs->ibuf;
+  double *ab = buf, *d = ab + ldab * n, *e = d + n, *work = e + n, *hb = work + 4 * n,
+         *gb = hb + ldab * n, *wfull = gb + ldg * n;
+  lapack_int *iwork = ibuf, *iblock = iwork + 3 * n, *isplit = iblock + n;
+  double onenrm = band_form(bm, p, hb);
   memcpy(ab, hb, ldab * n * sizeof(double));
   double qdummy = 0;
   lapack_int info = LAPACKE_dsbtrd_work(LAPACK_COL_MAJOR, 'N', 'L', (lapack_int)n, (lapack_int)kd, ab,
                                         (lapack_int)ldab, d, e, &qdummy, 1, work);
+  if (!info && coarse) {
+    sturm_lowest(n, d, e, m, 1e-10 * onenrm, w, gb, bs->piv); /* gb, wfull and the rest: >= 6n */
+    return LVS_OK;
+  }
   lapack_int mfound = 0, nsplit = 0;
   /* with vectors the bisection may stop early: the Rayleigh-Ritz step below
    * makes the energies exact to rounding */
-  double abstol = vec ? 1e-10 * onenrm : 0.0;
+  double abstol = coarse ? 1e-10 * onenrm : 0.0;
   if (!info)
     info = LAPACKE_dstebz_work('I', 'E', (lapack_int)n, 0, 0, 1, (lapack_int)m, abstol, d, e, &mfound, &nsplit,
                                wfull, iblock, isplit, work, iwork);
   if (info || (size_t)mfound != m)
     return lvsi_fail(tctx, LVS_ELAPACK, "band eigensolver failed (info %d)", (int)info);
   memcpy(w, wfull, m * sizeof(double));
-  if (!vec) return LVS_OK;
+  return LVS_OK;
+}
+
+/* eigenvectors (n x m) of the m levels whose coarse energies band_values
+ * left in w; w gets the Rayleigh-Ritz energies */
+static int band_vectors(const bandmod *bm, double p, size_t m, double *w, double *vec, band_scratch *bs,
+                        lvs_ctx *tctx) {
+  size_t n = bm->n, kd = bm->kd, ldab = kd + 1, ldg = 3 * kd + 1;
+  double *hb = bs->buf + ldab * n + 6 * n, *gb = hb + ldab * n;
+  size_t *ipiv = bs->piv;
+  double onenrm = band_form(bm, p, hb), abstol = 1e-10 * onenrm;
+  lapack_int info;
   double eps = 2.220446049250313e-16, tiny = eps * onenrm, clus = 1e3 * abstol;
   for (size_t j = 0; j < m; j++) {
     double shift = w[j];
@@ -360,6 +468,80 @@ static int solve_band(const model *md, double p, size_t m, double *w, double *ve
   return LVS_OK;
 }
 
+static int solve_band(const bandmod *bm, double p, size_t m, double *w, double *vec, band_scratch *bs,
+                      lvs_ctx *tctx) {
+  int st = band_values(bm, p, m, vec != NULL, w, bs, tctx);
+  if (!st && vec) st = band_vectors(bm, p, m, w, vec, bs, tctx);
+  return st;
+}
+
+/* index of the sector whose next energy is lowest (ties: the lower sector) */
+static size_t sector_next(const model *md, const double *ws, const size_t *wo, const size_t *lim, const size_t *at) {
+  size_t best = md->nsec;
+  for (size_t s = 0; s < md->nsec; s++) {
+    if (at[s] >= lim[s]) continue;
+    if (best == md->nsec || ws[wo[s] + at[s]] < ws[wo[best] + at[best]]) best = s;
+  }
+  return best;
+}
+
+/* sector path: the band path per symmetry sector, the lowest m of all
+ * sectors merged, vectors embedded in the full space (zeros elsewhere) */
+static int solve_sectors(const model *md, double p, size_t m, double *w, double *vec, band_scratch *bs,
+                         lvs_ctx *tctx) {
+  size_t n = md->n, ns = md->nsec;
+  double *ws = lvsi_malloc(tctx, n * sizeof(double));
+  size_t *ix = lvsi_malloc(tctx, 4 * ns * sizeof(size_t));
+  double *rv = vec ? lvsi_malloc(tctx, n * m * sizeof(double)) : NULL;
+  int st = LVS_OK;
+  if (!ws || !ix || (vec && !rv)) {
+    st = lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
+    goto out;
+  }
+  size_t *wo = ix, *lim = ix + ns, *at = ix + 2 * ns, *vo = ix + 3 * ns;
+  size_t off = 0;
+  for (size_t s = 0; s < ns && !st; s++) {
+    size_t nsz = md->sec[s].n;
+    wo[s] = off;
+    lim[s] = m < nsz ? m : nsz;
+    at[s] = 0;
+    st = band_values(&md->sec[s], p, lim[s], vec != NULL, ws + off, bs, tctx);
+    off += lim[s];
+  }
+  if (st) goto out;
+  /* the lowest m overall: how many come from each sector */
+  for (size_t j = 0; j < m; j++) {
+    size_t s = sector_next(md, ws, wo, lim, at);
+    if (!vec) w[j] = ws[wo[s] + at[s]];
+    at[s]++;
+  }
+  if (!vec) goto out;
+  off = 0;
+  for (size_t s = 0; s < ns && !st; s++) {
+    lim[s] = at[s];
+    at[s] = 0;
+    vo[s] = off;
+    if (lim[s]) st = band_vectors(&md->sec[s], p, lim[s], ws + wo[s], rv + off, bs, tctx);
+    off += lim[s] * md->sec[s].n;
+  }
+  if (st) goto out;
+  /* merge again on the Rayleigh-Ritz energies, embed the vectors */
+  memset(vec, 0, n * m * sizeof(double));
+  for (size_t j = 0; j < m; j++) {
+    size_t s = sector_next(md, ws, wo, lim, at), nsz = md->sec[s].n;
+    const size_t *idx = md->secidx + md->secoff[s];
+    const double *x = rv + vo[s] + at[s] * nsz;
+    w[j] = ws[wo[s] + at[s]];
+    for (size_t i = 0; i < nsz; i++) vec[j * n + idx[i]] = x[i];
+    at[s]++;
+  }
+out:
+  lvsi_free(tctx, ws);
+  lvsi_free(tctx, ix);
+  lvsi_free(tctx, rv);
+  return st;
+}
+
 /* lowest m energies of H(p) (and vectors as complex n x m when vec != NULL) */
 static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, double *w,
                           double complex *vec, band_scratch *bs, const double *hfull) {
@@ -373,7 +555,11 @@ static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, do
       rv = lvsi_malloc(tctx, n * m * sizeof(double));
       if (!rv) st = lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
     }
-    if (!st) st = solve_band(md, p, m, w, rv, bs, tctx);
+    if (!st && md->nsec >= 2) st = solve_sectors(md, p, m, w, rv, bs, tctx);
+    else if (!st) {
+      bandmod bm = {n, (size_t)md->kd, md->hb0, md->vb};
+      st = solve_band(&bm, p, m, w, rv, bs, tctx);
+    }
     if (!st && vec)
       for (size_t q = 0; q < n * m; q++) vec[q] = rv[q];
     lvsi_free(tctx, rv);
@@ -1077,6 +1263,9 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   lvs_sweep *s = NULL;
   lvs_matrix *dh = NULL, *dv = NULL;
   double *h0a = NULL, *va = NULL, *wblk = NULL, *work_d = NULL, *bandst = NULL, *hbuf = NULL;
+  size_t *seccomp = NULL, *secoff = NULL, *secidx = NULL, nsec = 0;
+  bandmod *secs = NULL;
+  double *secband = NULL;
   double complex *vblk = NULL, *prev = NULL, *tmp = NULL;
   size_t *pi = NULL, *perm = NULL, *iw = NULL, *todo = NULL;
   char *cw = NULL;
@@ -1112,11 +1301,17 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
         lvs_matrix_get(dv, i, j, &re, &im);
         if (cplx) { va[2 * at] = re; va[2 * at + 1] = im; } else va[at] = re;
       }
+    /* symmetry sectors: components of the union sparsity of H0 and V */
+    if (!cplx && n >= 16 && !spec->family) {
+      seccomp = lvsi_malloc(ctx, n * sizeof(size_t));
+      if (!seccomp) goto nomem;
+      if ((st = lvsi_components(dh, dv, seccomp, &nsec))) goto fail;
+    }
     lvs_matrix_free(dh);
     lvs_matrix_free(dv);
     dh = dv = NULL;
   }
-  model md = {n, count, cplx, h0a, va, -1, NULL, NULL, spec->family, spec->family_ud};
+  model md = {n, count, cplx, h0a, va, -1, NULL, NULL, spec->family, spec->family_ud, 0, NULL, NULL, NULL};
   if (!cplx && n >= 16 && !spec->family) {
     long k1 = bandwidth(h0a, n), k2 = bandwidth(va, n);
     long kd = k1 > k2 ? k1 : k2;
@@ -1133,6 +1328,54 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
       md.hb0 = bandst;
       md.vb = bandst + ld * n;
     }
+  }
+  if (md.kd >= 0 && nsec >= 2) {
+    /* per sector: its states ascending, its half-bandwidth in that order
+     * (never above the full one), its band storage */
+    secoff = lvsi_calloc(ctx, nsec + 1 + 2 * n, sizeof(size_t));
+    secs = lvsi_calloc(ctx, nsec, sizeof *secs);
+    if (!secoff || !secs) goto nomem;
+    secidx = secoff + nsec + 1;
+    size_t *pos = secidx + n;
+    for (size_t i = 0; i < n; i++) secoff[seccomp[i] + 1]++;
+    for (size_t c = 0; c < nsec; c++) secoff[c + 1] += secoff[c];
+    for (size_t c = 0; c < nsec; c++) secs[c].n = 0;
+    for (size_t i = 0; i < n; i++) {
+      size_t c = seccomp[i];
+      pos[i] = secs[c].n++;
+      secidx[secoff[c] + pos[i]] = i;
+    }
+    for (size_t j = 0; j < n; j++)
+      for (size_t i = j + 1; i < n && i <= j + (size_t)md.kd; i++)
+        if (h0a[j * n + i] != 0 || va[j * n + i] != 0) {
+          size_t c = seccomp[i], d = pos[i] - pos[j];
+          if (d > secs[c].kd) secs[c].kd = d;
+        }
+    size_t tot = 0;
+    for (size_t c = 0; c < nsec; c++) {
+      if (secs[c].kd < 1) secs[c].kd = 1;
+      tot += 2 * (secs[c].kd + 1) * secs[c].n;
+    }
+    secband = lvsi_calloc(ctx, tot, sizeof(double));
+    if (!secband) goto nomem;
+    double *at = secband;
+    for (size_t c = 0; c < nsec; c++) {
+      size_t ld = secs[c].kd + 1, nc = secs[c].n;
+      const size_t *idx = secidx + secoff[c];
+      for (size_t b = 0; b < nc; b++)
+        for (size_t r = 0; r < ld && b + r < nc; r++) {
+          size_t gi = idx[b + r], gj = idx[b];
+          at[b * ld + r] = h0a[gj * n + gi];
+          at[ld * nc + b * ld + r] = va[gj * n + gi];
+        }
+      secs[c].hb0 = at;
+      secs[c].vb = at + ld * nc;
+      at += 2 * ld * nc;
+    }
+    md.nsec = nsec;
+    md.secoff = secoff;
+    md.secidx = secidx;
+    md.sec = secs;
   }
 
   s = lvsi_calloc(ctx, 1, sizeof *s);
@@ -1245,6 +1488,12 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
   if (openblas_get_num_threads && openblas_set_num_threads) {
     blas_threads = openblas_get_num_threads();
     openblas_set_num_threads(1);
+    /* OpenBLAS's idle pool threads spin (sched_yield) for about 2^28 cycles
+     * after start-up or their last job, taking a core from the workers (25%
+     * of a 2-core sweep, measured with perf); stopping the pool lets the
+     * workers have the cores. OpenBLAS starts it again on its next threaded
+     * call (its fork handler uses the same entry). */
+    if (nthreads > 1 && blas_threads > 1 && blas_thread_shutdown_) blas_thread_shutdown_();
   }
   for (size_t k0 = 0; k0 < npts; k0 += blk) {
     size_t k1 = k0 + blk < npts ? k0 + blk : npts;
@@ -1408,6 +1657,10 @@ done:
   lvsi_free(ctx, h0a);
   lvsi_free(ctx, va);
   lvsi_free(ctx, bandst);
+  lvsi_free(ctx, seccomp);
+  lvsi_free(ctx, secoff);
+  lvsi_free(ctx, secs);
+  lvsi_free(ctx, secband);
   lvsi_free(ctx, hbuf);
   lvsi_free(ctx, wblk);
   lvsi_free(ctx, vblk);

@@ -250,6 +250,58 @@ describe("sweep", function()
     assert.is_true((kinds.crossing or 0) >= 1)
   end)
 
+  it("splits a parity-symmetric model into sectors and agrees with the dense path", function()
+    -- N + 1/2 + lambda x^4 couples n only to n, n +- 2, n +- 4: two parity sectors, so the
+    -- sector path runs (real, banded, n >= 16). Ground level at lambda = 0.1: 0.559146327183519
+    -- (Hioe and Montroll, J. Math. Phys. 16, 1945 (1975), table; from memory); every level equal
+    -- to the dense solver's (the H = function form never takes the band path; common practice)
+    local o = ls.oscillator(80)
+    local H0, V = o.number + 0.5, o.x ^ 4
+    local sw = ls.sweep{H0 = H0, V = V, from = 0, to = 0.1, steps = 10, count = 8}
+    local dense = ls.sweep{H = function(p) return H0 + p * V end, from = 0, to = 0.1, steps = 10, count = 8}
+    assert.near(0.559146327183519, sw:level(1)[11], 1e-12)
+    for a = 1, 8 do
+      local x, y = sw:level(a), dense:level(a)
+      for k = 1, 11 do assert.near(y[k], x[k], 1e-12 * (1 + math.abs(y[k]))) end
+    end
+    local one = ls.sweep{H0 = H0, V = V, from = 0, to = 0.1, steps = 10, count = 8, threads = 1}
+    for a = 1, 8 do
+      local x, y = sw:level(a), one:level(a)
+      for k = 1, 11 do assert.are.equal(y[k], x[k]) end
+    end
+  end)
+
+  it("follows a true crossing between parity sectors straight through", function()
+    -- H(p) = N + 1/2 + 0.1 x^2 + p P with P = (-1)^N the parity: P commutes with H0, so every
+    -- level is E_j +- p exactly, a straight line of slope +1 (even) or -1 (odd), and even and
+    -- odd levels cross without coupling; the lowest even level is omega/2 + p with
+    -- omega = sqrt(1 + 2 * 0.1) (harmonic oscillator with a stiffer spring; common practice)
+    local n = 40
+    local o = ls.oscillator(n)
+    local rows = {}
+    for i = 1, n do
+      rows[i] = {}
+      for j = 1, n do rows[i][j] = (i == j) and ((i % 2 == 1) and 1 or -1) or 0 end
+    end
+    local sw = ls.sweep{H0 = o.number + 0.5 + 0.1 * o.x ^ 2, V = ls.matrix(rows), from = 0, to = 1.5, steps = 30,
+                        count = n}
+    local p = sw.p
+    local even0
+    for a = 1, n do
+      local e = sw:level(a)
+      local slope = (e[2] - e[1]) / (p[2] - p[1])
+      assert.near(1, math.abs(slope), 1e-9)
+      for k = 1, #p do assert.near(e[1] + slope * (p[k] - p[1]), e[k], 1e-10) end
+      if a == 1 then even0 = e end
+    end
+    local omega = math.sqrt(1.2)
+    for k = 1, #p do assert.near(omega / 2 + p[k], even0[k], 1e-10) end
+    local kinds = {}
+    for _, c in ipairs(sw:crossings()) do kinds[c.kind] = (kinds[c.kind] or 0) + 1 end
+    assert.is_true((kinds.crossing or 0) >= 1)
+    assert.are.equal(0, kinds.avoided or 0)
+  end)
+
   it("sweeps a family given as a Lua function p -> op", function()
     -- spin-1 with D Sz^2 in a tilted field: the function form must give the numbers of the
     -- H0 + p V form of the same model (common practice); the avoided crossing near B = D
