@@ -4,7 +4,7 @@
  *   h = ls.effective(H0, V, {window = {lo, hi}, order = K})
  *   h = ls.effective(H0, V, {basis = B, labels = {{n = 0}, {n = 1}}, order = K})
  *   h:term(k) -> op (d x d);  h:at(lambda [, order]) -> op (rows, columns as h:labels())
- *   h:levels() -> {1-based levels};  h:labels() -> {strings};  h:dim();
+ *   h:group() -> {1-based levels of the group};  h:labels() -> {strings};  h:dim();
  *   h:order();  h:warnings() -> {strings}
  *   tostring(h): every term as a matrix labelled by the group's unperturbed
  *   states (B:describe of the basis state when H0 is diagonal in the basis
@@ -355,7 +355,7 @@ void lvsL_open_effective(lua_State *L, int ctxidx) {
   static const luaL_Reg mt[] = {{"__gc", e_gc}, {"__tostring", e_tostring}, {NULL, NULL}};
   lvsL_setfuncs(L, mt, ctxidx);
   lua_newtable(L);
-  static const luaL_Reg m[] = {{"term", e_term},   {"at", e_at},         {"levels", e_levels}, {"dim", e_dim},
+  static const luaL_Reg m[] = {{"term", e_term},   {"at", e_at},         {"group", e_levels}, {"dim", e_dim},
                                {"order", e_order}, {"warnings", e_warnings}, {"labels", e_labels}, {NULL, NULL}};
   lvsL_setfuncs(L, m, ctxidx);
   lua_setfield(L, -2, "__index");

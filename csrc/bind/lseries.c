@@ -314,7 +314,7 @@ void lvsL_open_series(lua_State *L, int ctxidx) {
   static const luaL_Reg meta[] = {{"__gc", s_gc}, {"__close", s_gc}, {NULL, NULL}};
   static const luaL_Reg methods[] = {{"energy", s_energy}, {"at", s_at},         {"state", s_state},
                                      {"info", s_info},     {"groups", s_groups}, {"dim", s_dim},
-                                     {"order", s_order},   {"vnorm", s_vnorm},   {"levels", s_levels},
+                                     {"order", s_order},   {"vnorm", s_vnorm},   {"chosen", s_levels},
                                      {"operators", s_operators}, {"label", s_label}, {NULL, NULL}};
   luaL_newmetatable(L, LVS_SERIES_MT);
   lvsL_setfuncs(L, meta, ctxidx);

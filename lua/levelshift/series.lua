@@ -145,7 +145,7 @@ return function(ls, core)
     local E = ls.eigen(H0 + lambda * V, { vectors = false })
     local out = { lambda = lambda, levels = {}, max_error = 0 }
     local K, vn = s:order(), s:vnorm()
-    for _, lev in ipairs(s:levels()) do
+    for _, lev in ipairs(s:chosen()) do
       local val = s:at(lev, lambda)
       local err = val - E[lev]
       local row = { level = lev, series = val, exact = E[lev], error = err }
@@ -168,7 +168,7 @@ return function(ls, core)
   --- s:totable() -> {order=, dim=, levels={ {level=, E0=, corrections={E1..EK}, split_order=, group=}... }}
   function methods.totable(s)
     local t = { order = s:order(), dim = s:dim(), levels = {} }
-    for _, lev in ipairs(s:levels()) do
+    for _, lev in ipairs(s:chosen()) do
       local info = s:info(lev)
       local c = {}
       for k = 1, s:order() do c[k] = s:energy(lev, k) end
@@ -183,7 +183,7 @@ return function(ls, core)
     local lines = { string.format("perturbation series: %d states, order %d", s:dim(), K) }
     local show = math.min(K, 6)
     local labels, lw = {}, 0
-    for _, lev in ipairs(s:levels()) do
+    for _, lev in ipairs(s:chosen()) do
       labels[lev] = s:label(lev)
       if labels[lev] then lw = math.max(lw, math.min(#labels[lev], 24)) end
     end
@@ -197,7 +197,7 @@ return function(ls, core)
     lines[#lines + 1] = table.concat(head, " ")
     local warn = {}
     local vn = s:vnorm()
-    for _, lev in ipairs(s:levels()) do
+    for _, lev in ipairs(s:chosen()) do
       local info = s:info(lev)
       local split = info.split_order == 0 and "-" or (info.split_order < 0 and "none" or tostring(info.split_order))
       local row = { string.format("%6d%s %5d %6s %14.8g", lev, lab(lev), info.group, split, info.E0) }

@@ -54,7 +54,7 @@ describe("effective", function()
     local t, U = 1.0, 20.0
     local J = 4 * t * t / U
     local h = ls.effective(hubbard(t, U), select(2, hubbard(t, U)), { levels = { 1, 2 }, order = 2 })
-    assert.are.same({ 1, 2 }, h:levels())
+    assert.are.same({ 1, 2 }, h:group())
     assert.are.equal(2, h:dim())
     local H2 = h:term(2)
     assert.near(-J / 2, re(H2, 1, 1), 1e-14); assert.near(J / 2, re(H2, 1, 2), 1e-14)
@@ -96,7 +96,7 @@ describe("effective", function()
     assert.near(0.5 + g * g / D, re(H, 2, 2), 1e-14)
     assert.near(0, re(H, 1, 2), 1e-15)
     local h1 = ls.effective(H0, V, { window = { 0.9, 2.1 }, order = 2 })
-    assert.are.same({ 3, 4 }, h1:levels())
+    assert.are.same({ 3, 4 }, h1:group())
     local E = ls.eigen(h1:at(1))
     assert.near(wq + 3 * g * g / D, E[2] - E[1], 1e-12)
   end)
@@ -112,7 +112,7 @@ describe("effective", function()
     assert.near(0, re(h:term(7), 1, 1), 1e-18)
     -- the upper level, selected by a window
     local hu = ls.effective(ls.matrix{ { 0, 0 }, { 0, D } }, ls.matrix{ { 0, g }, { g, 0 } }, { window = { 0.5, 2 }, order = 6 })
-    assert.are.same({ 2 }, hu:levels())
+    assert.are.same({ 2 }, hu:group())
     assert.near(D + g ^ 2 / D - g ^ 4 / D ^ 3 + 2 * g ^ 6 / D ^ 5, re(hu:at(1), 1, 1), 1e-15)
   end)
 
@@ -214,7 +214,7 @@ describe("effective", function()
     local H0 = wq * q.Sz + wr * r.number
     local V = g * (q.Sp * r.lower + q.Sm * r.raise)
     local h = ls.effective(H0, V, { basis = P, labels = { { m1 = 0.5, n2 = 0 }, { m1 = -0.5, n2 = 0 } }, order = 2 })
-    assert.are.same({ 1, 2 }, h:levels()) -- |dn,0> (-0.5) and |up,0> (0.5), in ascending energy
+    assert.are.same({ 1, 2 }, h:group()) -- |dn,0> (-0.5) and |up,0> (0.5), in ascending energy
     assert.are.same({ "m1=-1/2 n2=0", "m1=1/2 n2=0" }, h:labels())
     assert.near(0.5 + g * g / (wq - wr), re(h:at(1), 2, 2), 1e-14)
     local text = tostring(h)
@@ -230,7 +230,7 @@ describe("effective", function()
     local hr = ls.effective(H0r, ls.matrix { { 0, 0.2 }, { 0.2, 0 } }, { basis = B, levels = { 1 } })
     assert.are.same({ "level 1" }, hr:labels())
     local hn = ls.effective(ls.matrix { { 0, 0 }, { 0, 1 } }, ls.matrix { { 0, 0.2 }, { 0.2, 0 } }, { basis = B, labels = { "e" } })
-    assert.are.same({ 2 }, hn:levels())
+    assert.are.same({ 2 }, hn:group())
     assert.are.same({ "e" }, hn:labels())
     -- errors of the label choice
     assert.error_matches(function() ls.effective(H0, V, { labels = { { m1 = 0.5, n2 = 0 } } }) end,
