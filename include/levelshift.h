@@ -236,9 +236,15 @@ LVS_API int lvs_sweep_remove_journals(lvs_sweep *s);
 /* parameter name (default "p"), its unit and the energy unit (NULL: keep),
  * used in the headers of written files */
 LVS_API int lvs_sweep_set_labels(lvs_sweep *s, const char *param, const char *param_unit, const char *energy_unit);
-/* CSV (header p,E1,E2,...[,E1_series,...] after a units comment), or JSON
- * when path ends in .json; written to path.tmp, fsync'd, then renamed. */
+/* CSV (header p,E1,E2,...[,E1_series,...] after a units comment), written
+ * with lvs_write_file; a path ending in .json is refused (the Lua layer
+ * writes JSON through a JSON library). */
 LVS_API int lvs_sweep_write(const lvs_sweep *s, const char *path);
+/* the files' model and units line, e.g. "H(p) = H0 + p V; energies in GHz" */
+LVS_API void lvs_sweep_about(const lvs_sweep *s, char *about, size_t size);
+/* Write len bytes to path atomically: to path.tmp, flushed and fsync'd, then
+ * renamed over path; on any failure path is unchanged and no .tmp is left. */
+LVS_API int lvs_write_file(lvs_ctx *ctx, const char *path, const void *data, size_t len);
 /* ---- effective Hamiltonians (effective.c) ---------------------------
  * Canonical Van Vleck / Schrieffer-Wolff H_eff of a group of levels of H0
  * (0-based, ascending H0 energy) under lambda*V to order 1..50, by the Bloch

@@ -1,4 +1,5 @@
-/* lfiles.c -- core._recipe_files(dir): the recipe files in a directory.
+/* lfiles.c -- core._recipe_files(dir): the recipe files in a directory;
+ * core._write_file(path, text): a file written atomically.
  *
  * Lua has no portable way to list a directory, and the recipe loader
  * (lua/levelshift/recipes.lua) must list recipes/ for `levelshift --recipes`
@@ -66,7 +67,18 @@ static int l_recipe_files(lua_State *L) {
   return 1;
 }
 
+/* core._write_file(path, text): text written atomically (lvs_write_file);
+ * used by the Lua writers (JSON of sweeps). Raises on failure. */
+static int l_write_file(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  const char *path = luaL_checkstring(L, 1);
+  size_t len;
+  const char *text = luaL_checklstring(L, 2, &len);
+  lvsL_check(L, ctx, lvs_write_file(ctx, path, text, len), "write");
+  return 0;
+}
+
 void lvsL_open_files(lua_State *L, int ctxidx) {
-  static const luaL_Reg fns[] = {{"_recipe_files", l_recipe_files}, {NULL, NULL}};
+  static const luaL_Reg fns[] = {{"_recipe_files", l_recipe_files}, {"_write_file", l_write_file}, {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);
 }

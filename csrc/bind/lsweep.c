@@ -356,6 +356,14 @@ static int m_write(lua_State *L) {
   return 0;
 }
 
+static int m_about(lua_State *L) {
+  lvs_sweep *s = checksweep(L, 1);
+  char about[600];
+  lvs_sweep_about(s, about, sizeof about);
+  lua_pushstring(L, about);
+  return 1;
+}
+
 static int m_index(lua_State *L) {
   lvs_sweep *s = checksweep(L, 1);
   const char *key = lua_tostring(L, 2);
@@ -413,7 +421,7 @@ static int m_tostring(lua_State *L) {
 void lvsL_open_sweep(lua_State *L, int ctxidx) {
   static const luaL_Reg methods[] = {
       {"level", m_level}, {"series", m_series}, {"crossings", m_crossings}, {"write", m_write},
-      {"_remove_journals", m_remove_journals}, {NULL, NULL}};
+      {"_remove_journals", m_remove_journals}, {"_about", m_about}, {NULL, NULL}};
   static const luaL_Reg meta[] = {
       {"__index", m_index}, {"__gc", m_gc}, {"__close", m_gc}, {"__tostring", m_tostring}, {NULL, NULL}};
   luaL_newmetatable(L, LVS_SWEEP_MT);

@@ -1738,83 +1738,48 @@ int lvs_sweep_write(const lvs_sweep *s, const char *path) {
   lvs_ctx *ctx = s->ctx;
   if (!path || !*path) return lvsi_fail(ctx, LVS_EINVAL, "write needs a file path");
   if (s->partial) return lvsi_fail(ctx, LVS_EINVAL, "a shard has only part of the points: merge the parts first");
-  size_t plen = strlen(path);
-  char *tmpname = lvsi_malloc(ctx, plen + 5);
-  if (!tmpname) return lvsi_fail(ctx, LVS_ENOMEM, "sweep write: out of memory");
-  memcpy(tmpname, path, plen);
-  memcpy(tmpname + plen, ".tmp", 5);
-  FILE *f = fopen(tmpname, "w");
-  if (!f) {
-    int e = errno;
-    int st = lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (opening '%s': %s)", path, tmpname, strerror(e));
-    lvsi_free(ctx, tmpname);
-    return st;
-  }
+  if (ends_with(path, ".json"))
+    return lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s': the core writes CSV; JSON is written by the Lua layer "
+                     "(sw:write) through a JSON library", path);
+  char *buf = NULL;
+  size_t len = 0;
+  FILE *f = open_memstream(&buf, &len);
+  if (!f) return lvsi_fail(ctx, LVS_ENOMEM, "sweep write: out of memory");
   size_t npts = s->npts, count = s->count;
   const char *pn = s->pname ? s->pname : "p";
   char about[600];
-  {
-    int l = snprintf(about, sizeof about, "H(%s) = H0 + %s V", pn, pn);
-    if (s->punit && *s->punit) l += snprintf(about + l, sizeof about - (size_t)l, "; %s in %s", pn, s->punit);
-    if (s->eunit && *s->eunit) l += snprintf(about + l, sizeof about - (size_t)l, "; energies in %s", s->eunit);
-    else l += snprintf(about + l, sizeof about - (size_t)l, "; energies in the model's units");
+  lvs_sweep_about(s, about, sizeof about);
+  fprintf(f, "# %s\n%s", about, pn);
+  for (size_t a = 0; a < count; a++) fprintf(f, ",E%zu", a + 1);
+  if (s->ser)
+    for (size_t a = 0; a < count; a++) fprintf(f, ",E%zu_series", a + 1);
+  fputc('\n', f);
+  for (size_t k = 0; k < npts; k++) {
+    fprintf(f, "%.17g", lvs_sweep_param(s, k));
+    for (size_t a = 0; a < count; a++) fprintf(f, ",%.17g", s->e[a * npts + k]);
     if (s->ser)
-      snprintf(about + l, sizeof about - (size_t)l, "; E<k>_series: Rayleigh-Schroedinger series to order %d",
-               s->series_order);
-  }
-  if (ends_with(path, ".json")) {
-    fprintf(f, "{\n  \"about\": \"%s\",\n  \"param\": \"%s\",\n  \"p\": [", about, pn);
-    for (size_t k = 0; k < npts; k++) fprintf(f, "%s%.17g", k ? ", " : "", lvs_sweep_param(s, k));
-    fprintf(f, "],\n  \"levels\": [");
-    for (size_t a = 0; a < count; a++) {
-      fprintf(f, "%s\n    [", a ? "," : "");
-      for (size_t k = 0; k < npts; k++) fprintf(f, "%s%.17g", k ? ", " : "", s->e[a * npts + k]);
-      fprintf(f, "]");
-    }
-    if (s->ser) {
-      fprintf(f, "\n  ],\n  \"series_order\": %d,\n  \"series\": [", s->series_order);
-      for (size_t a = 0; a < count; a++) {
-        fprintf(f, "%s\n    [", a ? "," : "");
-        for (size_t k = 0; k < npts; k++) fprintf(f, "%s%.17g", k ? ", " : "", s->ser[a * npts + k]);
-        fprintf(f, "]");
-      }
-    }
-    fprintf(f, "\n  ],\n  \"crossings\": [");
-    for (size_t c = 0; c < s->ncross; c++) {
-      const lvs_sweep_crossing *x = &s->cross[c];
-      fprintf(f, "%s\n    {\"at\": %.17g, \"gap\": %.17g, \"levels\": [%zu, %zu], \"kind\": \"%s\"}",
-              c ? "," : "", x->at, x->gap, x->i + 1, x->j + 1, x->avoided ? "avoided" : "crossing");
-    }
-    fprintf(f, "%s]\n}\n", s->ncross ? "\n  " : "");
-  } else {
-    fprintf(f, "# %s\n%s", about, pn);
-    for (size_t a = 0; a < count; a++) fprintf(f, ",E%zu", a + 1);
-    if (s->ser)
-      for (size_t a = 0; a < count; a++) fprintf(f, ",E%zu_series", a + 1);
+      for (size_t a = 0; a < count; a++) fprintf(f, ",%.17g", s->ser[a * npts + k]);
     fputc('\n', f);
-    for (size_t k = 0; k < npts; k++) {
-      fprintf(f, "%.17g", lvs_sweep_param(s, k));
-      for (size_t a = 0; a < count; a++) fprintf(f, ",%.17g", s->e[a * npts + k]);
-      if (s->ser)
-        for (size_t a = 0; a < count; a++) fprintf(f, ",%.17g", s->ser[a * npts + k]);
-      fputc('\n', f);
-    }
   }
-  int bad = ferror(f), werr = bad ? errno : 0; /* errno of the failed write (ENOSPC ...) */
-  if (!bad && (fflush(f) != 0 || fsync(fileno(f)) != 0)) bad = 1, werr = errno;
-  if (fclose(f) != 0 && !bad) bad = 1, werr = errno;
-  if (bad) {
-    remove(tmpname);
-    lvsi_free(ctx, tmpname);
-    return lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (error while writing: %s); the file is unchanged", path,
-                     strerror(werr ? werr : EIO));
-  }
-  if (rename(tmpname, path) != 0) {
-    int e = errno;
-    remove(tmpname);
-    lvsi_free(ctx, tmpname);
-    return lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (rename: %s)", path, strerror(e));
-  }
-  lvsi_free(ctx, tmpname);
-  return LVS_OK;
+  int bad = ferror(f);
+  if (fclose(f) != 0) bad = 1;
+  int st = bad ? lvsi_fail(ctx, LVS_ENOMEM, "sweep write: out of memory") : lvs_write_file(ctx, path, buf, len);
+  free(buf);
+  return st;
+}
+
+/* the model and units line of the written files */
+void lvs_sweep_about(const lvs_sweep *s, char *about, size_t size) {
+  const char *pn = s->pname ? s->pname : "p";
+  if (!about || !size) return;
+  int l = snprintf(about, size, "H(%s) = H0 + %s V", pn, pn);
+  if (l < 0 || (size_t)l >= size) return;
+  if (s->punit && *s->punit) l += snprintf(about + l, size - (size_t)l, "; %s in %s", pn, s->punit);
+  if ((size_t)l >= size) return;
+  if (s->eunit && *s->eunit) l += snprintf(about + l, size - (size_t)l, "; energies in %s", s->eunit);
+  else l += snprintf(about + l, size - (size_t)l, "; energies in the model's units");
+  if ((size_t)l >= size) return;
+  if (s->ser)
+    snprintf(about + l, size - (size_t)l, "; E<k>_series: Rayleigh-Schroedinger series to order %d",
+             s->series_order);
 }

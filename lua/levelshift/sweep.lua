@@ -76,6 +76,47 @@ return function(ls, core)
     return sw
   end
 
+  --- sw:write(path): CSV from the core; a path ending in .json gets JSON,
+  -- encoded by dkjson (Debian package lua-dkjson) with every number written
+  -- as %.17g (dkjson's own tostring keeps 14 digits, which does not give back
+  -- every double), keys in a fixed order (same bytes on every run), and
+  -- written atomically by the core (path.tmp, fsync, rename).
+  local core_write = methods.write
+  local num_mt = { __tojson = function(self)
+    local x = self[1]
+    if x ~= x or x == math.huge or x == -math.huge then return "null" end
+    return string.format("%.17g", x)
+  end }
+  local function nums(t)
+    local out = {}
+    for i, x in ipairs(t) do out[i] = setmetatable({ x }, num_mt) end
+    return out
+  end
+  local KEYS = { "about", "param", "p", "levels", "series_order", "series", "crossings", "at", "gap", "kind" }
+  function methods.write(sw, path)
+    if type(path) ~= "string" or not path:match("%.json$") then return core_write(sw, path) end
+    if sw.partial then error("sweep:write: a shard has only part of the points: merge the parts first", 2) end
+    local ok, dkjson = pcall(require, "dkjson")
+    if not ok then
+      error("sweep:write: JSON needs the Debian package lua-dkjson (apt-get install lua-dkjson)", 2)
+    end
+    local lab = labels[sw] or { param = "p" }
+    local doc = { about = sw:_about(), param = lab.param, p = nums(sw.p), levels = {}, crossings = {} }
+    for a = 1, sw.count do doc.levels[a] = nums(sw:level(a)) end
+    if sw.series_order > 0 then
+      doc.series_order = sw.series_order
+      doc.series = {}
+      for a = 1, sw.count do doc.series[a] = nums(sw:series(a)) end
+    end
+    for i, c in ipairs(sw:crossings()) do
+      doc.crossings[i] = { at = setmetatable({ c.at }, num_mt), gap = setmetatable({ c.gap }, num_mt),
+        levels = { c.levels[1], c.levels[2] }, kind = c.kind }
+    end
+    local text = dkjson.encode(doc, { indent = true, keyorder = KEYS })
+    local wok, err = pcall(core._write_file, path, text .. "\n")
+    if not wok then error("sweep:" .. tostring(err), 2) end
+  end
+
   local function have_gnuplot()
     local ok = os.execute("command -v gnuplot >/dev/null 2>&1")
     return ok == true or ok == 0

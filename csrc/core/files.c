@@ -1,0 +1,43 @@
+/* files.c -- files written atomically: data goes to PATH.tmp, is flushed
+ * and fsync'd, then renamed over PATH, so a reader (or a crash, or a full
+ * disk) sees either the old file or the whole new one, never a part. */
+#include <errno.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+#include "internal.h"
+
+int lvs_write_file(lvs_ctx *ctx, const char *path, const void *data, size_t len) {
+  if (!path || !*path) return lvsi_fail(ctx, LVS_EINVAL, "write needs a file path");
+  if (!data && len) return lvsi_fail(ctx, LVS_EINVAL, "write: no data");
+  size_t plen = strlen(path);
+  char *tmpname = lvsi_malloc(ctx, plen + 5);
+  if (!tmpname) return lvsi_fail(ctx, LVS_ENOMEM, "write: out of memory");
+  memcpy(tmpname, path, plen);
+  memcpy(tmpname + plen, ".tmp", 5);
+  FILE *f = fopen(tmpname, "w");
+  if (!f) {
+    int e = errno;
+    int st = lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (opening '%s': %s)", path, tmpname, strerror(e));
+    lvsi_free(ctx, tmpname);
+    return st;
+  }
+  int bad = len && fwrite(data, 1, len, f) != len, werr = bad ? errno : 0; /* ENOSPC ... */
+  if (!bad && (fflush(f) != 0 || fsync(fileno(f)) != 0)) bad = 1, werr = errno;
+  if (fclose(f) != 0 && !bad) bad = 1, werr = errno;
+  if (bad) {
+    remove(tmpname);
+    lvsi_free(ctx, tmpname);
+    return lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (error while writing: %s); the file is unchanged", path,
+                     strerror(werr ? werr : EIO));
+  }
+  if (rename(tmpname, path) != 0) {
+    int e = errno;
+    remove(tmpname);
+    lvsi_free(ctx, tmpname);
+    return lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (rename: %s)", path, strerror(e));
+  }
+  lvsi_free(ctx, tmpname);
+  return LVS_OK;
+}
