@@ -41,10 +41,14 @@ n = 2: E1 = -3F, 0, 0, +3F and E2 = -(F^2/16) n^4 [17 n^2 - 3 (n1 - n2)^2
 |m| = 1); Bethe & Salpeter, Quantum Mechanics of One- and Two-Electron Atoms
 (1957), sec. 52.
 
-Model fields besides basis, H0, V: z (the operator z, so V = F z), field,
+The field may be given in V/m, V/cm or kV/cm (field_unit); the model works in
+atomic units. Model fields besides basis, H0, V: z (the operator z, so V = F z),
+field (F in atomic units),
 bohr(n) = -1/(2 n^2), units = "hartree".]],
   params = {
-    { name = "field", default = 1e-3, invented = true, unit = "a.u. of field (5.142e11 V/m)", about = "field F along z: V = F z" },
+    { name = "field", default = 1e-3, invented = true, unit = "field_unit", about = "field F along z: V = F z" },
+    { name = "field_unit", default = "au_field", unit = "", about = "unit of field (au_field = E_h/(e a0) = 5.142e11 V/m)",
+      choices = { "au_field", "V/m", "V/cm", "kV/cm" } },
     { name = "lmax", default = 3, unit = "", about = "largest orbital angular momentum l kept",
       integer = true, min = 0, max = 200 },
     { name = "nmax", default = 16, unit = "", about = "radial Laguerre functions per l (k = 0..nmax-1); at least 2 so that n = 2 fits",
@@ -68,8 +72,9 @@ bohr(n) = -1/(2 n^2), units = "hartree".]],
     local m = p.m == "all" and "all" or math.tointeger(tonumber(p.m))
     local B = ls.coulomb_basis { lmax = p.lmax, nmax = p.nmax, kappa = p.kappa, m = m }
     local z = B.z
+    local F = p.field_unit == "au_field" and p.field or ls.units.convert(p.field, p.field_unit, "au_field")
     return {
-      basis = B, H0 = B.H0, V = p.field * z, z = z, field = p.field,
+      basis = B, H0 = B.H0, V = F * z, z = z, field = F, -- field in atomic units
       units = "hartree",
       bohr = function(n) return -1 / (2 * n * n) end,
     }

@@ -205,7 +205,7 @@ describe("hydrogen recipe", function()
     assert.error_matches(function() ls.recipe("hydrogen", { m = "some" }) end,
       "parameter 'm' must be an integer or \"all\"", 1, true)
     assert.error_matches(function() ls.recipe("hydrogen", { fiedl = 0.1 }) end,
-      "recipe 'hydrogen': unknown parameter 'fiedl' (accepted: field, lmax, nmax, kappa, m)", 1, true)
+      "recipe 'hydrogen': unknown parameter 'fiedl' (accepted: field, field_unit, lmax, nmax, kappa, m)", 1, true)
   end)
 end)
 
@@ -280,5 +280,19 @@ describe("ls.coulomb_basis", function()
     assert.error_matches(function() return B:dim() end, "closed basis", 1, true)
     collectgarbage()
     assert.equal(6, (z:dim()))
+  end)
+  it("takes the field in laboratory units", function()
+    -- 1 a.u. of field = E_h/(e a0) = 5.14220674763e11 V/m (CODATA 2018,
+    -- Tiesinga et al., Rev. Mod. Phys. 93, 025010 (2021)); 1000 kV/cm = 1e8 V/m
+    local lab = ls.recipe("hydrogen", { field = 1000, field_unit = "kV/cm" })
+    local F = 1e8 / 5.14220674763e11
+    assert.is_true(math.abs(lab.field / F - 1) < 1e-10)
+    local au = ls.recipe("hydrogen", { field = F })
+    local s1 = ls.perturb(lab.H0, lab.V, { order = 2, levels = { 1 } })
+    local s2 = ls.perturb(au.H0, au.V, { order = 2, levels = { 1 } })
+    assert.is_true(math.abs(s1:energy(1, 2) / s2:energy(1, 2) - 1) < 1e-9)
+    -- and the ground-state shift is -(9/4) F^2 (Dalgarno & Lewis 1955)
+    assert.is_true(math.abs(s1:energy(1, 2) / (-9 / 4 * F * F) - 1) < 1e-6)
+    assert.has_error(function() ls.recipe("hydrogen", { field_unit = "V/furlong" }) end)
   end)
 end)
