@@ -242,7 +242,7 @@ LVS_API int lvs_sweep_set_labels(lvs_sweep *s, const char *param, const char *pa
 LVS_API int lvs_sweep_write(const lvs_sweep *s, const char *path);
 /* the files' model and units line, e.g. "H(p) = H0 + p V; energies in GHz" */
 LVS_API void lvs_sweep_about(const lvs_sweep *s, char *about, size_t size);
-/* Write len bytes to path atomically: to path.tmp, flushed and fsync'd, then
+/* Write len bytes to path atomically: to path.tmp.PID, flushed and fsync'd, then
  * renamed over path; on any failure path is unchanged and no .tmp is left. */
 LVS_API int lvs_write_file(lvs_ctx *ctx, const char *path, const void *data, size_t len);
 /* ---- effective Hamiltonians (effective.c) ---------------------------

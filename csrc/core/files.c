@@ -1,4 +1,4 @@
-/* files.c -- files written atomically: data goes to PATH.tmp, is flushed
+/* files.c -- files written atomically: data goes to PATH.tmp.PID, is flushed
  * and fsync'd, then renamed over PATH, so a reader (or a crash, or a full
  * disk) sees either the old file or the whole new one, never a part. */
 #include <errno.h>
@@ -11,15 +11,15 @@
 int lvs_write_file(lvs_ctx *ctx, const char *path, const void *data, size_t len) {
   if (!path || !*path) return lvsi_fail(ctx, LVS_EINVAL, "write needs a file path");
   if (!data && len) return lvsi_fail(ctx, LVS_EINVAL, "write: no data");
-  size_t plen = strlen(path);
-  char *tmpname = lvsi_malloc(ctx, plen + 5);
+  /* PATH.tmp.PID: two processes writing one path never share a temporary */
+  size_t tlen = strlen(path) + 32;
+  char *tmpname = lvsi_malloc(ctx, tlen);
   if (!tmpname) return lvsi_fail(ctx, LVS_ENOMEM, "write: out of memory");
-  memcpy(tmpname, path, plen);
-  memcpy(tmpname + plen, ".tmp", 5);
+  snprintf(tmpname, tlen, "%s.tmp.%ld", path, (long)getpid());
   FILE *f = fopen(tmpname, "w");
   if (!f) {
     int e = errno;
-    int st = lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (opening '%s': %s)", path, tmpname, strerror(e));
+    int st = lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (opening a temporary file beside it: %s)", path, strerror(e));
     lvsi_free(ctx, tmpname);
     return st;
   }

@@ -80,7 +80,7 @@ return function(ls, core)
   -- encoded by dkjson (Debian package lua-dkjson) with every number written
   -- as %.17g (dkjson's own tostring keeps 14 digits, which does not give back
   -- every double), keys in a fixed order (same bytes on every run), and
-  -- written atomically by the core (path.tmp, fsync, rename).
+  -- written atomically by the core (path.tmp.PID, fsync, rename).
   local core_write = methods.write
   local num_mt = { __tojson = function(self)
     local x = self[1]

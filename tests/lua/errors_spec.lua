@@ -104,7 +104,7 @@ describe("documented errors", function()
   it("files: an unwritable path names the file and the reason", function()
     local sw = ls.sweep { H0 = ls.matrix { { 0, 0.1 }, { 0.1, 0 } }, V = ls.matrix { { 1, 0 }, { 0, -1 } },
       from = -1, to = 1, steps = 4 }
-    errs("cannot write '/nonexistent-dir-lvs/x.csv' (opening '/nonexistent-dir-lvs/x.csv.tmp': No such file or directory)",
+    errs("cannot write '/nonexistent-dir-lvs/x.csv' (opening a temporary file beside it: No such file or directory)",
       function() return sw:write("/nonexistent-dir-lvs/x.csv") end)
     errs("bad argument #1 to 'plot' (a path ending in .svg or .png expected)", function() return sw:plot("x.pdf") end)
   end)
