@@ -37,6 +37,7 @@ H0 + V for them).]],
     return {
       basis = B, H0 = B.H0, V = V, x = B.x,
       first_order = function(n)
+        n = ls.recipes._argint("first_order", 1, n, 1)
         return V0 * (edge / p.width - math.sin(2 * n * pi * edge / p.width) / (2 * n * pi))
       end,
     }

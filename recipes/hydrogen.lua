@@ -76,7 +76,10 @@ bohr(n) = -1/(2 n^2), units = "hartree".]],
     return {
       basis = B, H0 = B.H0, V = F * z, z = z, field = F, -- field in atomic units
       units = "hartree",
-      bohr = function(n) return -1 / (2 * n * n) end,
+      bohr = function(n)
+        n = ls.recipes._argint("bohr", 1, n, 1)
+        return -1 / (2 * n * n)
+      end,
     }
   end,
 }

@@ -33,7 +33,10 @@ chapter 5 problems (problem number from memory: 5.1).]],
     return {
       basis = o, H0 = H0, V = V,
       x = o.x / math.sqrt(p.mass * p.omega),
-      exact = function(level) return p.omega * (level - 0.5) + shift end,
+      exact = function(level)
+        level = ls.recipes._argint("exact", 1, level, 1)
+        return p.omega * (level - 0.5) + shift
+      end,
     }
   end,
 }

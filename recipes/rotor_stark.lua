@@ -69,6 +69,8 @@ model.B and model.muE are B and mu*E in energy_unit (model.units).]],
     return {
       basis = R, H0 = B * R.J2, V = -muE * R.cos, cos = R.cos, B = B, muE = muE, units = units,
       e2 = function(J, M)
+        J = ls.recipes._argint("e2", 1, J, 0)
+        M = ls.recipes._argint("e2", 2, M, -J, J)
         if J == 0 then return -muE * muE / (6 * B) end
         return muE * muE / (2 * B) * (J * (J + 1) - 3 * M * M) / (J * (J + 1) * (2 * J - 1) * (2 * J + 3))
       end,

@@ -41,7 +41,7 @@ Basis: ls.spin(spin), states m = +S .. -S (label m).]],
     table.sort(exact)
     return {
       basis = s, H0 = H0, V = V, units = p.energy_unit,
-      exact = function(level) return exact[level] end,
+      exact = function(level) return exact[ls.recipes._argint("exact", 1, level, 1, #exact)] end,
     }
   end,
 }

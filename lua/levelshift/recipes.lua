@@ -472,6 +472,21 @@ function M.run(name, params)
   return m
 end
 
+--- ls.recipes._argint(fname, i, v, lo, hi) (internal): for the helper functions a recipe
+-- hands out with its model (m.exact(level) ...): v must be an integer in
+-- lo..hi, else a Lua error naming the function and the argument.
+function M._argint(fname, i, v, lo, hi)
+  if math.type(v) ~= "integer" and not (type(v) == "number" and v == math.floor(v) and v == v) then
+    error(string.format("bad argument #%d to '%s' (integer expected, got %s)", i, fname,
+      type(v) == "number" and tostring(v) or type(v)), 3)
+  end
+  if v < lo or (hi and v > hi) then
+    error(string.format("bad argument #%d to '%s' (%s out of range %d..%s)", i, fname, tostring(v), lo,
+      hi and string.format("%d", hi) or "inf"), 3)
+  end
+  return math.tointeger(v)
+end
+
 --- attach(ls): install ls.recipe and ls.recipes (called from init.lua).
 function M.attach(ls)
   ls_ref = ls
