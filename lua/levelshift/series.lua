@@ -142,7 +142,11 @@ return function(ls, core)
   function methods.check(s, lambda)
     argcheck_lambda(lambda, "check", 1)
     local H0, V = s:operators()
-    local E = ls.eigen(H0 + lambda * V, { vectors = false })
+    local ok, E = pcall(function() return ls.eigen(H0 + lambda * V, { vectors = false }) end)
+    if not ok then -- e.g. lambda so large that H0 + lambda V overflows
+      error("bad argument #1 to 'check' (exact diagonalization of H0 + lambda V at lambda = "
+        .. tostring(lambda) .. " failed: " .. (tostring(E):gsub("^[^:]*:%d+: ", "")) .. ")", 2)
+    end
     local out = { lambda = lambda, levels = {}, max_error = 0 }
     local K, vn = s:order(), s:vnorm()
     for _, lev in ipairs(s:chosen()) do
