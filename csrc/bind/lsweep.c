@@ -276,7 +276,9 @@ static int l_sweep(lua_State *L) {
   return 1;
 }
 
-static int m_level(lua_State *L) {
+/* push the energies of tracked level #2 (1-based) from get(): a Lua array
+ * over the points, or nil when get() has none (no series) */
+static int push_curve(lua_State *L, const double *(*get)(const lvs_sweep *, size_t)) {
   lvs_sweep *s = checksweep(L, 1);
   lua_Integer k = luaL_checkinteger(L, 2);
   size_t count = lvs_sweep_count(s);
@@ -284,7 +286,11 @@ static int m_level(lua_State *L) {
     lua_pushfstring(L, "level must be from 1 to %d, got %I", (int)count, k);
     return luaL_argerror(L, 2, lua_tostring(L, -1));
   }
-  const double *e = lvs_sweep_level(s, (size_t)k - 1);
+  const double *e = get(s, (size_t)k - 1);
+  if (!e) {
+    lua_pushnil(L);
+    return 1;
+  }
   size_t np = lvs_sweep_points(s);
   lua_createtable(L, (int)np, 0);
   for (size_t i = 0; i < np; i++) {
@@ -293,6 +299,8 @@ static int m_level(lua_State *L) {
   }
   return 1;
 }
+
+static int m_level(lua_State *L) { return push_curve(L, lvs_sweep_level); }
 
 static int m_crossings(lua_State *L) {
   lvs_sweep *s = checksweep(L, 1);
@@ -318,27 +326,7 @@ static int m_crossings(lua_State *L) {
   return 1;
 }
 
-static int m_series(lua_State *L) {
-  lvs_sweep *s = checksweep(L, 1);
-  lua_Integer k = luaL_checkinteger(L, 2);
-  size_t count = lvs_sweep_count(s);
-  if (k < 1 || (size_t)k > count) {
-    lua_pushfstring(L, "level must be from 1 to %d, got %I", (int)count, k);
-    return luaL_argerror(L, 2, lua_tostring(L, -1));
-  }
-  const double *e = lvs_sweep_series(s, (size_t)k - 1);
-  if (!e) {
-    lua_pushnil(L);
-    return 1;
-  }
-  size_t np = lvs_sweep_points(s);
-  lua_createtable(L, (int)np, 0);
-  for (size_t i = 0; i < np; i++) {
-    lua_pushnumber(L, e[i]);
-    lua_rawseti(L, -2, (lua_Integer)i + 1);
-  }
-  return 1;
-}
+static int m_series(lua_State *L) { return push_curve(L, lvs_sweep_series); }
 
 static int m_remove_journals(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);

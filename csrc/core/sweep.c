@@ -370,6 +370,23 @@ static int band_values(const bandmod *bm, double p, size_t m, int coarse, double
 
 /* eigenvectors (n x m) of the m levels whose coarse energies band_values
  * left in w; w gets the Rayleigh-Ritz energies */
+/* x <- x - <u|x> u for a unit vector u (real) */
+static void project_out(const double *u, double *x, size_t n) {
+  double o = 0;
+  for (size_t i = 0; i < n; i++) o += u[i] * x[i];
+  for (size_t i = 0; i < n; i++) x[i] -= o * u[i];
+}
+
+/* x <- x / |x|; nonzero when |x| is 0 or not finite */
+static int normalize(double *x, size_t n) {
+  double nn = 0;
+  for (size_t i = 0; i < n; i++) nn += x[i] * x[i];
+  nn = sqrt(nn);
+  if (!(nn > 0) || !isfinite(nn)) return 1;
+  for (size_t i = 0; i < n; i++) x[i] /= nn;
+  return 0;
+}
+
 static int band_vectors(const bandmod *bm, double p, size_t m, double *w, double *vec, band_scratch *bs,
                         lvs_ctx *tctx) {
   size_t n = bm->n, kd = bm->kd, ldab = kd + 1, ldg = 3 * kd + 1;
@@ -396,19 +413,10 @@ static int band_vectors(const bandmod *bm, double p, size_t m, double *w, double
       /* against the levels whose shifts are close (they could converge to
        * the same vector); the others are orthonormalized before Rayleigh-Ritz */
       for (int pass = 0; pass <= it; pass++)
-        for (size_t q = 0; q < j; q++) {
-          if (fabs(w[q] - w[j]) > clus) continue;
-          const double *u = vec + q * n;
-          double o = 0;
-          for (size_t i = 0; i < n; i++) o += u[i] * xv[i];
-          for (size_t i = 0; i < n; i++) xv[i] -= o * u[i];
-        }
-      double nn = 0;
-      for (size_t i = 0; i < n; i++) nn += xv[i] * xv[i];
-      nn = sqrt(nn);
-      if (!(nn > 0) || !isfinite(nn))
+        for (size_t q = 0; q < j; q++)
+          if (!(fabs(w[q] - w[j]) > clus)) project_out(vec + q * n, xv, n);
+      if (normalize(xv, n))
         return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed for level %zu", j + 1);
-      for (size_t i = 0; i < n; i++) xv[i] /= nn;
     }
   }
   /* Rayleigh-Ritz on span(X): G = X^T H X, G = Q diag(w) Q^T, X <- X Q
@@ -418,18 +426,9 @@ static int band_vectors(const bandmod *bm, double p, size_t m, double *w, double
   for (size_t j = 1; j < m; j++) { /* modified Gram-Schmidt, twice */
     double *xv = vec + j * n;
     for (int pass = 0; pass < 2; pass++)
-      for (size_t q = 0; q < j; q++) {
-        const double *u = vec + q * n;
-        double o = 0;
-        for (size_t i = 0; i < n; i++) o += u[i] * xv[i];
-        for (size_t i = 0; i < n; i++) xv[i] -= o * u[i];
-      }
-    double nn = 0;
-    for (size_t i = 0; i < n; i++) nn += xv[i] * xv[i];
-    nn = sqrt(nn);
-    if (!(nn > 0) || !isfinite(nn))
+      for (size_t q = 0; q < j; q++) project_out(vec + q * n, xv, n);
+    if (normalize(xv, n))
       return lvsi_fail(tctx, LVS_ELAPACK, "band inverse iteration failed for level %zu", j + 1);
-    for (size_t i = 0; i < n; i++) xv[i] /= nn;
   }
   for (size_t j = 0; j < m; j++) {
     const double *xv = vec + j * n;
