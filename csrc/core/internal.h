@@ -46,6 +46,12 @@ LVSI void lvsi_free(lvs_ctx *ctx, void *p);
 LVSI int lvsi_dense_ok(lvs_ctx *ctx, size_t n, size_t m, size_t elem,
                        const char *what);
 
+/* BLAS thread control (lazyla.c; loads the BLAS): OpenBLAS's thread count
+ * (0 with a BLAS without that control), set it, stop its idle pool */
+LVSI int lvsi_blas_threads(void);
+LVSI void lvsi_set_blas_threads(int n);
+LVSI void lvsi_blas_pool_stop(void);
+
 /* matrix internals */
 LVSI int lvsi_mat_alloc(lvs_ctx *ctx, size_t rows, size_t cols, int cplx,
                         int sparse, size_t nnzcap, lvs_matrix **out);

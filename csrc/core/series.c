@@ -47,23 +47,21 @@
 
 typedef double complex dc;
 
-/* OpenBLAS thread control (weak: absent with another BLAS). The dense work
+/* OpenBLAS thread control (lazyla.c). The dense work
  * of a small degenerate group (an eigendecomposition and a few products of
  * order d <= SERIES_BLAS1_MAX) runs on one BLAS thread: waking the pool
  * costs more than it brings there (bench/jobs/degenerate.lua, d = 252, and
  * dense groups of 128..600 levels, measured on 2 shared cores: README,
  * Benchmarks). The previous setting is restored afterwards. */
-extern void openblas_set_num_threads(int) __attribute__((weak));
-extern int openblas_get_num_threads(void) __attribute__((weak));
 #define SERIES_BLAS1_MAX 512
 static int blas_hold1(size_t d) {
-  if (d < 2 || d > SERIES_BLAS1_MAX || !openblas_get_num_threads || !openblas_set_num_threads) return 0;
-  int t = openblas_get_num_threads();
-  if (t > 1) openblas_set_num_threads(1);
+  if (d < 2 || d > SERIES_BLAS1_MAX) return 0;
+  int t = lvsi_blas_threads();
+  if (t > 1) lvsi_set_blas_threads(1);
   return t > 1 ? t : 0;
 }
 static void blas_release(int t) {
-  if (t > 0) openblas_set_num_threads(t);
+  if (t > 0) lvsi_set_blas_threads(t);
 }
 
 /* Omega of one group: per order k = 0..nom a block of rows [lo[k], hi[k]) x d */

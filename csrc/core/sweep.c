@@ -115,10 +115,6 @@
 #define SWEEP_MAX_STEPS 1000000
 #define SWEEP_MAX_THREADS 64
 
-/* OpenBLAS thread control (weak: absent with another BLAS) */
-extern void openblas_set_num_threads(int) __attribute__((weak));
-extern int openblas_get_num_threads(void) __attribute__((weak));
-extern void blas_thread_shutdown_(void) __attribute__((weak));
 
 struct lvs_sweep {
   lvs_ctx *ctx;
@@ -1484,15 +1480,15 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
 
   /* one BLAS thread always: no oversubscription, and OpenBLAS's own
    * threading would make the rounding depend on the thread count */
-  if (openblas_get_num_threads && openblas_set_num_threads) {
-    blas_threads = openblas_get_num_threads();
-    openblas_set_num_threads(1);
+  blas_threads = lvsi_blas_threads(); /* OpenBLAS thread control: lazyla.c */
+  if (blas_threads > 0) {
+    lvsi_set_blas_threads(1);
     /* OpenBLAS's idle pool threads spin (sched_yield) for about 2^28 cycles
      * after start-up or their last job, taking a core from the workers (25%
      * of a 2-core sweep, measured with perf); stopping the pool lets the
      * workers have the cores. OpenBLAS starts it again on its next threaded
      * call (its fork handler uses the same entry). */
-    if (nthreads > 1 && blas_threads > 1 && blas_thread_shutdown_) blas_thread_shutdown_();
+    if (nthreads > 1 && blas_threads > 1) lvsi_blas_pool_stop();
   }
   for (size_t k0 = 0; k0 < npts; k0 += blk) {
     size_t k1 = k0 + blk < npts ? k0 + blk : npts;
@@ -1552,7 +1548,7 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     }
   }
   if (blas_threads > 0) {
-    openblas_set_num_threads(blas_threads);
+    lvsi_set_blas_threads(blas_threads);
     blas_threads = 0;
   }
   if (spec->shards) {
@@ -1649,7 +1645,7 @@ nomem:
 fail:
   lvs_sweep_free(s);
 done:
-  if (blas_threads > 0) openblas_set_num_threads(blas_threads);
+  if (blas_threads > 0) lvsi_set_blas_threads(blas_threads);
   journal_close(ctx, &jn);
   lvs_matrix_free(dh);
   lvs_matrix_free(dv);

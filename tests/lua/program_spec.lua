@@ -8,10 +8,38 @@ local function run(args)
   return out
 end
 
+local function run_env(env, args)
+  local f = io.popen(env .. bin .. " " .. args .. " 2>&1; echo \"rc=$?\"")
+  local out = f:read("a")
+  f:close()
+  return out
+end
+
 describe("levelshift program", function()
   it("prints help and version", function()
     assert.truthy(run("--help"):find("usage: levelshift FILE.lua", 1, true))
     assert.truthy(run("--version"):find("levelshift 0.1.0", 1, true))
+  end)
+  -- LAPACK/BLAS are opened on first use (csrc/core/lazyla.c): a script
+  -- that needs none never maps them; one that needs them finds them; a
+  -- library that cannot be opened is named, exit status 127 as from the
+  -- dynamic loader (common practice).
+  it("opens LAPACK and BLAS only when a computation needs them", function()
+    local probe = "local function mapped() local f = io.open('/proc/self/maps'); "
+      .. "local t = f:read('a'); f:close(); return t:find('lapacke', 1, true) ~= nil end; "
+      .. "local before = mapped(); local w = ls.eigen(ls.matrix{{2, 1}, {1, 2}}); "
+      .. "print(before, mapped(), w[1], w[2])"
+    local out = run("-e \"" .. probe .. "\"")
+    assert.truthy(out:find("false\ttrue\t1.0\t3.0", 1, true), out)
+  end)
+  it("names a LAPACKE it cannot open and exits with 127", function()
+    local env = "LVS_LAPACKE=/nonexistent/liblapacke-missing.so "
+    local out = run_env(env, "-e 'print(ls.clock() >= 0)'")
+    assert.truthy(out:find("true", 1, true), out)
+    assert.truthy(out:find("rc=0", 1, true), out)
+    out = run_env(env, "-e 'ls.eigen(ls.matrix{{2, 1}, {1, 2}})'")
+    assert.truthy(out:find("cannot load /nonexistent/liblapacke-missing.so", 1, true), out)
+    assert.truthy(out:find("rc=127", 1, true), out)
   end)
   it("names an unknown option instead of taking it for a recipe", function()
     local out = run("--bogus")
