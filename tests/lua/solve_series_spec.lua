@@ -207,5 +207,17 @@ describe("perturb_solve", function()
     A:set(1, 2, (A:get(1, 2)) + 0.5)
     assert.error_matches(function() ls.perturb_solve(A, V) end,
       "bad argument #1 to 'perturb_solve' (H0 is not Hermitian: |H(1,2) - conj(H(2,1))| = 0.5", 1, true)
+    -- a lower entry whose upper partner is zero or not stored at all
+    local B = ls.radial(6, { rmax = 5 })
+    B:set(1, 2, 0)
+    assert.error_matches(function() ls.perturb_solve(B, V) end,
+      "bad argument #1 to 'perturb_solve' (H0 is not Hermitian: |H(1,2) - conj(H(2,1))|", 1, true)
+    local C = ls.zeros(40, 40)
+    C:set(1, 1, 0.25)
+    local T40 = ls.radial(40, { rmax = 5 })
+    local L = ls.blocks{ { T40, 0 }, { C, T40 } } -- H(41,1) = 0.25, H(1,41) not stored
+    assert.are.equal("sparse", (L:storage()))
+    assert.error_matches(function() ls.perturb_solve(L, ls.zeros(80)) end,
+      "bad argument #1 to 'perturb_solve' (H0 is not Hermitian: |H(1,41) - conj(H(41,1))| = 0.25", 1, true)
   end)
 end)
