@@ -32,6 +32,14 @@ extern "C" {
 #define LVS_VERSION_PATCH 0
 #define LVS_VERSION "0.1.0"
 LVS_API const char *lvs_version(void); /* run-time version string */
+/* Opens LAPACKE and CBLAS now (the core opens them on first use, so a
+ * program that never needs them never loads them) and tells which
+ * libraries were opened and OpenBLAS's thread count (0 with another BLAS);
+ * any pointer may be NULL. A library that cannot be opened is named on
+ * stderr and the process exits with status 127, as the dynamic loader does
+ * at start-up. LVS_LAPACKE and LVS_CBLAS in the environment name other
+ * libraries with the same interface. */
+LVS_API void lvs_linalg(const char **lapacke, const char **cblas, int *blas_threads);
 
 /* Status codes. Never renumbered. */
 typedef enum {

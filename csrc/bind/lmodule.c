@@ -173,6 +173,23 @@ static int l_clock(lua_State *L) {
   return 1;
 }
 
+/* ls.linalg() -> {lapacke = name, cblas = name, blas_threads = n}: opens
+ * LAPACK and BLAS now (otherwise opened on first use) and tells which */
+static int l_linalg(lua_State *L) {
+  luaL_argcheck(L, lua_isnone(L, 1), 1, "ls.linalg takes no arguments");
+  const char *lapacke = NULL, *cblas = NULL;
+  int threads = 0;
+  lvs_linalg(&lapacke, &cblas, &threads);
+  lua_createtable(L, 0, 3);
+  lua_pushstring(L, lapacke);
+  lua_setfield(L, -2, "lapacke");
+  lua_pushstring(L, cblas);
+  lua_setfield(L, -2, "cblas");
+  lua_pushinteger(L, threads);
+  lua_setfield(L, -2, "blas_threads");
+  return 1;
+}
+
 static int l_version(lua_State *L) {
   lua_pushstring(L, lvs_version());
   return 1;
@@ -213,7 +230,8 @@ __attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L)
   lua_pushvalue(L, ctxidx);
   lua_setfield(L, LUA_REGISTRYINDEX, LVS_CTX_KEY); /* for lvsL_inside_binding */
   lua_newtable(L);
-  static const luaL_Reg fns[] = {{"version", l_version}, {"config", l_config}, {"clock", l_clock}, {NULL, NULL}};
+  static const luaL_Reg fns[] = {{"version", l_version}, {"config", l_config}, {"clock", l_clock},
+                                  {"linalg", l_linalg}, {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);
   lvsL_open_matrix(L, ctxidx);
   lvsL_open_basis(L, ctxidx);

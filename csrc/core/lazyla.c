@@ -97,6 +97,14 @@ void lvsi_blas_pool_stop(void) {
   if (stop) stop();
 }
 
+void lvs_linalg(const char **lapacke, const char **cblas, int *blas_threads) {
+  (void)lib_handle(LIB_LAPACKE);
+  (void)lib_handle(LIB_BLAS);
+  if (lapacke) *lapacke = lib_name(LIB_LAPACKE);
+  if (cblas) *cblas = lib_name(LIB_BLAS);
+  if (blas_threads) *blas_threads = lvsi_blas_threads();
+}
+
 /* ---- the forwarding definitions (prototypes from lapacke.h and cblas.h) ---- */
 
 static void* slot_LAPACKE_dgbtrf_work;

@@ -32,6 +32,16 @@ describe("levelshift program", function()
     local out = run("-e \"" .. probe .. "\"")
     assert.truthy(out:find("false\ttrue\t1.0\t3.0", 1, true), out)
   end)
+  it("opens them on request with ls.linalg and names them", function()
+    local probe = "local f = io.open('/proc/self/maps'); local before = f:read('a'):find('lapacke', 1, true) ~= nil; f:close(); "
+      .. "local l = ls.linalg(); print(before, l.lapacke, l.cblas, math.type(l.blas_threads))"
+    local out = run("-e \"" .. probe .. "\"")
+    assert.truthy(out:find("false\tliblapacke.so.3\tlibopenblas.so.0\tinteger", 1, true), out)
+    out = run_env("LVS_CBLAS=/nonexistent/libcblas-missing.so ", "-e 'ls.linalg()'")
+    assert.truthy(out:find("cannot load /nonexistent/libcblas-missing.so", 1, true), out)
+    assert.truthy(out:find("rc=127", 1, true), out)
+    assert.truthy(run("-e 'ls.linalg(1)'"):find("ls.linalg takes no arguments", 1, true))
+  end)
   it("names a LAPACKE it cannot open and exits with 127", function()
     local env = "LVS_LAPACKE=/nonexistent/liblapacke-missing.so "
     local out = run_env(env, "-e 'print(ls.clock() >= 0)'")
