@@ -16,6 +16,7 @@
 #define LEVELSHIFT_H
 
 #include <stddef.h>
+#include <stdint.h>
 
 #ifdef __cplusplus
 extern "C" {
@@ -508,6 +509,12 @@ LVS_API int lvs_matrix_blocks(lvs_ctx *ctx, size_t nbr, size_t nbc,
                               const lvs_matrix *const *blk, lvs_matrix **out);
 /* Largest |i - j| over nonzero entries of the visible block. */
 LVS_API int lvs_matrix_bandwidth(const lvs_matrix *m, size_t *band);
+/* Haar-distributed random orthogonal n x n matrix (dense), from the QR
+ * decomposition of a matrix of standard normal deviates with the signs of
+ * R's diagonal moved into Q (Mezzadri 2007). The same seed gives the same
+ * matrix. For checking that results do not depend on the basis. */
+LVS_API int lvs_random_orthogonal(lvs_ctx *ctx, size_t n, uint64_t seed, lvs_matrix **out);
+
 /* Finite-difference radial Hamiltonian H_l = -u''/2 + l(l+1)/(2r^2) - Z/r on
  * r_i = i rmax/(n+1), i = 1..n, u(0) = u(rmax) = 0 (tridiagonal, sparse),
  * and the diagonal operator r. Either output may be NULL. */

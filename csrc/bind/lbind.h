@@ -52,6 +52,7 @@ void lvsL_open_rotor(lua_State *L, int ctxidx);
 void lvsL_open_radial(lua_State *L, int ctxidx);
 void lvsL_open_solve_series(lua_State *L, int ctxidx);
 void lvsL_open_units(lua_State *L, int ctxidx);
+void lvsL_open_random(lua_State *L, int ctxidx);
 /* @@FEATURE-OPENERS@@ */
 
 /* 1 when a binding function (one registered with the context as upvalue 1)

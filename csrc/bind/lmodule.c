@@ -247,6 +247,7 @@ __attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L)
   lvsL_open_radial(L, ctxidx);
   lvsL_open_solve_series(L, ctxidx);
   lvsL_open_units(L, ctxidx);
+  lvsL_open_random(L, ctxidx);
   /* @@FEATURE-OPEN-CALLS@@ */
   lua_pushvalue(L, ctxidx);
   lua_setfield(L, -2, "_ctx"); /* keeps the context alive with the module */

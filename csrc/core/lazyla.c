@@ -9,8 +9,8 @@
  * header's own prototype (the compiler checks it), and forwards to the
  * real one, found with dlopen/dlsym by the library's SONAME (recorded at
  * configure time, LVS_LAPACKE_SONAME and LVS_BLAS_SONAME; the environment
- * variables LVS_LAPACKE and LVS_CBLAS override them) on the first call. Thread-safe: each library is opened once (pthread_once), each
- * symbol is published with an atomic store.
+ * variables LVS_LAPACKE and LVS_CBLAS override them) on the first call. Thread-safe: each library
+ * is opened once (pthread_once), each symbol is published with an atomic store.
  *
  * A library that was present at build time but cannot be opened at run
  * time is a broken installation: like the dynamic loader at start-up, we
@@ -42,8 +42,8 @@ static pthread_once_t once[2] = {PTHREAD_ONCE_INIT, PTHREAD_ONCE_INIT};
 
 /* LVS_LAPACKE and LVS_CBLAS in the environment name other libraries (a
  * path or a SONAME) with the same interface */
-static const char *lib_name(int lib) {
-  const char *env = getenv(lib == LIB_LAPACKE ? "LVS_LAPACKE" : "LVS_CBLAS");
+static const char* lib_name(int lib) {
+  const char* env = getenv(lib == LIB_LAPACKE ? "LVS_LAPACKE" : "LVS_CBLAS");
   return env && *env ? env : sonames[lib];
 }
 
@@ -97,7 +97,7 @@ void lvsi_blas_pool_stop(void) {
   if (stop) stop();
 }
 
-void lvs_linalg(const char **lapacke, const char **cblas, int *blas_threads) {
+void lvs_linalg(const char** lapacke, const char** cblas, int* blas_threads) {
   (void)lib_handle(LIB_LAPACKE);
   (void)lib_handle(LIB_BLAS);
   if (lapacke) *lapacke = lib_name(LIB_LAPACKE);
@@ -408,4 +408,20 @@ void cblas_zgemv(OPENBLAS_CONST enum CBLAS_ORDER order, OPENBLAS_CONST enum CBLA
              OPENBLAS_CONST blasint incx, OPENBLAS_CONST void* beta, void* y,
              OPENBLAS_CONST blasint incy))lvsi_la_sym(&slot_cblas_zgemv, LIB_BLAS, "cblas_zgemv"))(
       order, trans, m, n, alpha, a, lda, x, incx, beta, y, incy);
+}
+static void* slot_LAPACKE_dgeqrf;
+lapack_int LAPACKE_dgeqrf(int matrix_layout, lapack_int m, lapack_int n, double* a, lapack_int lda,
+                          double* tau) {
+  return (
+      (lapack_int(*)(int matrix_layout, lapack_int m, lapack_int n, double* a, lapack_int lda,
+                     double* tau))lvsi_la_sym(&slot_LAPACKE_dgeqrf, LIB_LAPACKE, "LAPACKE_dgeqrf"))(
+      matrix_layout, m, n, a, lda, tau);
+}
+static void* slot_LAPACKE_dorgqr;
+lapack_int LAPACKE_dorgqr(int matrix_layout, lapack_int m, lapack_int n, lapack_int k, double* a,
+                          lapack_int lda, const double* tau) {
+  return ((lapack_int(*)(
+      int matrix_layout, lapack_int m, lapack_int n, lapack_int k, double* a, lapack_int lda,
+      const double* tau))lvsi_la_sym(&slot_LAPACKE_dorgqr, LIB_LAPACKE, "LAPACKE_dorgqr"))(
+      matrix_layout, m, n, k, a, lda, tau);
 }
