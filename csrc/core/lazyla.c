@@ -16,8 +16,9 @@
  * time is a broken installation: like the dynamic loader at start-up, we
  * print which library and why, and exit with status 127.
  *
- * To use another LAPACKE or CBLAS function in the core: add a block below
- * with the prototype copied from lapacke.h or cblas.h. These definitions
+ * To use another LAPACKE or CBLAS function in the core: add a FWD line
+ * below with the prototype copied from lapacke.h or cblas.h (FWDV for a
+ * void function); the compiler checks it against the header. These definitions
  * are hidden (CMAKE_C_VISIBILITY_PRESET), so they never interpose on the
  * loaded libraries' own calls. */
 #include <cblas.h>
@@ -107,321 +108,125 @@ void lvs_linalg(const char** lapacke, const char** cblas, int* blas_threads) {
 
 /* ---- the forwarding definitions (prototypes from lapacke.h and cblas.h) ---- */
 
-static void* slot_LAPACKE_dgbtrf_work;
-lapack_int LAPACKE_dgbtrf_work(int matrix_layout, lapack_int m, lapack_int n, lapack_int kl,
-                               lapack_int ku, double* ab, lapack_int ldab, lapack_int* ipiv) {
-  return ((lapack_int(*)(int matrix_layout, lapack_int m, lapack_int n, lapack_int kl,
-                         lapack_int ku, double* ab, lapack_int ldab, lapack_int* ipiv))
-              lvsi_la_sym(&slot_LAPACKE_dgbtrf_work, LIB_LAPACKE, "LAPACKE_dgbtrf_work"))(
-      matrix_layout, m, n, kl, ku, ab, ldab, ipiv);
-}
-static void* slot_LAPACKE_dgbtrs_work;
-lapack_int LAPACKE_dgbtrs_work(int matrix_layout, char trans, lapack_int n, lapack_int kl,
-                               lapack_int ku, lapack_int nrhs, const double* ab, lapack_int ldab,
-                               const lapack_int* ipiv, double* b, lapack_int ldb) {
-  return ((lapack_int(*)(
-      int matrix_layout, char trans, lapack_int n, lapack_int kl, lapack_int ku, lapack_int nrhs,
-      const double* ab, lapack_int ldab, const lapack_int* ipiv, double* b,
-      lapack_int ldb))lvsi_la_sym(&slot_LAPACKE_dgbtrs_work, LIB_LAPACKE, "LAPACKE_dgbtrs_work"))(
-      matrix_layout, trans, n, kl, ku, nrhs, ab, ldab, ipiv, b, ldb);
-}
-static void* slot_LAPACKE_dgttrf;
-lapack_int LAPACKE_dgttrf(lapack_int n, double* dl, double* d, double* du, double* du2,
-                          lapack_int* ipiv) {
-  return ((lapack_int(*)(lapack_int n, double* dl, double* d, double* du, double* du2,
-                         lapack_int* ipiv))lvsi_la_sym(&slot_LAPACKE_dgttrf, LIB_LAPACKE,
-                                                       "LAPACKE_dgttrf"))(n, dl, d, du, du2, ipiv);
-}
-static void* slot_LAPACKE_dgttrs_work;
-lapack_int LAPACKE_dgttrs_work(int matrix_layout, char trans, lapack_int n, lapack_int nrhs,
-                               const double* dl, const double* d, const double* du,
-                               const double* du2, const lapack_int* ipiv, double* b,
-                               lapack_int ldb) {
-  return ((lapack_int(*)(
-      int matrix_layout, char trans, lapack_int n, lapack_int nrhs, const double* dl,
-      const double* d, const double* du, const double* du2, const lapack_int* ipiv, double* b,
-      lapack_int ldb))lvsi_la_sym(&slot_LAPACKE_dgttrs_work, LIB_LAPACKE, "LAPACKE_dgttrs_work"))(
-      matrix_layout, trans, n, nrhs, dl, d, du, du2, ipiv, b, ldb);
-}
-static void* slot_LAPACKE_dlamch;
-double LAPACKE_dlamch(char cmach) {
-  return ((double (*)(char cmach))lvsi_la_sym(&slot_LAPACKE_dlamch, LIB_LAPACKE, "LAPACKE_dlamch"))(
-      cmach);
-}
-static void* slot_LAPACKE_dormtr;
-lapack_int LAPACKE_dormtr(int matrix_layout, char side, char uplo, char trans, lapack_int m,
-                          lapack_int n, const double* a, lapack_int lda, const double* tau,
-                          double* c, lapack_int ldc) {
-  return ((lapack_int(*)(int matrix_layout, char side, char uplo, char trans, lapack_int m,
-                         lapack_int n, const double* a, lapack_int lda, const double* tau,
-                         double* c, lapack_int ldc))lvsi_la_sym(&slot_LAPACKE_dormtr, LIB_LAPACKE,
-                                                                "LAPACKE_dormtr"))(
-      matrix_layout, side, uplo, trans, m, n, a, lda, tau, c, ldc);
-}
-static void* slot_LAPACKE_dpbtrf_work;
-lapack_int LAPACKE_dpbtrf_work(int matrix_layout, char uplo, lapack_int n, lapack_int kd,
-                               double* ab, lapack_int ldab) {
-  return ((lapack_int(*)(int matrix_layout, char uplo, lapack_int n, lapack_int kd, double* ab,
-                         lapack_int ldab))lvsi_la_sym(&slot_LAPACKE_dpbtrf_work, LIB_LAPACKE,
-                                                      "LAPACKE_dpbtrf_work"))(matrix_layout, uplo,
-                                                                              n, kd, ab, ldab);
-}
-static void* slot_LAPACKE_dpbtrs_work;
-lapack_int LAPACKE_dpbtrs_work(int matrix_layout, char uplo, lapack_int n, lapack_int kd,
-                               lapack_int nrhs, const double* ab, lapack_int ldab, double* b,
-                               lapack_int ldb) {
-  return ((lapack_int(*)(int matrix_layout, char uplo, lapack_int n, lapack_int kd, lapack_int nrhs,
-                         const double* ab, lapack_int ldab, double* b, lapack_int ldb))
-              lvsi_la_sym(&slot_LAPACKE_dpbtrs_work, LIB_LAPACKE, "LAPACKE_dpbtrs_work"))(
-      matrix_layout, uplo, n, kd, nrhs, ab, ldab, b, ldb);
-}
-static void* slot_LAPACKE_dpttrf;
-lapack_int LAPACKE_dpttrf(lapack_int n, double* d, double* e) {
-  return ((lapack_int(*)(lapack_int n, double* d, double* e))lvsi_la_sym(
-      &slot_LAPACKE_dpttrf, LIB_LAPACKE, "LAPACKE_dpttrf"))(n, d, e);
-}
-static void* slot_LAPACKE_dpttrs_work;
-lapack_int LAPACKE_dpttrs_work(int matrix_layout, lapack_int n, lapack_int nrhs, const double* d,
-                               const double* e, double* b, lapack_int ldb) {
-  return ((lapack_int(*)(
-      int matrix_layout, lapack_int n, lapack_int nrhs, const double* d, const double* e, double* b,
-      lapack_int ldb))lvsi_la_sym(&slot_LAPACKE_dpttrs_work, LIB_LAPACKE, "LAPACKE_dpttrs_work"))(
-      matrix_layout, n, nrhs, d, e, b, ldb);
-}
-static void* slot_LAPACKE_dsbevx;
-lapack_int LAPACKE_dsbevx(int matrix_layout, char jobz, char range, char uplo, lapack_int n,
-                          lapack_int kd, double* ab, lapack_int ldab, double* q, lapack_int ldq,
-                          double vl, double vu, lapack_int il, lapack_int iu, double abstol,
-                          lapack_int* m, double* w, double* z, lapack_int ldz, lapack_int* ifail) {
-  return ((lapack_int(*)(
-      int matrix_layout, char jobz, char range, char uplo, lapack_int n, lapack_int kd, double* ab,
-      lapack_int ldab, double* q, lapack_int ldq, double vl, double vu, lapack_int il,
-      lapack_int iu, double abstol, lapack_int* m, double* w, double* z, lapack_int ldz,
-      lapack_int* ifail))lvsi_la_sym(&slot_LAPACKE_dsbevx, LIB_LAPACKE, "LAPACKE_dsbevx"))(
-      matrix_layout, jobz, range, uplo, n, kd, ab, ldab, q, ldq, vl, vu, il, iu, abstol, m, w, z,
-      ldz, ifail);
-}
-static void* slot_LAPACKE_dsbtrd_work;
-lapack_int LAPACKE_dsbtrd_work(int matrix_layout, char vect, char uplo, lapack_int n, lapack_int kd,
-                               double* ab, lapack_int ldab, double* d, double* e, double* q,
-                               lapack_int ldq, double* work) {
-  return ((lapack_int(*)(
-      int matrix_layout, char vect, char uplo, lapack_int n, lapack_int kd, double* ab,
-      lapack_int ldab, double* d, double* e, double* q, lapack_int ldq,
-      double* work))lvsi_la_sym(&slot_LAPACKE_dsbtrd_work, LIB_LAPACKE, "LAPACKE_dsbtrd_work"))(
-      matrix_layout, vect, uplo, n, kd, ab, ldab, d, e, q, ldq, work);
-}
-static void* slot_LAPACKE_dstebz;
-lapack_int LAPACKE_dstebz(char range, char order, lapack_int n, double vl, double vu, lapack_int il,
-                          lapack_int iu, double abstol, const double* d, const double* e,
-                          lapack_int* m, lapack_int* nsplit, double* w, lapack_int* iblock,
-                          lapack_int* isplit) {
-  return ((lapack_int(*)(char range, char order, lapack_int n, double vl, double vu, lapack_int il,
-                         lapack_int iu, double abstol, const double* d, const double* e,
-                         lapack_int* m, lapack_int* nsplit, double* w, lapack_int* iblock,
-                         lapack_int* isplit))lvsi_la_sym(&slot_LAPACKE_dstebz, LIB_LAPACKE,
-                                                         "LAPACKE_dstebz"))(
-      range, order, n, vl, vu, il, iu, abstol, d, e, m, nsplit, w, iblock, isplit);
-}
-static void* slot_LAPACKE_dstebz_work;
-lapack_int LAPACKE_dstebz_work(char range, char order, lapack_int n, double vl, double vu,
-                               lapack_int il, lapack_int iu, double abstol, const double* d,
-                               const double* e, lapack_int* m, lapack_int* nsplit, double* w,
-                               lapack_int* iblock, lapack_int* isplit, double* work,
-                               lapack_int* iwork) {
-  return ((lapack_int(*)(char range, char order, lapack_int n, double vl, double vu, lapack_int il,
-                         lapack_int iu, double abstol, const double* d, const double* e,
-                         lapack_int* m, lapack_int* nsplit, double* w, lapack_int* iblock,
-                         lapack_int* isplit, double* work, lapack_int* iwork))
-              lvsi_la_sym(&slot_LAPACKE_dstebz_work, LIB_LAPACKE, "LAPACKE_dstebz_work"))(
-      range, order, n, vl, vu, il, iu, abstol, d, e, m, nsplit, w, iblock, isplit, work, iwork);
-}
-static void* slot_LAPACKE_dstein;
-lapack_int LAPACKE_dstein(int matrix_layout, lapack_int n, const double* d, const double* e,
-                          lapack_int m, const double* w, const lapack_int* iblock,
-                          const lapack_int* isplit, double* z, lapack_int ldz, lapack_int* ifailv) {
-  return ((lapack_int(*)(int matrix_layout, lapack_int n, const double* d, const double* e,
-                         lapack_int m, const double* w, const lapack_int* iblock,
-                         const lapack_int* isplit, double* z, lapack_int ldz, lapack_int* ifailv))
-              lvsi_la_sym(&slot_LAPACKE_dstein, LIB_LAPACKE, "LAPACKE_dstein"))(
-      matrix_layout, n, d, e, m, w, iblock, isplit, z, ldz, ifailv);
-}
-static void* slot_LAPACKE_dsterf;
-lapack_int LAPACKE_dsterf(lapack_int n, double* d, double* e) {
-  return ((lapack_int(*)(lapack_int n, double* d, double* e))lvsi_la_sym(
-      &slot_LAPACKE_dsterf, LIB_LAPACKE, "LAPACKE_dsterf"))(n, d, e);
-}
-static void* slot_LAPACKE_dstevr;
-lapack_int LAPACKE_dstevr(int matrix_layout, char jobz, char range, lapack_int n, double* d,
-                          double* e, double vl, double vu, lapack_int il, lapack_int iu,
-                          double abstol, lapack_int* m, double* w, double* z, lapack_int ldz,
-                          lapack_int* isuppz) {
-  return ((lapack_int(*)(int matrix_layout, char jobz, char range, lapack_int n, double* d,
-                         double* e, double vl, double vu, lapack_int il, lapack_int iu,
-                         double abstol, lapack_int* m, double* w, double* z, lapack_int ldz,
-                         lapack_int* isuppz))lvsi_la_sym(&slot_LAPACKE_dstevr, LIB_LAPACKE,
-                                                         "LAPACKE_dstevr"))(
-      matrix_layout, jobz, range, n, d, e, vl, vu, il, iu, abstol, m, w, z, ldz, isuppz);
-}
-static void* slot_LAPACKE_dsyev;
-lapack_int LAPACKE_dsyev(int matrix_layout, char jobz, char uplo, lapack_int n, double* a,
-                         lapack_int lda, double* w) {
-  return ((lapack_int(*)(int matrix_layout, char jobz, char uplo, lapack_int n, double* a,
-                         lapack_int lda, double* w))lvsi_la_sym(&slot_LAPACKE_dsyev, LIB_LAPACKE,
-                                                                "LAPACKE_dsyev"))(
-      matrix_layout, jobz, uplo, n, a, lda, w);
-}
-static void* slot_LAPACKE_dsyevd;
-lapack_int LAPACKE_dsyevd(int matrix_layout, char jobz, char uplo, lapack_int n, double* a,
-                          lapack_int lda, double* w) {
-  return ((lapack_int(*)(int matrix_layout, char jobz, char uplo, lapack_int n, double* a,
-                         lapack_int lda, double* w))lvsi_la_sym(&slot_LAPACKE_dsyevd, LIB_LAPACKE,
-                                                                "LAPACKE_dsyevd"))(
-      matrix_layout, jobz, uplo, n, a, lda, w);
-}
-static void* slot_LAPACKE_dsyevr;
-lapack_int LAPACKE_dsyevr(int matrix_layout, char jobz, char range, char uplo, lapack_int n,
-                          double* a, lapack_int lda, double vl, double vu, lapack_int il,
-                          lapack_int iu, double abstol, lapack_int* m, double* w, double* z,
-                          lapack_int ldz, lapack_int* isuppz) {
-  return ((lapack_int(*)(
-      int matrix_layout, char jobz, char range, char uplo, lapack_int n, double* a, lapack_int lda,
-      double vl, double vu, lapack_int il, lapack_int iu, double abstol, lapack_int* m, double* w,
-      double* z, lapack_int ldz, lapack_int* isuppz))lvsi_la_sym(&slot_LAPACKE_dsyevr, LIB_LAPACKE,
-                                                                 "LAPACKE_dsyevr"))(
-      matrix_layout, jobz, range, uplo, n, a, lda, vl, vu, il, iu, abstol, m, w, z, ldz, isuppz);
-}
-static void* slot_LAPACKE_dsygv;
-lapack_int LAPACKE_dsygv(int matrix_layout, lapack_int itype, char jobz, char uplo, lapack_int n,
-                         double* a, lapack_int lda, double* b, lapack_int ldb, double* w) {
-  return ((lapack_int(*)(int matrix_layout, lapack_int itype, char jobz, char uplo, lapack_int n,
-                         double* a, lapack_int lda, double* b, lapack_int ldb,
-                         double* w))lvsi_la_sym(&slot_LAPACKE_dsygv, LIB_LAPACKE, "LAPACKE_dsygv"))(
-      matrix_layout, itype, jobz, uplo, n, a, lda, b, ldb, w);
-}
-static void* slot_LAPACKE_dsytrd;
-lapack_int LAPACKE_dsytrd(int matrix_layout, char uplo, lapack_int n, double* a, lapack_int lda,
-                          double* d, double* e, double* tau) {
-  return ((lapack_int(*)(
-      int matrix_layout, char uplo, lapack_int n, double* a, lapack_int lda, double* d, double* e,
-      double* tau))lvsi_la_sym(&slot_LAPACKE_dsytrd, LIB_LAPACKE, "LAPACKE_dsytrd"))(
-      matrix_layout, uplo, n, a, lda, d, e, tau);
-}
-static void* slot_LAPACKE_dsytrf;
-lapack_int LAPACKE_dsytrf(int matrix_layout, char uplo, lapack_int n, double* a, lapack_int lda,
-                          lapack_int* ipiv) {
-  return ((lapack_int(*)(int matrix_layout, char uplo, lapack_int n, double* a, lapack_int lda,
-                         lapack_int* ipiv))lvsi_la_sym(&slot_LAPACKE_dsytrf, LIB_LAPACKE,
-                                                       "LAPACKE_dsytrf"))(matrix_layout, uplo, n, a,
-                                                                          lda, ipiv);
-}
-static void* slot_LAPACKE_dsytrs;
-lapack_int LAPACKE_dsytrs(int matrix_layout, char uplo, lapack_int n, lapack_int nrhs,
-                          const double* a, lapack_int lda, const lapack_int* ipiv, double* b,
-                          lapack_int ldb) {
-  return ((lapack_int(*)(int matrix_layout, char uplo, lapack_int n, lapack_int nrhs,
-                         const double* a, lapack_int lda, const lapack_int* ipiv, double* b,
-                         lapack_int ldb))lvsi_la_sym(&slot_LAPACKE_dsytrs, LIB_LAPACKE,
-                                                     "LAPACKE_dsytrs"))(matrix_layout, uplo, n,
-                                                                        nrhs, a, lda, ipiv, b, ldb);
-}
-static void* slot_LAPACKE_zheev;
-lapack_int LAPACKE_zheev(int matrix_layout, char jobz, char uplo, lapack_int n,
-                         lapack_complex_double* a, lapack_int lda, double* w) {
-  return ((lapack_int(*)(int matrix_layout, char jobz, char uplo, lapack_int n,
-                         lapack_complex_double* a, lapack_int lda,
-                         double* w))lvsi_la_sym(&slot_LAPACKE_zheev, LIB_LAPACKE, "LAPACKE_zheev"))(
-      matrix_layout, jobz, uplo, n, a, lda, w);
-}
-static void* slot_LAPACKE_zheevd;
-lapack_int LAPACKE_zheevd(int matrix_layout, char jobz, char uplo, lapack_int n,
-                          lapack_complex_double* a, lapack_int lda, double* w) {
-  return ((lapack_int(*)(
-      int matrix_layout, char jobz, char uplo, lapack_int n, lapack_complex_double* a,
-      lapack_int lda, double* w))lvsi_la_sym(&slot_LAPACKE_zheevd, LIB_LAPACKE, "LAPACKE_zheevd"))(
-      matrix_layout, jobz, uplo, n, a, lda, w);
-}
-static void* slot_LAPACKE_zheevr;
-lapack_int LAPACKE_zheevr(int matrix_layout, char jobz, char range, char uplo, lapack_int n,
-                          lapack_complex_double* a, lapack_int lda, double vl, double vu,
-                          lapack_int il, lapack_int iu, double abstol, lapack_int* m, double* w,
-                          lapack_complex_double* z, lapack_int ldz, lapack_int* isuppz) {
-  return ((lapack_int(*)(
-      int matrix_layout, char jobz, char range, char uplo, lapack_int n, lapack_complex_double* a,
-      lapack_int lda, double vl, double vu, lapack_int il, lapack_int iu, double abstol,
-      lapack_int* m, double* w, lapack_complex_double* z, lapack_int ldz,
-      lapack_int* isuppz))lvsi_la_sym(&slot_LAPACKE_zheevr, LIB_LAPACKE, "LAPACKE_zheevr"))(
-      matrix_layout, jobz, range, uplo, n, a, lda, vl, vu, il, iu, abstol, m, w, z, ldz, isuppz);
-}
-static void* slot_cblas_dgemm;
-void cblas_dgemm(OPENBLAS_CONST enum CBLAS_ORDER Order, OPENBLAS_CONST enum CBLAS_TRANSPOSE TransA,
-                 OPENBLAS_CONST enum CBLAS_TRANSPOSE TransB, OPENBLAS_CONST blasint M,
-                 OPENBLAS_CONST blasint N, OPENBLAS_CONST blasint K, OPENBLAS_CONST double alpha,
-                 OPENBLAS_CONST double* A, OPENBLAS_CONST blasint lda, OPENBLAS_CONST double* B,
-                 OPENBLAS_CONST blasint ldb, OPENBLAS_CONST double beta, double* C,
-                 OPENBLAS_CONST blasint ldc) {
-  ((void (*)(OPENBLAS_CONST enum CBLAS_ORDER Order, OPENBLAS_CONST enum CBLAS_TRANSPOSE TransA,
-             OPENBLAS_CONST enum CBLAS_TRANSPOSE TransB, OPENBLAS_CONST blasint M,
-             OPENBLAS_CONST blasint N, OPENBLAS_CONST blasint K, OPENBLAS_CONST double alpha,
-             OPENBLAS_CONST double* A, OPENBLAS_CONST blasint lda, OPENBLAS_CONST double* B,
-             OPENBLAS_CONST blasint ldb, OPENBLAS_CONST double beta, double* C,
-             OPENBLAS_CONST blasint ldc))lvsi_la_sym(&slot_cblas_dgemm, LIB_BLAS, "cblas_dgemm"))(
-      Order, TransA, TransB, M, N, K, alpha, A, lda, B, ldb, beta, C, ldc);
-}
-static void* slot_cblas_dgemv;
-void cblas_dgemv(OPENBLAS_CONST enum CBLAS_ORDER order, OPENBLAS_CONST enum CBLAS_TRANSPOSE trans,
-                 OPENBLAS_CONST blasint m, OPENBLAS_CONST blasint n, OPENBLAS_CONST double alpha,
-                 OPENBLAS_CONST double* a, OPENBLAS_CONST blasint lda, OPENBLAS_CONST double* x,
-                 OPENBLAS_CONST blasint incx, OPENBLAS_CONST double beta, double* y,
-                 OPENBLAS_CONST blasint incy) {
-  ((void (*)(OPENBLAS_CONST enum CBLAS_ORDER order, OPENBLAS_CONST enum CBLAS_TRANSPOSE trans,
-             OPENBLAS_CONST blasint m, OPENBLAS_CONST blasint n, OPENBLAS_CONST double alpha,
-             OPENBLAS_CONST double* a, OPENBLAS_CONST blasint lda, OPENBLAS_CONST double* x,
-             OPENBLAS_CONST blasint incx, OPENBLAS_CONST double beta, double* y,
-             OPENBLAS_CONST blasint incy))lvsi_la_sym(&slot_cblas_dgemv, LIB_BLAS, "cblas_dgemv"))(
-      order, trans, m, n, alpha, a, lda, x, incx, beta, y, incy);
-}
-static void* slot_cblas_zgemm;
-void cblas_zgemm(OPENBLAS_CONST enum CBLAS_ORDER Order, OPENBLAS_CONST enum CBLAS_TRANSPOSE TransA,
-                 OPENBLAS_CONST enum CBLAS_TRANSPOSE TransB, OPENBLAS_CONST blasint M,
-                 OPENBLAS_CONST blasint N, OPENBLAS_CONST blasint K, OPENBLAS_CONST void* alpha,
-                 OPENBLAS_CONST void* A, OPENBLAS_CONST blasint lda, OPENBLAS_CONST void* B,
-                 OPENBLAS_CONST blasint ldb, OPENBLAS_CONST void* beta, void* C,
-                 OPENBLAS_CONST blasint ldc) {
-  ((void (*)(OPENBLAS_CONST enum CBLAS_ORDER Order, OPENBLAS_CONST enum CBLAS_TRANSPOSE TransA,
-             OPENBLAS_CONST enum CBLAS_TRANSPOSE TransB, OPENBLAS_CONST blasint M,
-             OPENBLAS_CONST blasint N, OPENBLAS_CONST blasint K, OPENBLAS_CONST void* alpha,
-             OPENBLAS_CONST void* A, OPENBLAS_CONST blasint lda, OPENBLAS_CONST void* B,
-             OPENBLAS_CONST blasint ldb, OPENBLAS_CONST void* beta, void* C,
-             OPENBLAS_CONST blasint ldc))lvsi_la_sym(&slot_cblas_zgemm, LIB_BLAS, "cblas_zgemm"))(
-      Order, TransA, TransB, M, N, K, alpha, A, lda, B, ldb, beta, C, ldc);
-}
-static void* slot_cblas_zgemv;
-void cblas_zgemv(OPENBLAS_CONST enum CBLAS_ORDER order, OPENBLAS_CONST enum CBLAS_TRANSPOSE trans,
-                 OPENBLAS_CONST blasint m, OPENBLAS_CONST blasint n, OPENBLAS_CONST void* alpha,
-                 OPENBLAS_CONST void* a, OPENBLAS_CONST blasint lda, OPENBLAS_CONST void* x,
-                 OPENBLAS_CONST blasint incx, OPENBLAS_CONST void* beta, void* y,
-                 OPENBLAS_CONST blasint incy) {
-  ((void (*)(OPENBLAS_CONST enum CBLAS_ORDER order, OPENBLAS_CONST enum CBLAS_TRANSPOSE trans,
-             OPENBLAS_CONST blasint m, OPENBLAS_CONST blasint n, OPENBLAS_CONST void* alpha,
-             OPENBLAS_CONST void* a, OPENBLAS_CONST blasint lda, OPENBLAS_CONST void* x,
-             OPENBLAS_CONST blasint incx, OPENBLAS_CONST void* beta, void* y,
-             OPENBLAS_CONST blasint incy))lvsi_la_sym(&slot_cblas_zgemv, LIB_BLAS, "cblas_zgemv"))(
-      order, trans, m, n, alpha, a, lda, x, incx, beta, y, incy);
-}
-static void* slot_LAPACKE_dgeqrf;
-lapack_int LAPACKE_dgeqrf(int matrix_layout, lapack_int m, lapack_int n, double* a, lapack_int lda,
-                          double* tau) {
-  return (
-      (lapack_int(*)(int matrix_layout, lapack_int m, lapack_int n, double* a, lapack_int lda,
-                     double* tau))lvsi_la_sym(&slot_LAPACKE_dgeqrf, LIB_LAPACKE, "LAPACKE_dgeqrf"))(
-      matrix_layout, m, n, a, lda, tau);
-}
-static void* slot_LAPACKE_dorgqr;
-lapack_int LAPACKE_dorgqr(int matrix_layout, lapack_int m, lapack_int n, lapack_int k, double* a,
-                          lapack_int lda, const double* tau) {
-  return ((lapack_int(*)(
-      int matrix_layout, lapack_int m, lapack_int n, lapack_int k, double* a, lapack_int lda,
-      const double* tau))lvsi_la_sym(&slot_LAPACKE_dorgqr, LIB_LAPACKE, "LAPACKE_dorgqr"))(
-      matrix_layout, m, n, k, a, lda, tau);
-}
+/* FWD(ret, name, (prototype), (arguments), library): a definition of name
+ * with the header's prototype that calls the loaded library's name */
+#define FWD(ret, name, params, args, lib)                                  \
+  static void *slot_##name;                                                \
+  ret name params {                                                        \
+    return ((ret(*) params)lvsi_la_sym(&slot_##name, lib, #name)) args;   \
+  }
+#define FWDV(name, params, args, lib)                                      \
+  static void *slot_##name;                                                \
+  void name params { ((void(*) params)lvsi_la_sym(&slot_##name, lib, #name)) args; }
+
+/* clang-format off */
+FWD(lapack_int, LAPACKE_dgbtrf_work, (int matrix_layout, lapack_int m, lapack_int n, lapack_int kl,
+    lapack_int ku, double* ab, lapack_int ldab, lapack_int* ipiv), (matrix_layout, m, n, kl, ku, ab,
+    ldab, ipiv), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dgbtrs_work, (int matrix_layout, char trans, lapack_int n, lapack_int kl,
+    lapack_int ku, lapack_int nrhs, const double* ab, lapack_int ldab, const lapack_int* ipiv,
+    double* b, lapack_int ldb), (matrix_layout, trans, n, kl, ku, nrhs, ab, ldab, ipiv, b, ldb),
+    LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dgeqrf, (int matrix_layout, lapack_int m, lapack_int n, double* a,
+    lapack_int lda, double* tau), (matrix_layout, m, n, a, lda, tau), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dgttrf, (lapack_int n, double* dl, double* d, double* du, double* du2,
+    lapack_int* ipiv), (n, dl, d, du, du2, ipiv), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dgttrs_work, (int matrix_layout, char trans, lapack_int n, lapack_int nrhs,
+    const double* dl, const double* d, const double* du, const double* du2, const lapack_int* ipiv,
+    double* b, lapack_int ldb), (matrix_layout, trans, n, nrhs, dl, d, du, du2, ipiv, b, ldb),
+    LIB_LAPACKE)
+FWD(double, LAPACKE_dlamch, (char cmach), (cmach), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dorgqr, (int matrix_layout, lapack_int m, lapack_int n, lapack_int k,
+    double* a, lapack_int lda, const double* tau), (matrix_layout, m, n, k, a, lda, tau),
+    LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dormtr, (int matrix_layout, char side, char uplo, char trans, lapack_int m,
+    lapack_int n, const double* a, lapack_int lda, const double* tau, double* c, lapack_int ldc),
+    (matrix_layout, side, uplo, trans, m, n, a, lda, tau, c, ldc), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dpbtrf_work, (int matrix_layout, char uplo, lapack_int n, lapack_int kd,
+    double* ab, lapack_int ldab), (matrix_layout, uplo, n, kd, ab, ldab), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dpbtrs_work, (int matrix_layout, char uplo, lapack_int n, lapack_int kd,
+    lapack_int nrhs, const double* ab, lapack_int ldab, double* b, lapack_int ldb), (matrix_layout,
+    uplo, n, kd, nrhs, ab, ldab, b, ldb), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dpttrf, (lapack_int n, double* d, double* e), (n, d, e), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dpttrs_work, (int matrix_layout, lapack_int n, lapack_int nrhs, const
+    double* d, const double* e, double* b, lapack_int ldb), (matrix_layout, n, nrhs, d, e, b, ldb),
+    LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsbevx, (int matrix_layout, char jobz, char range, char uplo, lapack_int n,
+    lapack_int kd, double* ab, lapack_int ldab, double* q, lapack_int ldq, double vl, double vu,
+    lapack_int il, lapack_int iu, double abstol, lapack_int* m, double* w, double* z, lapack_int
+    ldz, lapack_int* ifail), (matrix_layout, jobz, range, uplo, n, kd, ab, ldab, q, ldq, vl, vu, il,
+    iu, abstol, m, w, z, ldz, ifail), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsbtrd_work, (int matrix_layout, char vect, char uplo, lapack_int n,
+    lapack_int kd, double* ab, lapack_int ldab, double* d, double* e, double* q, lapack_int ldq,
+    double* work), (matrix_layout, vect, uplo, n, kd, ab, ldab, d, e, q, ldq, work), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dstebz, (char range, char order, lapack_int n, double vl, double vu,
+    lapack_int il, lapack_int iu, double abstol, const double* d, const double* e, lapack_int* m,
+    lapack_int* nsplit, double* w, lapack_int* iblock, lapack_int* isplit), (range, order, n, vl,
+    vu, il, iu, abstol, d, e, m, nsplit, w, iblock, isplit), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dstebz_work, (char range, char order, lapack_int n, double vl, double vu,
+    lapack_int il, lapack_int iu, double abstol, const double* d, const double* e, lapack_int* m,
+    lapack_int* nsplit, double* w, lapack_int* iblock, lapack_int* isplit, double* work, lapack_int*
+    iwork), (range, order, n, vl, vu, il, iu, abstol, d, e, m, nsplit, w, iblock, isplit, work,
+    iwork), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dstein, (int matrix_layout, lapack_int n, const double* d, const double* e,
+    lapack_int m, const double* w, const lapack_int* iblock, const lapack_int* isplit, double* z,
+    lapack_int ldz, lapack_int* ifailv), (matrix_layout, n, d, e, m, w, iblock, isplit, z, ldz,
+    ifailv), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsterf, (lapack_int n, double* d, double* e), (n, d, e), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dstevr, (int matrix_layout, char jobz, char range, lapack_int n, double* d,
+    double* e, double vl, double vu, lapack_int il, lapack_int iu, double abstol, lapack_int* m,
+    double* w, double* z, lapack_int ldz, lapack_int* isuppz), (matrix_layout, jobz, range, n, d, e,
+    vl, vu, il, iu, abstol, m, w, z, ldz, isuppz), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsyev, (int matrix_layout, char jobz, char uplo, lapack_int n, double* a,
+    lapack_int lda, double* w), (matrix_layout, jobz, uplo, n, a, lda, w), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsyevd, (int matrix_layout, char jobz, char uplo, lapack_int n, double* a,
+    lapack_int lda, double* w), (matrix_layout, jobz, uplo, n, a, lda, w), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsyevr, (int matrix_layout, char jobz, char range, char uplo, lapack_int n,
+    double* a, lapack_int lda, double vl, double vu, lapack_int il, lapack_int iu, double abstol,
+    lapack_int* m, double* w, double* z, lapack_int ldz, lapack_int* isuppz), (matrix_layout, jobz,
+    range, uplo, n, a, lda, vl, vu, il, iu, abstol, m, w, z, ldz, isuppz), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsygv, (int matrix_layout, lapack_int itype, char jobz, char uplo,
+    lapack_int n, double* a, lapack_int lda, double* b, lapack_int ldb, double* w), (matrix_layout,
+    itype, jobz, uplo, n, a, lda, b, ldb, w), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsytrd, (int matrix_layout, char uplo, lapack_int n, double* a, lapack_int
+    lda, double* d, double* e, double* tau), (matrix_layout, uplo, n, a, lda, d, e, tau),
+    LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsytrf, (int matrix_layout, char uplo, lapack_int n, double* a, lapack_int
+    lda, lapack_int* ipiv), (matrix_layout, uplo, n, a, lda, ipiv), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsytrs, (int matrix_layout, char uplo, lapack_int n, lapack_int nrhs, const
+    double* a, lapack_int lda, const lapack_int* ipiv, double* b, lapack_int ldb), (matrix_layout,
+    uplo, n, nrhs, a, lda, ipiv, b, ldb), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_zheev, (int matrix_layout, char jobz, char uplo, lapack_int n,
+    lapack_complex_double* a, lapack_int lda, double* w), (matrix_layout, jobz, uplo, n, a, lda, w),
+    LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_zheevd, (int matrix_layout, char jobz, char uplo, lapack_int n,
+    lapack_complex_double* a, lapack_int lda, double* w), (matrix_layout, jobz, uplo, n, a, lda, w),
+    LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_zheevr, (int matrix_layout, char jobz, char range, char uplo, lapack_int n,
+    lapack_complex_double* a, lapack_int lda, double vl, double vu, lapack_int il, lapack_int iu,
+    double abstol, lapack_int* m, double* w, lapack_complex_double* z, lapack_int ldz, lapack_int*
+    isuppz), (matrix_layout, jobz, range, uplo, n, a, lda, vl, vu, il, iu, abstol, m, w, z, ldz,
+    isuppz), LIB_LAPACKE)
+FWDV(cblas_dgemm, (OPENBLAS_CONST enum CBLAS_ORDER Order, OPENBLAS_CONST enum CBLAS_TRANSPOSE
+    TransA, OPENBLAS_CONST enum CBLAS_TRANSPOSE TransB, OPENBLAS_CONST blasint M, OPENBLAS_CONST
+    blasint N, OPENBLAS_CONST blasint K, OPENBLAS_CONST double alpha, OPENBLAS_CONST double *A,
+    OPENBLAS_CONST blasint lda, OPENBLAS_CONST double *B, OPENBLAS_CONST blasint ldb, OPENBLAS_CONST
+    double beta, double *C, OPENBLAS_CONST blasint ldc), (Order, TransA, TransB, M, N, K, alpha, A,
+    lda, B, ldb, beta, C, ldc), LIB_BLAS)
+FWDV(cblas_dgemv, (OPENBLAS_CONST enum CBLAS_ORDER order, OPENBLAS_CONST enum CBLAS_TRANSPOSE trans,
+    OPENBLAS_CONST blasint m, OPENBLAS_CONST blasint n, OPENBLAS_CONST double alpha, OPENBLAS_CONST
+    double *a, OPENBLAS_CONST blasint lda, OPENBLAS_CONST double *x, OPENBLAS_CONST blasint incx,
+    OPENBLAS_CONST double beta, double *y, OPENBLAS_CONST blasint incy), (order, trans, m, n, alpha,
+    a, lda, x, incx, beta, y, incy), LIB_BLAS)
+FWDV(cblas_zgemm, (OPENBLAS_CONST enum CBLAS_ORDER Order, OPENBLAS_CONST enum CBLAS_TRANSPOSE
+    TransA, OPENBLAS_CONST enum CBLAS_TRANSPOSE TransB, OPENBLAS_CONST blasint M, OPENBLAS_CONST
+    blasint N, OPENBLAS_CONST blasint K, OPENBLAS_CONST void *alpha, OPENBLAS_CONST void *A,
+    OPENBLAS_CONST blasint lda, OPENBLAS_CONST void *B, OPENBLAS_CONST blasint ldb, OPENBLAS_CONST
+    void *beta, void *C, OPENBLAS_CONST blasint ldc), (Order, TransA, TransB, M, N, K, alpha, A,
+    lda, B, ldb, beta, C, ldc), LIB_BLAS)
+FWDV(cblas_zgemv, (OPENBLAS_CONST enum CBLAS_ORDER order, OPENBLAS_CONST enum CBLAS_TRANSPOSE trans,
+    OPENBLAS_CONST blasint m, OPENBLAS_CONST blasint n, OPENBLAS_CONST void *alpha, OPENBLAS_CONST
+    void *a, OPENBLAS_CONST blasint lda, OPENBLAS_CONST void *x, OPENBLAS_CONST blasint incx,
+    OPENBLAS_CONST void *beta, void *y, OPENBLAS_CONST blasint incy), (order, trans, m, n, alpha, a,
+    lda, x, incx, beta, y, incy), LIB_BLAS)
+/* clang-format on */
