@@ -330,44 +330,35 @@ static int same_vis(const lvs_matrix *a, const lvs_matrix *b) {
          memcmp(a->vis, b->vis, a->n * sizeof(size_t)) == 0;
 }
 
-/* Embed plain q (n x n) into the padded space of p (zeros outside): dense
- * when q is dense (so products of dense operators stay on BLAS; a dense q
- * embedded as sparse made Q^T (H Q) with a padded H take 1 s at n = 800
- * instead of 20 ms), sparse otherwise. */
+/* Embed plain q (n x n) into the padded space of p (zeros outside), in q's
+ * storage: a dense q stays dense (products of dense operators stay on
+ * BLAS; a dense q embedded as sparse made Q^T (H Q) with a padded H take
+ * 1 s at n = 800 instead of 20 ms); a sparse q copies its stored entries
+ * (vis is ascending, so rows stay sorted). */
 static int embed_like(const lvs_matrix *p, const lvs_matrix *q, lvs_matrix **out) {
   lvs_matrix *c;
-  int st;
+  int st = lvsi_mat_alloc(p->ctx, p->rows, p->cols, q->cplx, q->sparse, q->sparse ? q->nnz : 0, &c);
+  if (st) return st;
   if (!q->sparse) {
-    if ((st = lvsi_mat_alloc(p->ctx, p->rows, p->cols, q->cplx, 0, 0, &c))) return st;
     size_t w = q->cplx ? 2 : 1;
     for (size_t j = 0; j < q->cols; j++)
       for (size_t i = 0; i < q->rows; i++)
         memcpy(c->a + w * (p->vis[i] + p->vis[j] * p->rows), q->a + w * (i + j * q->rows),
                w * sizeof(double));
-    c->slack = LVS_INF_SLACK;
-    c->band = (long)p->rows;
-    if ((st = lvsi_set_vis(c, p->n, p->vis))) {
-      lvs_matrix_free(c);
-      return st;
-    }
-    *out = c;
-    return LVS_OK;
-  }
-  st = lvsi_mat_alloc(p->ctx, p->rows, p->cols, q->cplx, 1, q->nnz, &c);
-  if (st) return st;
-  /* columns of q map to ascending stored columns vis[j] */
-  size_t qj = 0;
-  for (size_t j = 0; j < p->cols; j++) {
-    c->cp[j] = c->nnz;
-    if (qj < q->cols && p->vis[qj] == j) {
-      for (size_t i = 0; i < q->rows; i++) {
-        double complex v = lvsi_mat_at(q, i, qj);
-        if (v != 0.0 && (st = lvsi_csc_push(c, p->vis[i], v))) goto fail;
+  } else {
+    size_t qj = 0; /* columns of q map to ascending stored columns vis[j] */
+    for (size_t j = 0; j < p->cols; j++) {
+      c->cp[j] = c->nnz;
+      if (qj < q->cols && p->vis[qj] == j) {
+        for (size_t k = q->cp[qj]; k < q->cp[qj + 1]; k++) {
+          double complex v = sval(q, k);
+          if (v != 0.0 && (st = lvsi_csc_push(c, p->vis[q->ri[k]], v))) goto fail;
+        }
+        qj++;
       }
-      qj++;
     }
+    c->cp[p->cols] = c->nnz;
   }
-  c->cp[p->cols] = c->nnz;
   c->slack = LVS_INF_SLACK;
   c->band = (long)p->rows;
   if ((st = lvsi_set_vis(c, p->n, p->vis))) goto fail;

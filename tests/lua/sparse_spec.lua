@@ -54,4 +54,30 @@ describe("sparse storage", function()
     assert.are.equal("dense", ((A * A):storage()))
     assert.near((A * A):get(7, 9), 0.31 * 0.31, 1e-15)
   end)
+
+  -- a plain sparse op next to a padded one is embedded entry by entry; the
+  -- products must equal those with the padded op's plain visible block
+  -- (common practice: the same matrix product two ways)
+  it("multiplies a plain sparse op with a padded one as with its visible block", function()
+    local n = 40
+    local o = ls.oscillator(n)
+    local P = ls.zeros(n, n)
+    P:set(1, 3, 2)
+    P:set(5, 2, -1, 0.5)
+    P:set(40, 40, 3)
+    assert.are.equal("sparse", (P:storage()))
+    local plain = ls.zeros(n, n)
+    for i = 1, n do
+      for j = 1, n do plain:set(i, j, (o.x:get(i, j))) end
+    end
+    local A, B = o.x * P + P * o.x, plain * P + P * plain
+    for i = 1, n do
+      for j = 1, n do
+        local ar, ai = A:get(i, j)
+        local br, bi = B:get(i, j)
+        assert.are.equal(br, ar)
+        assert.are.equal(bi or 0, ai or 0)
+      end
+    end
+  end)
 end)
