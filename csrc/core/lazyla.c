@@ -9,8 +9,9 @@
  * header's own prototype (the compiler checks it), and forwards to the
  * real one, found with dlopen/dlsym by the library's SONAME (recorded at
  * configure time, LVS_LAPACKE_SONAME and LVS_BLAS_SONAME; the environment
- * variables LVS_LAPACKE and LVS_CBLAS override them) on the first call. Thread-safe: each library
- * is opened once (pthread_once), each symbol is published with an atomic store.
+ * variables LVS_LAPACKE and LVS_CBLAS override them) on the first call.
+ * Thread-safe: each library is opened once (pthread_once), each symbol is
+ * looked up once and published with an atomic store.
  *
  * A library that was present at build time but cannot be opened at run
  * time is a broken installation: like the dynamic loader at start-up, we
@@ -18,9 +19,9 @@
  *
  * To use another LAPACKE or CBLAS function in the core: add a FWD line
  * below with the prototype copied from lapacke.h or cblas.h (FWDV for a
- * void function); the compiler checks it against the header. These definitions
- * are hidden (CMAKE_C_VISIBILITY_PRESET), so they never interpose on the
- * loaded libraries' own calls. */
+ * void function); the compiler checks it against the header. These
+ * definitions are hidden (CMAKE_C_VISIBILITY_PRESET), so they never
+ * interpose on the loaded libraries' own calls. */
 #include <cblas.h>
 #include <dlfcn.h>
 #include <lapacke.h>
@@ -59,13 +60,13 @@ static void open_lib(int lib) {
 static void open_lapacke(void) { open_lib(LIB_LAPACKE); }
 static void open_blas(void) { open_lib(LIB_BLAS); }
 
-/* the library handle, opened on first use (NULL only for optional symbols) */
+/* the library handle, opened on first use */
 static void* lib_handle(int lib) {
   pthread_once(&once[lib], lib == LIB_LAPACKE ? open_lapacke : open_blas);
   return handles[lib];
 }
 
-static void* lvsi_la_sym(void** slot, int lib, const char* name) {
+static void* la_sym(void** slot, int lib, const char* name) {
   void* f = __atomic_load_n(slot, __ATOMIC_ACQUIRE);
   if (f) return f;
   f = dlsym(lib_handle(lib), name);
@@ -77,24 +78,38 @@ static void* lvsi_la_sym(void** slot, int lib, const char* name) {
   return f;
 }
 
+/* An optional BLAS symbol (OpenBLAS's extensions), looked up once; NULL
+ * when the loaded BLAS lacks it. */
+static void* const absent = (void*)&absent;
+static void* opt_sym(void** slot, const char* name) {
+  void* f = __atomic_load_n(slot, __ATOMIC_ACQUIRE);
+  if (!f) {
+    f = dlsym(lib_handle(LIB_BLAS), name);
+    if (!f) f = absent;
+    __atomic_store_n(slot, f, __ATOMIC_RELEASE);
+  }
+  return f == absent ? NULL : f;
+}
+static void *slot_get_threads, *slot_set_threads, *slot_pool_stop;
+
 /* OpenBLAS's thread count, for callers about to run BLAS inside their own
  * threads or on tiny matrices (loads the BLAS); 0 when the BLAS has no
  * such control. */
 int lvsi_blas_threads(void) {
-  int (*get)(void) = (int (*)(void))dlsym(lib_handle(LIB_BLAS), "openblas_get_num_threads");
+  int (*get)(void) = (int (*)(void))opt_sym(&slot_get_threads, "openblas_get_num_threads");
   return get ? get() : 0;
 }
 
 void lvsi_set_blas_threads(int n) {
   if (n < 1) return;
-  void (*set)(int) = (void (*)(int))dlsym(lib_handle(LIB_BLAS), "openblas_set_num_threads");
+  void (*set)(int) = (void (*)(int))opt_sym(&slot_set_threads, "openblas_set_num_threads");
   if (set) set(n);
 }
 
 /* Stops OpenBLAS's idle thread pool (it restarts on the next threaded
  * call); nothing with another BLAS. */
 void lvsi_blas_pool_stop(void) {
-  void (*stop)(void) = (void (*)(void))dlsym(lib_handle(LIB_BLAS), "blas_thread_shutdown_");
+  void (*stop)(void) = (void (*)(void))opt_sym(&slot_pool_stop, "blas_thread_shutdown_");
   if (stop) stop();
 }
 
@@ -113,11 +128,11 @@ void lvs_linalg(const char** lapacke, const char** cblas, int* blas_threads) {
 #define FWD(ret, name, params, args, lib)                                  \
   static void *slot_##name;                                                \
   ret name params {                                                        \
-    return ((ret(*) params)lvsi_la_sym(&slot_##name, lib, #name)) args;   \
+    return ((ret(*) params)la_sym(&slot_##name, lib, #name)) args;   \
   }
 #define FWDV(name, params, args, lib)                                      \
   static void *slot_##name;                                                \
-  void name params { ((void(*) params)lvsi_la_sym(&slot_##name, lib, #name)) args; }
+  void name params { ((void(*) params)la_sym(&slot_##name, lib, #name)) args; }
 
 /* clang-format off */
 FWD(lapack_int, LAPACKE_dgbtrf_work, (int matrix_layout, lapack_int m, lapack_int n, lapack_int kl,
