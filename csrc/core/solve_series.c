@@ -308,18 +308,13 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
   if (level == 0 && n > 1) {
     /* the Rayleigh quotient of any vector bounds the lowest eigenvalue from
      * above (common practice): the constant and the alternating vector
-     * cost one pass and, for a discretized kinetic energy, cut the
-     * Gershgorin interval by orders of magnitude (fewer Sturm passes) */
-    double rs = 0.0, ra = 0.0;
-    for (size_t i = 0; i < n; i++) {
-      rs += d[i];
-      ra += d[i];
-      if (i + 1 < n) {
-        rs += 2 * hb[2 * i + 1];
-        ra -= 2 * hb[2 * i + 1];
-      }
-    }
-    double rq = MIND(rs, ra) / (double)n + 1e-12 * scale;
+     * give (sum d +- 2 sum e) / n, the smaller (sum d - 2 |sum e|) / n; for
+     * a discretized kinetic energy this cuts the Gershgorin interval by
+     * orders of magnitude (fewer Sturm passes) */
+    double sd = 0.0, se = 0.0;
+    for (size_t i = 0; i < n; i++) sd += d[i];
+    for (size_t i = 0; i + 1 < n; i++) se += hb[2 * i + 1];
+    double rq = (sd - 2 * fabs(se)) / (double)n + 1e-12 * scale;
     if (rq < bb && rq > a) bb = rq;
   }
   size_t ca = 0, cb = n; /* Sturm counts at a and bb: ca <= level < cb (cb: at most) */
@@ -443,7 +438,8 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
       }
       if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-12 * scale)) polish = 1;
       rprev = r;
-      if (rho > a && rho < bb) sigma = rho; /* else keep the shift: inverse iteration inside the isolating interval */
+      /* outside the isolating interval, keep the shift (inverse iteration) */
+      if (rho > a && rho < bb) sigma = rho;
     }
     if (ok) {
       *E = rho;
@@ -476,6 +472,16 @@ static size_t count_below(const double *hb, size_t s, size_t t, double x) {
   return c;
 }
 
+/* Gershgorin's lower bound of the spectrum of tridiagonal block rows [s, t) */
+static double gershgorin_lo(const double *hb, size_t s, size_t t) {
+  double lo = INFINITY;
+  for (size_t i = s; i < t; i++) {
+    double el = i > s ? fabs(hb[2 * (i - 1) + 1]) : 0.0, er = i + 1 < t ? fabs(hb[2 * i + 1]) : 0.0;
+    lo = MIND(lo, hb[2 * i] - el - er);
+  }
+  return lo;
+}
+
 /* Eigenpair `level` of a tridiagonal H0. For the lowest level of an H0
  * that splits into blocks (symmetry sectors), each block is asked with one
  * Sturm count whether it has anything below the best value so far, so
@@ -495,14 +501,10 @@ static int tridiag_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t level, 
     size_t t = s;
     while (t + 1 < n && hb[2 * t + 1] != 0.0) t++;
     t++; /* block [s, t) */
-    /* Gershgorin's lower bound of the block first: a block that starts
-     * above the best level so far needs no Sturm count */
-    double glo = INFINITY;
-    for (size_t i = s; i < t; i++) {
-      double el = i > s ? fabs(hb[2 * (i - 1) + 1]) : 0.0, er = i + 1 < t ? fabs(hb[2 * i + 1]) : 0.0;
-      glo = MIND(glo, hb[2 * i] - el - er);
-    }
-    if (best == INFINITY || (glo <= best + tau && count_below(hb, s, t, best + tau) > 0)) {
+    /* after the first block: one whose Gershgorin lower bound lies above
+     * the best level so far needs no Sturm count */
+    if (best == INFINITY ||
+        (gershgorin_lo(hb, s, t) <= best + tau && count_below(hb, s, t, best + tau) > 0)) {
       double e;
       int st = tridiag_range(ctx, hb + 2 * s, t - s, 0, &e, vec + s);
       if (st) return st;
@@ -627,6 +629,15 @@ static int find_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t b, size_t 
   return LVS_OK;
 }
 
+/* keeps the largest |upper - lower| difference and where it is */
+static void note_pair(double diff, size_t i, size_t j, double *worst, size_t *wi, size_t *wj) {
+  if (diff > *worst) {
+    *worst = diff;
+    *wi = i;
+    *wj = j;
+  }
+}
+
 /* Symmetry and finiteness of H from its lower band hb and its upper
  * entries, in O(n b) (the generic check searches every transposed entry).
  * Each stored upper entry H(i, j), i < j, is compared with hb's H(j, i);
@@ -652,23 +663,15 @@ static int band_check(lvs_ctx *ctx, const lvs_matrix *h, size_t b, const double 
     if (h->sparse) {
       for (size_t k = h->cp[j]; k < h->cp[j + 1] && h->ri[k] < j; k++) {
         size_t i = h->ri[k]; /* H(i, j) above the diagonal, within the band */
-        double low = hb[(j - i) + i * ld], diff = fabs(h->a[k] - low);
+        double low = hb[(j - i) + i * ld];
         matched_cnt += low != 0.0;
-        if (diff > worst) {
-          worst = diff;
-          wi = i;
-          wj = j;
-        }
+        note_pair(fabs(h->a[k] - low), i, j, &worst, &wi, &wj);
       }
     } else {
       for (size_t i = j >= b ? j - b : 0; i < j; i++) {
-        double low = hb[(j - i) + i * ld], diff = fabs(h->a[i + j * n] - low);
+        double low = hb[(j - i) + i * ld];
         matched_cnt += low != 0.0;
-        if (diff > worst) {
-          worst = diff;
-          wi = i;
-          wj = j;
-        }
+        note_pair(fabs(h->a[i + j * n] - low), i, j, &worst, &wi, &wj);
       }
     }
   }
@@ -679,14 +682,8 @@ static int band_check(lvs_ctx *ctx, const lvs_matrix *h, size_t b, const double 
       for (size_t k = h->cp[j]; k < h->cp[j + 1] && h->ri[k] < j; k++)
         ub[(j - h->ri[k]) + h->ri[k] * ld] = h->a[k];
     for (size_t i = 0; i < n; i++)
-      for (size_t d = 1; d <= b && i + d < n; d++) {
-        double diff = fabs(ub[d + i * ld] - hb[d + i * ld]); /* H(i, i+d) vs H(i+d, i) */
-        if (diff > worst) {
-          worst = diff;
-          wi = i;
-          wj = i + d;
-        }
-      }
+      for (size_t d = 1; d <= b && i + d < n; d++) /* H(i, i+d) vs H(i+d, i) */
+        note_pair(fabs(ub[d + i * ld] - hb[d + i * ld]), i, i + d, &worst, &wi, &wj);
     lvsi_free(ctx, ub);
   }
   if (worst > LVS_DEFAULT_HERM_TOL * (scale > 0 ? scale : 1.0))
