@@ -1,15 +1,10 @@
 -- The levelshift program: scripts, -e, parameters, errors.
 local bin = os.getenv("LVS_BIN") or "build/levelshift"
 
-local function run(args)
-  local f = io.popen(bin .. " " .. args .. " 2>&1; echo \"rc=$?\"")
-  local out = f:read("a")
-  f:close()
-  return out
-end
-
-local function run_env(env, args)
-  local f = io.popen(env .. bin .. " " .. args .. " 2>&1; echo \"rc=$?\"")
+-- runs the program with args (and environment assignments `env`, e.g.
+-- "NAME=value "); stdout and stderr, then "rc=<exit status>"
+local function run(args, env)
+  local f = io.popen((env or "") .. bin .. " " .. args .. " 2>&1; echo \"rc=$?\"")
   local out = f:read("a")
   f:close()
   return out
@@ -37,17 +32,17 @@ describe("levelshift program", function()
       .. "local l = ls.linalg(); print(before, l.lapacke, l.cblas, math.type(l.blas_threads))"
     local out = run("-e \"" .. probe .. "\"")
     assert.truthy(out:find("false\tliblapacke.so.3\tlibopenblas.so.0\tinteger", 1, true), out)
-    out = run_env("LVS_CBLAS=/nonexistent/libcblas-missing.so ", "-e 'ls.linalg()'")
+    out = run("-e 'ls.linalg()'", "LVS_CBLAS=/nonexistent/libcblas-missing.so ")
     assert.truthy(out:find("cannot load /nonexistent/libcblas-missing.so", 1, true), out)
     assert.truthy(out:find("rc=127", 1, true), out)
     assert.truthy(run("-e 'ls.linalg(1)'"):find("ls.linalg takes no arguments", 1, true))
   end)
   it("names a LAPACKE it cannot open and exits with 127", function()
     local env = "LVS_LAPACKE=/nonexistent/liblapacke-missing.so "
-    local out = run_env(env, "-e 'print(ls.clock() >= 0)'")
+    local out = run("-e 'print(ls.clock() >= 0)'", env)
     assert.truthy(out:find("true", 1, true), out)
     assert.truthy(out:find("rc=0", 1, true), out)
-    out = run_env(env, "-e 'ls.eigen(ls.matrix{{2, 1}, {1, 2}})'")
+    out = run("-e 'ls.eigen(ls.matrix{{2, 1}, {1, 2}})'", env)
     assert.truthy(out:find("cannot load /nonexistent/liblapacke-missing.so", 1, true), out)
     assert.truthy(out:find("rc=127", 1, true), out)
   end)
