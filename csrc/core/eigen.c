@@ -75,39 +75,18 @@ static int eigen_blocks(const lvs_matrix *a, const size_t *comp, size_t nb, size
     goto done;
   }
   for (size_t i = 0; i < n; i++) loc[i] = size[comp[i]]++;
-  if (nb == n) { /* diagonal: every block is one state; no LAPACK calls */
+  int diag = nb == n; /* every block is one state: no LAPACK calls */
+  if (diag) {
     if (!(rec = lvsi_malloc(ctx, n * sizeof(evrec)))) {
       st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
       goto done;
     }
     for (size_t i = 0; i < n; i++) rec[comp[i]] = (evrec){0.0, comp[i], 0};
-    for (size_t j = 0; j < n; j++) {
-      size_t k0 = a->sparse ? a->cp[j] : 0, k1 = a->sparse ? a->cp[j + 1] : n;
-      for (size_t k = k0; k < k1; k++) {
-        size_t i = a->sparse ? a->ri[k] : k;
-        double complex v = entry_at(a, a->sparse ? k : i + j * n);
-        if (v == 0.0) continue;
-        if (i != j) {
-          st = lvsi_fail(ctx, LVS_EINVAL, "entry (%zu, %zu) = %.3g couples two blocks", i + 1, j + 1,
-                         cabs(v));
-          goto done;
-        }
-        rec[comp[i]].w = creal(v);
-      }
-    }
-    qsort(rec, n, sizeof(evrec), cmp_evrec);
-    for (size_t k = 0; k < count; k++) w[k] = rec[k].w;
-    if (want) {
-      if ((st = lvsi_mat_alloc(ctx, n, count, a->cplx, 0, 0, &z))) goto done;
-      for (size_t i = 0; i < n; i++) loc[comp[i]] = i; /* block -> state */
-      for (size_t k = 0; k < count; k++) z->a[(a->cplx ? 2 : 1) * (loc[rec[k].blk] + k * n)] = 1.0;
-      *vecs = z;
-      z = NULL;
-    }
-    goto done;
+  } else {
+    for (size_t b = 0; b < nb; b++)
+      if ((st = lvsi_mat_alloc(ctx, size[b], size[b], a->cplx, 0, 0, &blk[b]))) goto done;
   }
-  for (size_t b = 0; b < nb; b++)
-    if ((st = lvsi_mat_alloc(ctx, size[b], size[b], a->cplx, 0, 0, &blk[b]))) goto done;
+  /* scatter the entries into their blocks; an entry between two is an error */
   for (size_t j = 0; j < n; j++) {
     size_t k0 = a->sparse ? a->cp[j] : 0, k1 = a->sparse ? a->cp[j + 1] : n;
     for (size_t k = k0; k < k1; k++) {
@@ -119,6 +98,10 @@ static int eigen_blocks(const lvs_matrix *a, const size_t *comp, size_t nb, size
                        cabs(v));
         goto done;
       }
+      if (diag) {
+        rec[comp[i]].w = creal(v);
+        continue;
+      }
       lvs_matrix *m = blk[comp[j]];
       size_t p = loc[i] + loc[j] * m->rows;
       if (m->cplx) {
@@ -128,6 +111,18 @@ static int eigen_blocks(const lvs_matrix *a, const size_t *comp, size_t nb, size
         m->a[p] = creal(v);
       }
     }
+  }
+  if (diag) {
+    qsort(rec, n, sizeof(evrec), cmp_evrec);
+    for (size_t k = 0; k < count; k++) w[k] = rec[k].w;
+    if (want) {
+      if ((st = lvsi_mat_alloc(ctx, n, count, a->cplx, 0, 0, &z))) goto done;
+      for (size_t i = 0; i < n; i++) loc[comp[i]] = i; /* block -> state */
+      for (size_t k = 0; k < count; k++) z->a[(a->cplx ? 2 : 1) * (loc[rec[k].blk] + k * n)] = 1.0;
+      *vecs = z;
+      z = NULL;
+    }
+    goto done;
   }
   size_t total = 0;
   for (size_t b = 0; b < nb; b++) {
