@@ -627,10 +627,10 @@ static void head_bytes(const journal *j, unsigned char *b) {
   put64(b + 40, j->hash);
 }
 
-static int read_full(int fd, void *buf, size_t len, off_t off) {
-  unsigned char *c = buf;
+/* pread or pwrite all len bytes at off (retrying after signals); 0 or -1 */
+static int io_full(int fd, unsigned char *c, size_t len, off_t off, int writing) {
   while (len) {
-    ssize_t r = pread(fd, c, len, off);
+    ssize_t r = writing ? pwrite(fd, c, len, off) : pread(fd, c, len, off);
     if (r < 0 && errno == EINTR) continue;
     if (r <= 0) return -1;
     c += r;
@@ -640,17 +640,10 @@ static int read_full(int fd, void *buf, size_t len, off_t off) {
   return 0;
 }
 
+static int read_full(int fd, void *buf, size_t len, off_t off) { return io_full(fd, buf, len, off, 0); }
+
 static int write_full(int fd, const void *buf, size_t len, off_t off) {
-  const unsigned char *c = buf;
-  while (len) {
-    ssize_t r = pwrite(fd, c, len, off);
-    if (r < 0 && errno == EINTR) continue;
-    if (r <= 0) return -1;
-    c += r;
-    len -= (size_t)r;
-    off += r;
-  }
-  return 0;
+  return io_full(fd, (unsigned char *)buf, len, off, 1); /* pwrite only reads it */
 }
 
 static char *dupstr(lvs_ctx *ctx, const char *s) {
