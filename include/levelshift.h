@@ -535,7 +535,7 @@ LVS_API size_t lvs_dlseries_dim(const lvs_dlseries *s);
 LVS_API int lvs_dlseries_order(const lvs_dlseries *s);
 LVS_API size_t lvs_dlseries_band(const lvs_dlseries *s);    /* bandwidth of H0 used */
 LVS_API double lvs_dlseries_gap(const lvs_dlseries *s);     /* to nearest level (bands wider than 1); else NAN */
-LVS_API const char *lvs_dlseries_solver(const lvs_dlseries *s); /* "dpttrf", "dgbtrf", ... */
+LVS_API const char *lvs_dlseries_solver(const lvs_dlseries *s); /* "twisted", "dgttrf", "dgbtrf", ... */
 LVS_API int lvs_dlseries_energy(const lvs_dlseries *s, int k, double *e); /* k = 0..order */
 LVS_API const double *lvs_dlseries_state(const lvs_dlseries *s, int k);  /* BORROWED, n values; NULL if k >= order */
 /* sum_k lambda^k E(k) through order (order < 0: all) */

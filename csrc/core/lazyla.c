@@ -162,10 +162,6 @@ FWD(lapack_int, LAPACKE_dpbtrf_work, (int matrix_layout, char uplo, lapack_int n
 FWD(lapack_int, LAPACKE_dpbtrs_work, (int matrix_layout, char uplo, lapack_int n, lapack_int kd,
     lapack_int nrhs, const double* ab, lapack_int ldab, double* b, lapack_int ldb), (matrix_layout,
     uplo, n, kd, nrhs, ab, ldab, b, ldb), LIB_LAPACKE)
-FWD(lapack_int, LAPACKE_dpttrf, (lapack_int n, double* d, double* e), (n, d, e), LIB_LAPACKE)
-FWD(lapack_int, LAPACKE_dpttrs_work, (int matrix_layout, lapack_int n, lapack_int nrhs, const
-    double* d, const double* e, double* b, lapack_int ldb), (matrix_layout, n, nrhs, d, e, b, ldb),
-    LIB_LAPACKE)
 FWD(lapack_int, LAPACKE_dsbevx, (int matrix_layout, char jobz, char range, char uplo, lapack_int n,
     lapack_int kd, double* ab, lapack_int ldab, double* q, lapack_int ldq, double vl, double vu,
     lapack_int il, lapack_int iu, double abstol, lapack_int* m, double* w, double* z, lapack_int

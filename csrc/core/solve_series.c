@@ -11,14 +11,14 @@
  * one-element shift of METHODS.md 1(a): M = H0 - E_n + sigma e_p e_p^T,
  * p = argmax |n_p|, sigma = max_i |H0_ii - E_n|; then M y = -Q rhs has
  * y_p = 0 and (H0 - E_n) y = -Q rhs exactly, and psi(k) = y - n (n.y).
- * M keeps the band of H0, so it is factored once (dpttrf for a
+ * M keeps the band of H0, so it is factored once (a twisted L D L^T for a
  * tridiagonal M that is positive definite, as it is for the lowest level;
  * dgttrf otherwise; dpbtrf/dgbtrf for wider bands) and each order costs one
  * O(n b) solve plus one product with V (sparse).
  *
- * The eigenpair is computed when not given: dstevr (tridiagonal, subset),
- * or dsbevx (values only) plus inverse iteration for a wider band. Real
- * symmetric H0 and V only. */
+ * The eigenpair is computed when not given: Sturm-count multisection and
+ * Rayleigh-quotient iteration (tridiagonal), or dsbevx (values only) plus
+ * inverse iteration for a wider band. Real symmetric H0 and V only. */
 #include <lapacke.h>
 #include <math.h>
 #include <stdlib.h>
@@ -39,10 +39,19 @@ struct lvs_dlseries {
   const char *solver;
 };
 
+/* four partial sums: the additions pipeline (one chain would wait for
+ * each) */
 static double dot(size_t n, const double *x, const double *y) {
-  double s = 0.0;
-  for (size_t i = 0; i < n; i++) s += x[i] * y[i];
-  return s;
+  double s0 = 0.0, s1 = 0.0, s2 = 0.0, s3 = 0.0;
+  size_t i = 0;
+  for (; i + 4 <= n; i += 4) {
+    s0 += x[i] * y[i];
+    s1 += x[i + 1] * y[i + 1];
+    s2 += x[i + 2] * y[i + 2];
+    s3 += x[i + 3] * y[i + 3];
+  }
+  for (; i < n; i++) s0 += x[i] * y[i];
+  return (s0 + s1) + (s2 + s3);
 }
 
 void lvs_dlseries_free(lvs_dlseries *s) {
@@ -109,10 +118,84 @@ static void band_apply(size_t n, size_t b, const double *ab, const double *x, do
     }
 }
 
+/* Twisted factorization T - sigma = N D N^T of the symmetric tridiagonal
+ * T = (d, e[i * es]) at the middle row t: rows [0, t) are eliminated
+ * top-down and rows (t, m) bottom-up, two independent chains interleaved so
+ * that their divisions overlap (Parlett & Dhillon, Linear Algebra Appl.
+ * 309, 121 (2000)). piv gets the pivots (piv[t] the twist pivot), mult the
+ * multipliers (top: mult[i] = e[i]/piv[i], i < t; bottom: mult[i] =
+ * e[i]/piv[i+1], i >= t). No pivoting; a pivot smaller than tiny in
+ * magnitude is replaced by -tiny (tiny > 0 for inverse iteration, where a
+ * shift can sit on an eigenvalue; 0 for a factorization that must be
+ * exact). piv may be d (in place). Returns the number of pivots that are not
+ * positive: 0 exactly when T - sigma is positive definite (N D N^T is a
+ * congruence, Sylvester's law of inertia); then the factorization is as
+ * stable as Cholesky's (both sides are, and the twist pivot is a Schur
+ * complement of a positive definite matrix). Any m >= 1. */
+static size_t twisted_factor(size_t m, const double *d, const double *e, size_t es, double sigma,
+                             double tiny, double *piv, double *mult) {
+#define GUARD(x) (fabs(x) < tiny ? -tiny : (x))
+  size_t t = m / 2, nb = m - 1 - t; /* t top rows, nb (<= t) bottom rows */
+  size_t bad = 0;
+  if (t > 0) piv[0] = GUARD(d[0] - sigma);
+  if (nb > 0) piv[m - 1] = GUARD(d[m - 1] - sigma);
+  size_t j = 1;
+  for (; j < nb; j++) { /* row j from the top, row i = m-1-j from the bottom */
+    size_t i = m - 1 - j;
+    double et = e[(j - 1) * es], eb = e[i * es];
+    double lt = et / piv[j - 1], lb = eb / piv[i + 1];
+    mult[j - 1] = lt;
+    mult[i] = lb;
+    piv[j] = GUARD((d[j] - sigma) - lt * et);
+    piv[i] = GUARD((d[i] - sigma) - lb * eb);
+  }
+  for (; j < t; j++) { /* at most one more top row */
+    double et = e[(j - 1) * es], lt = et / piv[j - 1];
+    mult[j - 1] = lt;
+    piv[j] = GUARD((d[j] - sigma) - lt * et);
+  }
+  double g = d[t] - sigma;
+  if (t > 0) {
+    double et = e[(t - 1) * es];
+    mult[t - 1] = et / piv[t - 1];
+    g -= mult[t - 1] * et;
+  }
+  if (nb > 0) {
+    double eb = e[t * es];
+    mult[t] = eb / piv[t + 1];
+    g -= mult[t] * eb;
+  }
+  piv[t] = GUARD(g);
+#undef GUARD
+  for (size_t i = 0; i < m; i++) bad += !(piv[i] > 0);
+  return bad;
+}
+
+/* Solves N D N^T x = b in place (v holds b on entry, x on return) with the
+ * factors of twisted_factor: elimination towards the twist row from both
+ * ends, the twist row, substitution outward (two chains each). */
+static void twisted_subst(size_t m, const double *piv, const double *mult, double *v) {
+  size_t t = m / 2, nb = m - 1 - t, j = 1;
+  for (; j < nb; j++) {
+    v[j] -= mult[j - 1] * v[j - 1];
+    v[m - 1 - j] -= mult[m - 1 - j] * v[m - j];
+  }
+  for (; j < t; j++) v[j] -= mult[j - 1] * v[j - 1];
+  double r = v[t];
+  if (t > 0) r -= mult[t - 1] * v[t - 1];
+  if (nb > 0) r -= mult[t] * v[t + 1];
+  v[t] = r / piv[t];
+  for (j = 1; j <= nb; j++) { /* rows t-j and t+j */
+    v[t - j] = v[t - j] / piv[t - j] - mult[t - j] * v[t - j + 1];
+    v[t + j] = v[t + j] / piv[t + j] - mult[t + j - 1] * v[t + j - 1];
+  }
+  if (t > nb) v[0] = v[0] / piv[0] - mult[0] * v[1];
+}
+
 /* The factored shifted matrix M = H0 - E + sigma e_p e_p^T. */
 typedef struct {
   size_t n, b;
-  int kind; /* 0 diagonal, 1 dpt, 2 dgt, 3 dpb, 4 dgb */
+  int kind; /* 0 diagonal, 1 twisted, 2 dgt, 3 dpb, 4 dgb */
   double *d, *e, *dl, *du, *du2, *ab;
   lapack_int *ipiv;
 } shifted;
@@ -151,11 +234,11 @@ static int shifted_factor(lvs_ctx *ctx, const double *hb, size_t n, size_t b, do
     if (!m->d || !m->e) goto nomem;
     for (size_t i = 0; i < n; i++) m->d[i] = hb[i * ld] - E;
     m->d[p] += sigma;
-    for (size_t i = 0; i + 1 < n; i++) m->e[i] = hb[1 + i * ld];
-    info = LAPACKE_dpttrf(N, m->d, m->e);
-    if (info == 0) {
+    /* positive definite (the lowest level): the twisted L D L^T, two
+     * chains (half the latency of dpttrf's one) */
+    if (twisted_factor(n, m->d, hb + 1, ld, 0.0, 0.0, m->d, m->e) == 0) {
       m->kind = 1;
-      *solver = "dpttrf";
+      *solver = "twisted";
       return LVS_OK;
     }
     /* not positive definite (not the lowest level): LU with pivoting */
@@ -223,7 +306,7 @@ static int shifted_solve(lvs_ctx *ctx, const shifted *m, double *x) {
     case 0:
       for (size_t i = 0; i < m->n; i++) x[i] /= m->d[i];
       return LVS_OK;
-    case 1: info = LAPACKE_dpttrs_work(LAPACK_COL_MAJOR, N, 1, m->d, m->e, x, N); break;
+    case 1: twisted_subst(m->n, m->d, m->e, x); return LVS_OK;
     case 2:
       info = LAPACKE_dgttrs_work(LAPACK_COL_MAJOR, 'N', N, 1, m->dl, m->d, m->du, m->du2, m->ipiv, x, N);
       break;
@@ -247,37 +330,79 @@ static int cmp_double(const void *x, const void *y) {
 
 
 /* Sturm counts of the symmetric tridiagonal (d, e2 = squared off-diagonal)
- * at LANES shifts at once: cnt[k] = number of eigenvalues below x[k]
- * (source: common practice, the LDL^T negative-pivot count as in LAPACK's
- * dlaebz). The lanes are independent chains, so the divisions pipeline. */
+ * at LANES shifts at once: cnt[k] = number of eigenvalues below x[k].
+ * The count is the number of negative pivots of a factorization of
+ * T - x (source: common practice, as in LAPACK's dlaebz), here of the
+ * twisted one T - x = N D N^T at the middle row t: pivots top-down for
+ * rows [0, t), bottom-up for rows (t, n), and the twist pivot at t; N D N^T
+ * is a congruence, so by Sylvester's law of inertia its negative count is
+ * the count below x (twisted factorizations: Parlett & Dhillon, Linear
+ * Algebra Appl. 309, 121 (2000)). The two halves and the lanes are
+ * independent chains, so the divisions pipeline. A pivot smaller than
+ * pivmin is replaced by -pivmin, as in dlaebz. */
 #define LANES 8
 #if defined(__x86_64__) && defined(__GNUC__) && !defined(__clang__)
 __attribute__((target_clones("avx2", "default")))
 #endif
 static void sturm(size_t n, const double *d, const double *e2, double pivmin, const double *x,
                   size_t *cnt) {
-  double q[LANES], c[LANES]; /* counts as doubles: the loop vectorizes */
+  /* counts as doubles: the loops vectorize */
+  double qt[LANES], qb[LANES], c[LANES];
+  size_t t = n / 2, nb = n - 1 - t; /* t top steps (rows 0..t-1), nb bottom steps */
   for (int k = 0; k < LANES; k++) {
-    q[k] = d[0] - x[k];
-    if (fabs(q[k]) < pivmin) q[k] = -pivmin;
-    c[k] = q[k] < 0 ? 1.0 : 0.0;
+    qt[k] = qb[k] = 1.0;
+    c[k] = 0.0;
   }
-  for (size_t i = 1; i < n; i++) {
-    double di = d[i], ei = e2[i - 1];
+  if (t > 0)
     for (int k = 0; k < LANES; k++) {
-      double t = (di - x[k]) - ei / q[k];
-      t = fabs(t) < pivmin ? -pivmin : t;
-      q[k] = t;
-      c[k] += t < 0 ? 1.0 : 0.0;
+      double v = d[0] - x[k];
+      qt[k] = fabs(v) < pivmin ? -pivmin : v;
+      c[k] += qt[k] < 0 ? 1.0 : 0.0;
     }
+  if (nb > 0)
+    for (int k = 0; k < LANES; k++) {
+      double v = d[n - 1] - x[k];
+      qb[k] = fabs(v) < pivmin ? -pivmin : v;
+      c[k] += qb[k] < 0 ? 1.0 : 0.0;
+    }
+  size_t j = 1;
+  for (; j < nb; j++) { /* row j from the top and row n-1-j from the bottom */
+    size_t i = n - 1 - j;
+    double dt = d[j], et = e2[j - 1], db = d[i], eb = e2[i];
+    for (int k = 0; k < LANES; k++) {
+      double u = (dt - x[k]) - et / qt[k];
+      double v = (db - x[k]) - eb / qb[k];
+      u = fabs(u) < pivmin ? -pivmin : u;
+      v = fabs(v) < pivmin ? -pivmin : v;
+      qt[k] = u;
+      qb[k] = v;
+      c[k] += (u < 0 ? 1.0 : 0.0) + (v < 0 ? 1.0 : 0.0);
+    }
+  }
+  for (; j < t; j++) { /* at most one more top row (n even) */
+    double dt = d[j], et = e2[j - 1];
+    for (int k = 0; k < LANES; k++) {
+      double u = (dt - x[k]) - et / qt[k];
+      u = fabs(u) < pivmin ? -pivmin : u;
+      qt[k] = u;
+      c[k] += u < 0 ? 1.0 : 0.0;
+    }
+  }
+  for (int k = 0; k < LANES; k++) { /* the twist pivot */
+    double g = d[t] - x[k];
+    if (t > 0) g -= e2[t - 1] / qt[k];
+    if (nb > 0) g -= e2[t] / qb[k];
+    g = fabs(g) < pivmin ? -pivmin : g;
+    c[k] += g < 0 ? 1.0 : 0.0;
   }
   for (int k = 0; k < LANES; k++) cnt[k] = (size_t)c[k];
 }
 
 /* Eigenpair number `level` (0-based) of a symmetric tridiagonal matrix (hb:
  * lower band storage, ld 2): multisection with Sturm counts until the
- * eigenvalue is alone in [a, b], then Rayleigh-quotient iteration with LU
- * solves (dgttrf/dgttrs), accepted only when the quotient lands in [a, b].
+ * eigenvalue is alone in [a, b], then Rayleigh-quotient iteration with
+ * twisted solves, accepted only when the quotient lands in [a, b] (to a few
+ * rounding units of the spectral scale).
  * Source: common practice (Parlett, The Symmetric Eigenvalue Problem,
  * 1980, ch. 4-5, mem). Fails with LVS_EINVAL when the level cannot be
  * separated from a neighbour within 1e-10 of the spectral scale. */
@@ -286,9 +411,10 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
   int st = LVS_OK;
   double *d = lvsi_malloc(ctx, n * sizeof(double));
   double *e2 = lvsi_malloc(ctx, n * sizeof(double));
+  double *e = lvsi_malloc(ctx, n * sizeof(double));
   double *dl = lvsi_malloc(ctx, n * sizeof(double));
   double *dd = lvsi_malloc(ctx, n * sizeof(double));
-  if (!d || !e2 || !dl || !dd) {
+  if (!d || !e2 || !e || !dl || !dd) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory finding the unperturbed level");
     goto done;
   }
@@ -296,7 +422,10 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
   for (size_t i = 0; i < n; i++) {
     d[i] = hb[2 * i];
     double el = i > 0 ? fabs(hb[2 * (i - 1) + 1]) : 0.0, er = i + 1 < n ? fabs(hb[2 * i + 1]) : 0.0;
-    if (i + 1 < n) e2[i] = hb[2 * i + 1] * hb[2 * i + 1];
+    if (i + 1 < n) {
+      e[i] = hb[2 * i + 1];
+      e2[i] = e[i] * e[i];
+    }
     lo = MIND(lo, d[i] - el - er);
     hi = MAXD(hi, d[i] + el + er);
     emax = MAXD(emax, er);
@@ -385,55 +514,51 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
       }
       comp_found = 1;
     }
-    size_t m = s1 - s0;
     /* Rayleigh-quotient iteration from the middle of [a, bb] */
+    size_t m = s1 - s0;
+    double *vs = vec + s0;
+    const double *ds = d + s0, *es = e + s0;
     double sigma = 0.5 * (a + bb);
     memset(vec, 0, n * sizeof(double));
-    for (size_t i = s0; i < s1; i++) vec[i] = 1.0 + 1e-3 * (double)(i % 7);
+    for (size_t i = 0; i < m; i++) vs[i] = 1.0 + 1e-3 * (double)((s0 + i) % 7);
     double rho = sigma, rprev = INFINITY;
-    int polish = 0;
-    const double eps = 2.220446049250313e-16;
-    int ok = 0;
+    const double eps = 2.220446049250313e-16, tiny = eps * scale, tol = 4 * eps * scale;
+    int polish = 0, ok = 0;
     for (int it = 0; it < 10; it++) {
-      double *vs = vec + s0;
-      const double *ds = d + s0, *es = hb + 2 * s0 + 1; /* off-diagonal es[2 i] */
-      /* (T - sigma) = L D L^T without pivoting, fused with the forward
-       * substitution: inverse iteration tolerates the element growth, and a
-       * tiny pivot is replaced by pivmin as in the Sturm count (source:
-       * common practice, cf. LAPACK dlar1v) */
-      double piv = ds[0] - sigma;
-      if (fabs(piv) < pivmin) piv = -pivmin;
-      dd[0] = piv;
-      for (size_t i = 1; i < m; i++) {
-        double e = es[2 * (i - 1)], l = e / dd[i - 1];
-        dl[i - 1] = l;
-        piv = (ds[i] - sigma) - l * e;
-        if (fabs(piv) < pivmin) piv = -pivmin;
-        dd[i] = piv;
-        vs[i] -= l * vs[i - 1];
-      }
-      vs[m - 1] /= dd[m - 1];
-      for (size_t i = m - 1; i-- > 0;) vs[i] = vs[i] / dd[i] - dl[i] * vs[i + 1];
-      double nv;
-      nv = sqrt(dot(m, vs, vs));
-      /* rho = v^T T v / v^T v, residual |T v - rho v| / |v| */
-      double inv = 1.0 / nv, r2 = 0.0;
-      rho = 0.0;
+      /* no pivoting: inverse iteration tolerates the element growth
+       * (source: common practice, cf. LAPACK dlar1v) */
+      twisted_factor(m, ds, es, 1, sigma, tiny, dd, dl);
+      twisted_subst(m, dd, dl, vs);
+      /* y = vs: rho = y^T T y / y^T y and the residual |T x - rho x| of
+       * x = y / |y| (T y recomputed in the second pass, not stored), which
+       * also normalizes vs; four partial sums per reduction */
+      double yy[4] = {0, 0, 0, 0}, yty[4] = {0, 0, 0, 0}, rr[4] = {0, 0, 0, 0};
       for (size_t i = 0; i < m; i++) {
-        vs[i] *= inv;
         double tv = ds[i] * vs[i];
-        if (i > 0) tv += es[2 * (i - 1)] * vs[i - 1] * 1.0;
-        dd[i] = tv;
+        if (i > 0) tv += es[i - 1] * vs[i - 1];
+        if (i + 1 < m) tv += es[i] * vs[i + 1];
+        yy[i & 3] += vs[i] * vs[i];
+        yty[i & 3] += vs[i] * tv;
       }
-      for (size_t i = 0; i + 1 < m; i++) {
-        dd[i] += es[2 * i] * vs[i + 1];
-        rho += vs[i] * dd[i];
+      double ny2 = (yy[0] + yy[1]) + (yy[2] + yy[3]);
+      if (!(ny2 > 0) || !isfinite(ny2)) break; /* narrow more, retry */
+      rho = ((yty[0] + yty[1]) + (yty[2] + yty[3])) / ny2;
+      double inv = 1.0 / sqrt(ny2), prev = 0.0;
+      for (size_t i = 0; i < m; i++) {
+        double yi = vs[i];
+        double tv = ds[i] * yi + (i > 0 ? es[i - 1] * prev : 0.0) + (i + 1 < m ? es[i] * vs[i + 1] : 0.0);
+        double ri = tv - rho * yi;
+        rr[i & 3] += ri * ri;
+        vs[i] = yi * inv;
+        prev = yi;
       }
-      rho += vs[m - 1] * dd[m - 1];
-      for (size_t i = 0; i < m; i++) r2 += (dd[i] - rho * vs[i]) * (dd[i] - rho * vs[i]);
+      double r2 = ((rr[0] + rr[1]) + (rr[2] + rr[3])) * inv * inv;
       double r = sqrt(r2);
-      if (polish) { /* one more step after convergence: residual at the rounding floor */
-        ok = rho > a && rho < bb; /* else it found another level: narrow more, retry */
+      int inside = rho > a - tol && rho < bb + tol; /* else another level: narrow more, retry */
+      /* converged: at the rounding floor now, or one more step after the
+       * residual stops falling */
+      if (polish || r <= eps * scale) {
+        ok = inside;
         break;
       }
       if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-12 * scale)) polish = 1;
@@ -454,6 +579,7 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
 done:
   lvsi_free(ctx, d);
   lvsi_free(ctx, e2);
+  lvsi_free(ctx, e);
   lvsi_free(ctx, dl);
   lvsi_free(ctx, dd);
   return st;

@@ -22,7 +22,7 @@ static double alpha(lvs_ctx *ctx, size_t n) {
   double e2 = NAN;
   if (!st) lvs_dlseries_energy(s, 2, &e2);
   CHECK(!st, "dlseries: %s", lvs_errmsg(ctx));
-  CHECK(!st && strcmp(lvs_dlseries_solver(s), "dpttrf") == 0, "ground state uses the Cholesky path");
+  CHECK(!st && strcmp(lvs_dlseries_solver(s), "twisted") == 0, "ground state uses the twisted L D L^T path");
   lvs_dlseries_free(s);
   lvs_matrix_free(h0), lvs_matrix_free(h1), lvs_matrix_free(r), lvs_matrix_free(z);
   lvs_matrix_free(H), lvs_matrix_free(V);

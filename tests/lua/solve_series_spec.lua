@@ -98,7 +98,7 @@ describe("perturb_solve", function()
       local H0, V = hydrogen(n, 60, 1)
       local s = ls.perturb_solve(H0, V, { order = 2 })
       err[k] = -2 * s:energy(2) - 4.5
-      assert.are.equal("dpttrf", s:info().solver)
+      assert.are.equal("twisted", s:info().solver)
       assert.are.equal(1, s:info().bandwidth)
     end
     assert.is_true(math.abs(err[2]) < 2e-3)
@@ -163,6 +163,29 @@ describe("perturb_solve", function()
       end
     end)
   end
+  it("finds every level of the second-difference matrix", function()
+    -- tridiag(-1, 2, -1) of size n has E_k = 2 - 2 cos(k pi/(n+1)) and
+    -- eigenvectors sqrt(2/(n+1)) sin(i k pi/(n+1)) (common practice; e.g.
+    -- G. Strang, Introduction to Applied Mathematics, 1986, sec. 1.5).
+    -- Odd and even n: the Sturm count and the solves split at the middle row.
+    for _, n in ipairs{ 2, 3, 4, 5, 8, 9, 61, 64 } do
+      local H0 = ls.zeros(n)
+      for i = 1, n do
+        H0:set(i, i, 2)
+        if i < n then H0:set(i, i + 1, -1); H0:set(i + 1, i, -1) end
+      end
+      local levels = n <= 9 and {} or { 1, 2, 31, n - 1, n }
+      if n <= 9 then for k = 1, n do levels[k] = k end end
+      for _, k in ipairs(levels) do
+        local s = ls.perturb_solve(H0, ls.zeros(n), { order = 1, level = k })
+        assert.near(2 - 2 * math.cos(k * math.pi / (n + 1)), s:energy(0), 1e-13)
+        local psi, c = s:state(0), math.sqrt(2 / (n + 1))
+        for i = 1, n do
+          assert.near(math.abs(c * math.sin(i * k * math.pi / (n + 1))), math.abs((psi:get(i, 1))), 1e-11)
+        end
+      end
+    end
+  end)
   it("takes a known eigenpair and checks it", function()
     local H0, V = toy(10, 1)
     local E, U = ls.eigen(H0)
