@@ -54,6 +54,32 @@ static double dot(size_t n, const double *x, const double *y) {
   return (s0 + s1) + (s2 + s3);
 }
 
+/* index of the largest |x_i| (the first of equals); the best value kept in
+ * a register (a reload of x[p] would chain every step to the last update) */
+static size_t argmax_abs(size_t n, const double *x) {
+  size_t p = 0;
+  double best = n ? fabs(x[0]) : 0.0;
+  for (size_t i = 1; i < n; i++) {
+    double v = fabs(x[i]);
+    if (v > best) {
+      best = v;
+      p = i;
+    }
+  }
+  return p;
+}
+
+/* max_i |hb_ii - E| over the diagonal of lower band storage (leading
+ * dimension ld), four partial maxima */
+static double max_diag_dist(size_t n, const double *hb, size_t ld, double E) {
+  double m[4] = {0, 0, 0, 0};
+  for (size_t i = 0; i < n; i++) {
+    double v = fabs(hb[i * ld] - E);
+    if (v > m[i & 3]) m[i & 3] = v;
+  }
+  return MAXD(MAXD(m[0], m[1]), MAXD(m[2], m[3]));
+}
+
 void lvs_dlseries_free(lvs_dlseries *s) {
   if (!s) return;
   lvs_ctx *ctx = s->ctx;
@@ -136,60 +162,71 @@ static size_t twisted_factor(size_t m, const double *d, const double *e, size_t 
                              double tiny, double *piv, double *mult) {
 #define GUARD(x) (fabs(x) < tiny ? -tiny : (x))
   size_t t = m / 2, nb = m - 1 - t; /* t top rows, nb (<= t) bottom rows */
-  size_t bad = 0;
-  if (t > 0) piv[0] = GUARD(d[0] - sigma);
-  if (nb > 0) piv[m - 1] = GUARD(d[m - 1] - sigma);
+  /* the last pivot of each chain is carried in a register (through memory
+   * the store-to-load forwarding would lengthen the chain) */
+  double pt = 1.0, pb = 1.0;
+  if (t > 0) piv[0] = pt = GUARD(d[0] - sigma);
+  if (nb > 0) piv[m - 1] = pb = GUARD(d[m - 1] - sigma);
   size_t j = 1;
   for (; j < nb; j++) { /* row j from the top, row i = m-1-j from the bottom */
     size_t i = m - 1 - j;
     double et = e[(j - 1) * es], eb = e[i * es];
-    double lt = et / piv[j - 1], lb = eb / piv[i + 1];
+    double lt = et / pt, lb = eb / pb;
     mult[j - 1] = lt;
     mult[i] = lb;
-    piv[j] = GUARD((d[j] - sigma) - lt * et);
-    piv[i] = GUARD((d[i] - sigma) - lb * eb);
+    pt = GUARD((d[j] - sigma) - lt * et);
+    pb = GUARD((d[i] - sigma) - lb * eb);
+    piv[j] = pt;
+    piv[i] = pb;
   }
   for (; j < t; j++) { /* at most one more top row */
-    double et = e[(j - 1) * es], lt = et / piv[j - 1];
+    double et = e[(j - 1) * es], lt = et / pt;
     mult[j - 1] = lt;
-    piv[j] = GUARD((d[j] - sigma) - lt * et);
+    piv[j] = pt = GUARD((d[j] - sigma) - lt * et);
   }
   double g = d[t] - sigma;
   if (t > 0) {
     double et = e[(t - 1) * es];
-    mult[t - 1] = et / piv[t - 1];
+    mult[t - 1] = et / pt;
     g -= mult[t - 1] * et;
   }
   if (nb > 0) {
     double eb = e[t * es];
-    mult[t] = eb / piv[t + 1];
+    mult[t] = eb / pb;
     g -= mult[t] * eb;
   }
   piv[t] = GUARD(g);
 #undef GUARD
+  size_t bad = 0;
   for (size_t i = 0; i < m; i++) bad += !(piv[i] > 0);
   return bad;
 }
 
 /* Solves N D N^T x = b in place (v holds b on entry, x on return) with the
  * factors of twisted_factor: elimination towards the twist row from both
- * ends, the twist row, substitution outward (two chains each). */
+ * ends, the twist row, substitution outward (two chains each, carried in
+ * registers). */
 static void twisted_subst(size_t m, const double *piv, const double *mult, double *v) {
   size_t t = m / 2, nb = m - 1 - t, j = 1;
+  double xt = v[0], xb = v[m - 1];
   for (; j < nb; j++) {
-    v[j] -= mult[j - 1] * v[j - 1];
-    v[m - 1 - j] -= mult[m - 1 - j] * v[m - j];
+    xt = v[j] - mult[j - 1] * xt;
+    xb = v[m - 1 - j] - mult[m - 1 - j] * xb;
+    v[j] = xt;
+    v[m - 1 - j] = xb;
   }
-  for (; j < t; j++) v[j] -= mult[j - 1] * v[j - 1];
+  for (; j < t; j++) v[j] = xt = v[j] - mult[j - 1] * xt;
   double r = v[t];
-  if (t > 0) r -= mult[t - 1] * v[t - 1];
-  if (nb > 0) r -= mult[t] * v[t + 1];
-  v[t] = r / piv[t];
+  if (t > 0) r -= mult[t - 1] * xt;
+  if (nb > 0) r -= mult[t] * xb;
+  v[t] = xt = xb = r / piv[t];
   for (j = 1; j <= nb; j++) { /* rows t-j and t+j */
-    v[t - j] = v[t - j] / piv[t - j] - mult[t - j] * v[t - j + 1];
-    v[t + j] = v[t + j] / piv[t + j] - mult[t + j - 1] * v[t + j - 1];
+    xt = v[t - j] / piv[t - j] - mult[t - j] * xt;
+    xb = v[t + j] / piv[t + j] - mult[t + j - 1] * xb;
+    v[t - j] = xt;
+    v[t + j] = xb;
   }
-  if (t > nb) v[0] = v[0] / piv[0] - mult[0] * v[1];
+  if (t > nb) v[0] = v[0] / piv[0] - mult[0] * xt;
 }
 
 /* The factored shifted matrix M = H0 - E + sigma e_p e_p^T. */
@@ -747,9 +784,7 @@ static int find_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t b, size_t 
   if (hi > level) g = MIND(g, w[hi - lo] - w[level - lo]);
   *gap = g;
   /* fix the sign: largest component positive (deterministic) */
-  size_t p = 0;
-  for (size_t i = 1; i < n; i++)
-    if (fabs(vec[i]) > fabs(vec[p])) p = i;
+  size_t p = argmax_abs(n, vec);
   if (vec[p] < 0)
     for (size_t i = 0; i < n; i++) vec[i] = -vec[i];
   return LVS_OK;
@@ -907,11 +942,8 @@ int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
     }
   }
   s->E[0] = E0;
-  size_t p = 0;
-  for (size_t i = 1; i < n; i++)
-    if (fabs(nvec[i]) > fabs(nvec[p])) p = i;
-  double sigma = 0.0;
-  for (size_t i = 0; i < n; i++) sigma = MAXD(sigma, fabs(hb[i * (b + 1)] - E0));
+  size_t p = argmax_abs(n, nvec);
+  double sigma = max_diag_dist(n, hb, b + 1, E0);
   if (sigma == 0.0) sigma = 1.0;
   if ((st = shifted_factor(ctx, hb, n, b, E0, p, sigma, &M, &s->solver))) goto done;
   double *vpsi = tmp;
