@@ -520,6 +520,11 @@ LVS_API int lvs_random_orthogonal(lvs_ctx *ctx, size_t n, uint64_t seed, lvs_mat
  * and the diagonal operator r. Either output may be NULL. */
 LVS_API int lvs_radial(lvs_ctx *ctx, size_t n, double rmax, int l, double charge,
                        lvs_matrix **h, lvs_matrix **r);
+/* The same for nl channels l[0..nl-1] side by side: one block-diagonal H of
+ * dimension nl n (channel c on indices c n .. c n + n - 1); r is one
+ * channel's. */
+LVS_API int lvs_radial_channels(lvs_ctx *ctx, size_t n, double rmax, const int *l, size_t nl,
+                                double charge, lvs_matrix **h, lvs_matrix **r);
 /* RS series of one non-degenerate level of a real symmetric sparse/banded H0
  * under lambda V to order 1..1000 by one banded solve per order
  * (Dalgarno-Lewis); needs one eigenpair of H0 (computed when state is

@@ -17,8 +17,7 @@ static int l_radial(lua_State *L) {
   double charge = lvsL_optfield_num(L, 2, "charge", 1.0, "radial", 2);
   luaL_argcheck(L, rmax > 0 && isfinite(rmax), 2, "rmax must be positive and finite");
   luaL_argcheck(L, isfinite(charge), 2, "charge must be finite");
-  /* l = {l1, l2, ...}: the channels side by side (block-diagonal H), built
-   * here so the single-channel matrices are freed at once */
+  /* l = {l1, l2, ...}: the channels side by side (block-diagonal H) */
   size_t nl = 0;
   int *ls_ = NULL;
   if (lua_istable(L, 2)) {
@@ -51,21 +50,7 @@ static int l_radial(lua_State *L) {
     lvsL_check(L, ctx, lvs_radial(ctx, (size_t)n, rmax, (int)l, charge, h, r), "radial");
     return 2;
   }
-  lvsL_check(L, ctx, lvs_radial(ctx, (size_t)n, rmax, 0, charge, NULL, r), "radial");
-  /* channel matrices live in a GC-owned array of pointers until assembled */
-  lvs_matrix **ch = lua_newuserdatauv(L, nl * sizeof *ch, 0);
-  for (size_t k = 0; k < nl; k++) ch[k] = NULL;
-  const lvs_matrix **g = lua_newuserdatauv(L, nl * nl * sizeof *g, 0);
-  int st = LVS_OK;
-  for (size_t k = 0; k < nl && !st; k++) st = lvs_radial(ctx, (size_t)n, rmax, ls_[k], charge, &ch[k], NULL);
-  if (!st) {
-    for (size_t i = 0; i < nl; i++)
-      for (size_t j = 0; j < nl; j++) g[i * nl + j] = i == j ? ch[i] : NULL;
-    st = lvs_matrix_blocks(ctx, nl, nl, g, h);
-  }
-  for (size_t k = 0; k < nl; k++) lvs_matrix_free(ch[k]);
-  lua_pop(L, 2);
-  lvsL_check(L, ctx, st, "radial");
+  lvsL_check(L, ctx, lvs_radial_channels(ctx, (size_t)n, rmax, ls_, nl, charge, h, r), "radial");
   return 2;
 }
 

@@ -16,26 +16,21 @@ static double complex bval(const lvs_matrix *m, size_t k) {
 
 /* Largest |i - j| over the stored nonzero entries of a plain matrix (the
  * visible block for a padded one is not considered: callers pass plain
- * copies). 0 for a diagonal or empty matrix. */
+ * copies). 0 for a diagonal or empty matrix. Sparse columns keep their rows
+ * ascending, so only the first and the last nonzero entry of a column
+ * count: O(columns) unless entries stored as zero have to be skipped. */
 long lvsi_mat_bandwidth(const lvs_matrix *m) {
   long b = 0;
-  if (m->sparse && !m->cplx) {
-    for (size_t j = 0; j < m->cols; j++)
-      for (size_t k = m->cp[j]; k < m->cp[j + 1]; k++) {
-        long d = (long)m->ri[k] - (long)j;
-        d = d < 0 ? -d : d;
-        if (d > b && m->a[k] != 0.0) b = d;
-      }
-    return b;
-  }
   if (m->sparse) {
-    for (size_t j = 0; j < m->cols; j++)
-      for (size_t k = m->cp[j]; k < m->cp[j + 1]; k++) {
-        if (bval(m, k) == 0.0) continue;
-        long d = (long)m->ri[k] - (long)j;
-        if (d < 0) d = -d;
-        if (d > b) b = d;
-      }
+    for (size_t j = 0; j < m->cols; j++) {
+      size_t k0 = m->cp[j], k1 = m->cp[j + 1];
+      while (k0 < k1 && bval(m, k0) == 0.0) k0++;
+      while (k1 > k0 && bval(m, k1 - 1) == 0.0) k1--;
+      if (k0 == k1) continue;
+      long lo = (long)j - (long)m->ri[k0], hi = (long)m->ri[k1 - 1] - (long)j;
+      if (lo > b) b = lo;
+      if (hi > b) b = hi;
+    }
     return b;
   }
   for (size_t j = 0; j < m->cols; j++)

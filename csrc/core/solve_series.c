@@ -117,21 +117,6 @@ int lvs_dlseries_at(const lvs_dlseries *s, double lambda, int order, double *e) 
   return LVS_OK;
 }
 
-/* Band of a plain symmetric matrix in LAPACK lower storage: ab[(i-j) + j
- * (b+1)] = H(i, j) for j <= i <= j + b. */
-static void lower_band(const lvs_matrix *h, size_t b, double *ab) {
-  size_t n = h->rows, ld = b + 1;
-  memset(ab, 0, ld * n * sizeof(double));
-  for (size_t j = 0; j < n; j++) {
-    if (h->sparse) {
-      for (size_t k = h->cp[j]; k < h->cp[j + 1]; k++)
-        if (h->ri[k] >= j) ab[(h->ri[k] - j) + j * ld] = h->a[k];
-    } else {
-      for (size_t i = j; i < n && i <= j + b; i++) ab[(i - j) + j * ld] = h->a[i + j * n];
-    }
-  }
-}
-
 /* y = H x from the lower band (symmetric) */
 static void band_apply(size_t n, size_t b, const double *ab, const double *x, double *y) {
   size_t ld = b + 1;
@@ -799,40 +784,35 @@ static void note_pair(double diff, size_t i, size_t j, double *worst, size_t *wi
   }
 }
 
-/* Symmetry and finiteness of H from its lower band hb and its upper
- * entries, in O(n b) (the generic check searches every transposed entry).
- * Each stored upper entry H(i, j), i < j, is compared with hb's H(j, i);
- * a nonzero lower entry without a stored upper partner (sparse storage)
- * shows up as fewer matched pairs than nonzero lower entries, and only
- * then is the upper band assembled to find the worst pair. Same messages as
+/* The lower band of a plain symmetric H into LAPACK lower storage, hb[(i-j)
+ * + j (b+1)] = H(i, j) for j <= i <= j + b, checking finiteness and
+ * symmetry on the way in O(n b) (the generic check searches every
+ * transposed entry). Each stored upper entry H(i, j), i < j, is compared
+ * with the lower H(j, i) already in hb (column i comes before column j); a
+ * nonzero lower entry without a stored upper partner (sparse storage) shows
+ * up as fewer matched pairs than nonzero lower entries, and only then is the
+ * upper band assembled to find the worst pair. Same messages as
  * lvsi_check_hermitian. */
-static int band_check(lvs_ctx *ctx, const lvs_matrix *h, size_t b, const double *hb) {
+static int band_load(lvs_ctx *ctx, const lvs_matrix *h, size_t b, double *hb) {
   size_t n = h->rows, ld = b + 1;
-  double scale = 0.0;
-  size_t cnt = h->sparse ? h->nnz : n * n;
-  for (size_t k = 0; k < cnt; k++) {
-    if (!isfinite(h->a[k])) return lvsi_fail(ctx, LVS_EINVAL, "H0 has a NaN or infinite entry");
-    double v = fabs(h->a[k]);
-    scale = MAXD(scale, v);
-  }
-  if (b == 0) return LVS_OK;
-  double worst = 0.0;
+  double scale = 0.0, worst = 0.0;
   size_t wi = 0, wj = 0, lower_cnt = 0, matched_cnt = 0;
-  for (size_t i = 0; i < n; i++)
-    for (size_t d = 1; d <= b && i + d < n; d++) lower_cnt += hb[d + i * ld] != 0.0;
+  memset(hb, 0, ld * n * sizeof(double));
   for (size_t j = 0; j < n; j++) {
-    if (h->sparse) {
-      for (size_t k = h->cp[j]; k < h->cp[j + 1] && h->ri[k] < j; k++) {
-        size_t i = h->ri[k]; /* H(i, j) above the diagonal, within the band */
+    size_t k0 = h->sparse ? h->cp[j] : 0, k1 = h->sparse ? h->cp[j + 1] : n;
+    for (size_t k = k0; k < k1; k++) {
+      size_t i = h->sparse ? h->ri[k] : k;
+      double v = h->a[h->sparse ? k : i + j * n];
+      if (!isfinite(v)) return lvsi_fail(ctx, LVS_EINVAL, "H0 has a NaN or infinite entry");
+      scale = MAXD(scale, fabs(v));
+      if (i >= j) {
+        if (i - j > b) continue; /* dense storage: zero outside the band */
+        hb[(i - j) + j * ld] = v;
+        lower_cnt += i > j && v != 0.0;
+      } else if (j - i <= b) { /* H(i, j) above the diagonal, within the band */
         double low = hb[(j - i) + i * ld];
         matched_cnt += low != 0.0;
-        note_pair(fabs(h->a[k] - low), i, j, &worst, &wi, &wj);
-      }
-    } else {
-      for (size_t i = j >= b ? j - b : 0; i < j; i++) {
-        double low = hb[(j - i) + i * ld];
-        matched_cnt += low != 0.0;
-        note_pair(fabs(h->a[i + j * n] - low), i, j, &worst, &wi, &wj);
+        note_pair(fabs(v - low), i, j, &worst, &wi, &wj);
       }
     }
   }
@@ -906,8 +886,7 @@ int lvs_dlseries_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
     st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in the linear-solve series");
     goto done;
   }
-  lower_band(H, b, hb);
-  if ((st = band_check(ctx, H, b, hb))) goto done;
+  if ((st = band_load(ctx, H, b, hb))) goto done;
   double *nvec = s->psi, E0 = 0.0;
   double scale = 0.0;
   for (size_t i = 0; i < n; i++) scale = MAXD(scale, fabs(hb[i * (b + 1)]));

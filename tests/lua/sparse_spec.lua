@@ -45,6 +45,17 @@ describe("sparse storage", function()
     local re, im = (o.x * o.p - o.p * o.x):get(2999, 2999)
     assert.near(0, re, 1e-12); assert.near(1, im, 1e-12)
   end)
+  it("measures the bandwidth over nonzero entries only", function()
+    local H = ls.radial(300, { rmax = 30 })
+    H:set(5, 9, 1.0); H:set(12, 3, -2.0)
+    assert.are.equal(9, H:bandwidth()) -- |12 - 3|
+    H:set(12, 3, 0) -- stored or dropped: no longer counts
+    assert.are.equal(4, H:bandwidth())
+    H:set(5, 9, 0)
+    assert.are.equal(1, H:bandwidth())
+    assert.are.equal(1, (H * ls.I):bandwidth()) -- complex storage
+    assert.are.equal(0, ls.zeros(5):bandwidth())
+  end)
   it("goes dense when a product fills in", function()
     -- an arrow matrix (first row and column full) squares to a full matrix
     local n = 40
