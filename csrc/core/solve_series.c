@@ -19,6 +19,7 @@
  * The eigenpair is computed when not given: Sturm-count multisection and
  * Rayleigh-quotient iteration (tridiagonal), or dsbevx (values only) plus
  * inverse iteration for a wider band. Real symmetric H0 and V only. */
+#include <float.h>
 #include <lapacke.h>
 #include <math.h>
 #include <stdlib.h>
@@ -135,39 +136,39 @@ static void band_apply(size_t n, size_t b, const double *ab, const double *x, do
  * that their divisions overlap (Parlett & Dhillon, Linear Algebra Appl.
  * 309, 121 (2000)). piv gets the pivots (piv[t] the twist pivot), mult the
  * multipliers (top: mult[i] = e[i]/piv[i], i < t; bottom: mult[i] =
- * e[i]/piv[i+1], i >= t). No pivoting; a pivot smaller than tiny in
- * magnitude is replaced by -tiny (tiny > 0 for inverse iteration, where a
- * shift can sit on an eigenvalue; 0 for a factorization that must be
- * exact). piv may be d (in place). Returns the number of pivots that are not
- * positive: 0 exactly when T - sigma is positive definite (N D N^T is a
- * congruence, Sylvester's law of inertia); then the factorization is as
- * stable as Cholesky's (both sides are, and the twist pivot is a Schur
- * complement of a positive definite matrix). Any m >= 1. */
+ * e[i]/piv[i+1], i >= t). No pivoting. Each chain step is one division and
+ * one subtraction, p' = (d - sigma) - e^2/p; the multiplier e/p is a second
+ * division off the chain. piv may be d (in place). Returns the number of
+ * pivots that are not positive, NaN included (0 exactly when T - sigma is
+ * positive definite: N D N^T is a congruence, Sylvester's law of inertia;
+ * then the factorization is as stable as Cholesky's, both sides being
+ * Cholesky-like and the twist pivot a Schur complement of a positive
+ * definite matrix), and in *zero the number that are zero or not finite
+ * (a shift exactly on an eigenvalue of a leading or trailing block). Any
+ * m >= 1. */
 static size_t twisted_factor(size_t m, const double *d, const double *e, size_t es, double sigma,
-                             double tiny, double *piv, double *mult) {
-#define GUARD(x) (fabs(x) < tiny ? -tiny : (x))
+                             double *piv, double *mult, size_t *zero) {
   size_t t = m / 2, nb = m - 1 - t; /* t top rows, nb (<= t) bottom rows */
   /* the last pivot of each chain is carried in a register (through memory
    * the store-to-load forwarding would lengthen the chain) */
   double pt = 1.0, pb = 1.0;
-  if (t > 0) piv[0] = pt = GUARD(d[0] - sigma);
-  if (nb > 0) piv[m - 1] = pb = GUARD(d[m - 1] - sigma);
+  if (t > 0) piv[0] = pt = d[0] - sigma;
+  if (nb > 0) piv[m - 1] = pb = d[m - 1] - sigma;
   size_t j = 1;
   for (; j < nb; j++) { /* row j from the top, row i = m-1-j from the bottom */
     size_t i = m - 1 - j;
     double et = e[(j - 1) * es], eb = e[i * es];
-    double lt = et / pt, lb = eb / pb;
-    mult[j - 1] = lt;
-    mult[i] = lb;
-    pt = GUARD((d[j] - sigma) - lt * et);
-    pb = GUARD((d[i] - sigma) - lb * eb);
+    mult[j - 1] = et / pt;
+    mult[i] = eb / pb;
+    pt = (d[j] - sigma) - (et * et) / pt;
+    pb = (d[i] - sigma) - (eb * eb) / pb;
     piv[j] = pt;
     piv[i] = pb;
   }
   for (; j < t; j++) { /* at most one more top row */
-    double et = e[(j - 1) * es], lt = et / pt;
-    mult[j - 1] = lt;
-    piv[j] = pt = GUARD((d[j] - sigma) - lt * et);
+    double et = e[(j - 1) * es];
+    mult[j - 1] = et / pt;
+    piv[j] = pt = (d[j] - sigma) - (et * et) / pt;
   }
   double g = d[t] - sigma;
   if (t > 0) {
@@ -180,10 +181,14 @@ static size_t twisted_factor(size_t m, const double *d, const double *e, size_t 
     mult[t] = eb / pb;
     g -= mult[t] * eb;
   }
-  piv[t] = GUARD(g);
-#undef GUARD
-  size_t bad = 0;
-  for (size_t i = 0; i < m; i++) bad += !(piv[i] > 0);
+  piv[t] = g;
+  size_t bad = 0, z = 0;
+  for (size_t i = 0; i < m; i++) {
+    double a = fabs(piv[i]);
+    bad += !(piv[i] > 0);
+    z += !(a > 0 && a <= DBL_MAX);
+  }
+  if (zero) *zero = z;
   return bad;
 }
 
@@ -258,7 +263,7 @@ static int shifted_factor(lvs_ctx *ctx, const double *hb, size_t n, size_t b, do
     m->d[p] += sigma;
     /* positive definite (the lowest level): the twisted L D L^T, two
      * chains (half the latency of dpttrf's one) */
-    if (twisted_factor(n, m->d, hb + 1, ld, 0.0, 0.0, m->d, m->e) == 0) {
+    if (twisted_factor(n, m->d, hb + 1, ld, 0.0, m->d, m->e, NULL) == 0) {
       m->kind = 1;
       *solver = "twisted";
       return LVS_OK;
@@ -549,7 +554,13 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
     for (int it = 0; it < 10; it++) {
       /* no pivoting: inverse iteration tolerates the element growth
        * (source: common practice, cf. LAPACK dlar1v) */
-      twisted_factor(m, ds, es, 1, sigma, tiny, dd, dl);
+      size_t zero = 0;
+      twisted_factor(m, ds, es, 1, sigma, dd, dl, &zero);
+      /* a zero pivot (or the overflow after one): the shift is exactly an
+       * eigenvalue of a leading or trailing block; move it by the rounding
+       * scale (harmless for inverse iteration) */
+      for (int nudge = 1; zero && nudge <= 8; nudge++)
+        twisted_factor(m, ds, es, 1, sigma + nudge * tiny, dd, dl, &zero);
       twisted_subst(m, dd, dl, vs);
       /* y = vs: rho = y^T T y / y^T y and the residual |T x - rho x| of
        * x = y / |y| (T y recomputed in the second pass, not stored), which
