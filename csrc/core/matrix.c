@@ -833,9 +833,18 @@ double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) 
     return INFINITY;
   }
   if (a->sparse && !a->vis && !a->cplx) { /* real: no complex arithmetic */
+    /* each lower entry (i > j) against its stored partner; when every
+     * stored upper entry was somebody's partner that covers all pairs
+     * (a pair's difference is symmetric), else the full scan below finds
+     * the worst unpaired entry too */
+    size_t upper = 0, paired = 0;
     for (size_t j = 0; j < a->cols; j++)
       for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
-        size_t i = a->ri[k], t = sp_find(a, j, i);
+        size_t i = a->ri[k];
+        if (i < j) upper++;
+        if (i <= j) continue;
+        size_t t = sp_find(a, j, i);
+        paired += t != SIZE_MAX;
         double d = fabs(a->a[k] - (t == SIZE_MAX ? 0.0 : a->a[t]));
         if (d > worst || isnan(d)) {
           worst = isnan(d) ? INFINITY : d;
@@ -843,6 +852,17 @@ double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) 
           wj = j;
         }
       }
+    if (paired < upper)
+      for (size_t j = 0; j < a->cols; j++)
+        for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
+          size_t i = a->ri[k], t = sp_find(a, j, i);
+          double d = fabs(a->a[k] - (t == SIZE_MAX ? 0.0 : a->a[t]));
+          if (d > worst || isnan(d)) {
+            worst = isnan(d) ? INFINITY : d;
+            wi = i;
+            wj = j;
+          }
+        }
   } else if (a->sparse && !a->vis) {
     for (size_t j = 0; j < a->cols; j++)
       for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {

@@ -242,5 +242,13 @@ describe("perturb_solve", function()
     assert.are.equal("sparse", (L:storage()))
     assert.error_matches(function() ls.perturb_solve(L, ls.zeros(80)) end,
       "bad argument #1 to 'perturb_solve' (H0 is not Hermitian: |H(1,41) - conj(H(41,1))| = 0.25", 1, true)
+    -- a sparse V with only the upper or only the lower entry of a pair stored
+    local H80 = ls.radial(80, { rmax = 5 })
+    local Vu = ls.blocks{ { T40, C:adj() }, { 0, T40 } }
+    assert.are.equal("sparse", (Vu:storage()))
+    assert.error_matches(function() ls.perturb_solve(H80, Vu) end,
+      "bad argument #2 to 'perturb_solve' (V is not Hermitian: |H(1,41) - conj(H(41,1))| = 0.25", 1, true)
+    assert.error_matches(function() ls.perturb_solve(H80, L) end,
+      "bad argument #2 to 'perturb_solve' (V is not Hermitian: |H(41,1) - conj(H(1,41))| = 0.25", 1, true)
   end)
 end)
