@@ -178,32 +178,44 @@ int lvs_matrix_blocks(lvs_ctx *ctx, size_t nbr, size_t nbc, const lvs_matrix *co
     cplx |= p->cplx;
   }
   if ((st = lvsi_mat_alloc(ctx, rows, cols, cplx, 1, nnz, &c))) goto done;
-  size_t col = 0;
+  /* nnz is the exact capacity: entries are written directly (no push and
+   * no capacity check per entry), nonzero ones only, and the true bandwidth
+   * is measured on the way */
+  size_t col = 0, nz = 0;
+  long band = 0;
   for (size_t bj = 0; bj < nbc; bj++)
     for (size_t j = 0; j < w[bj]; j++, col++) {
-      c->cp[col] = c->nnz;
+      c->cp[col] = nz;
       size_t roff = 0;
       for (size_t bi = 0; bi < nbr; bi++) {
         const lvs_matrix *m = blk[bi * nbc + bj];
         const lvs_matrix *p = plain[bi * nbc + bj] ? plain[bi * nbc + bj] : m;
         if (p) {
-          if (p->sparse) {
-            for (size_t k = p->cp[j]; k < p->cp[j + 1]; k++) {
-              double complex v = bval(p, k);
-              if (v != 0.0 && (st = lvsi_csc_push(c, roff + p->ri[k], v))) goto done;
+          size_t k0 = p->sparse ? p->cp[j] : j * p->rows;
+          size_t k1 = p->sparse ? p->cp[j + 1] : (j + 1) * p->rows;
+          for (size_t k = k0; k < k1; k++) {
+            double re = p->cplx ? p->a[2 * k] : p->a[k], im = p->cplx ? p->a[2 * k + 1] : 0.0;
+            if (re == 0.0 && im == 0.0) continue;
+            size_t row = roff + (p->sparse ? p->ri[k] : k - k0);
+            c->ri[nz] = row;
+            if (cplx) {
+              c->a[2 * nz] = re;
+              c->a[2 * nz + 1] = im;
+            } else {
+              c->a[nz] = re;
             }
-          } else {
-            for (size_t i = 0; i < p->rows; i++) {
-              double complex v = bval(p, i + j * p->rows);
-              if (v != 0.0 && (st = lvsi_csc_push(c, roff + i, v))) goto done;
-            }
+            nz++;
+            long d = (long)row - (long)col;
+            if (d < 0) d = -d;
+            if (d > band) band = d;
           }
         }
         roff += h[bi];
       }
     }
+  c->nnz = nz;
   c->cp[cols] = c->nnz;
-  c->band = lvsi_mat_bandwidth(c);
+  c->band = band;
   if ((st = lvsi_mat_compact(c))) goto done;
   *out = c;
   c = NULL;

@@ -78,6 +78,16 @@ describe("blocks", function()
     assert.are.equal("sparse", (big:storage()))
     local O = ls.blocks{ { 0, S.Sp }, { S.Sm, 0 } }
     assert.near(2, (O:get(1, 7)), 1e-15) -- <2|S+|1> = sqrt(S(S+1) - m(m+1)) = 2 (METHODS.md 7)
+    assert.are.equal(6, O:bandwidth()) -- (1, 7): the blocks' offsets count
+    -- complex and dense blocks keep both parts; stored zeros are dropped
+    local Z = ls.blocks{ { A * ls.I, 0 }, { 0, B } }
+    local re, im = Z:get(1, 2)
+    assert.are.equal(0, re); assert.are.equal(0.5, im)
+    re, im = Z:get(3, 3)
+    assert.are.equal(2.385, re); assert.are.equal(0, im)
+    re, im = Z:get(2, 2)
+    assert.are.equal(0, re); assert.are.equal(-0.75, im)
+    assert.are.equal(0, (Z:get(1, 3)))
   end)
   it("check their arguments", function()
     local A, B = ls.matrix{ { 1 } }, ls.matrix{ { 1, 2 }, { 2, 1 } }
