@@ -67,6 +67,8 @@ LVSI int lvsi_to_dense(const lvs_matrix *a, lvs_matrix **out);
 /* structure (blocks.c): true bandwidth of a plain matrix; connected
  * components of the sparsity graph of a (and b), numbered by smallest state */
 LVSI long lvsi_mat_bandwidth(const lvs_matrix *m);
+/* symmetry checks: keep the largest defect d (NaN as infinite) at (i, j) */
+LVSI void lvsi_note_defect(double d, size_t i, size_t j, double *worst, size_t *wi, size_t *wj);
 LVSI int lvsi_components(const lvs_matrix *a, const lvs_matrix *b, size_t *comp, size_t *ncomp);
 /* eigen.c: the dense path of lvs_eigen (no structure detection) */
 LVSI int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, double *w, lvs_matrix **vecs);

@@ -823,6 +823,15 @@ int lvs_matrix_adj(const lvs_matrix *a, lvs_matrix **out) {
   return LVS_OK;
 }
 
+/* keeps the largest defect (NaN counts as infinite) and where it is */
+void lvsi_note_defect(double d, size_t i, size_t j, double *worst, size_t *wi, size_t *wj) {
+  if (d > *worst || isnan(d)) {
+    *worst = isnan(d) ? INFINITY : d;
+    *wi = i;
+    *wj = j;
+  }
+}
+
 double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) {
   double worst = 0.0;
   size_t wi = 0, wj = 0;
@@ -833,57 +842,35 @@ double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) 
     return INFINITY;
   }
   if (a->sparse && !a->vis && !a->cplx) { /* real: no complex arithmetic */
-    /* each lower entry (i > j) against its stored partner; when every
-     * stored upper entry was somebody's partner that covers all pairs
-     * (a pair's difference is symmetric), else the full scan below finds
-     * the worst unpaired entry too */
+    /* pass 0: each lower entry (i > j) against its stored partner; when
+     * every stored upper entry was somebody's partner that covers all pairs
+     * (a pair's difference is symmetric), else pass 1 scans every entry and
+     * finds the worst unpaired one too */
     size_t upper = 0, paired = 0;
-    for (size_t j = 0; j < a->cols; j++)
-      for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
-        size_t i = a->ri[k];
-        if (i < j) upper++;
-        if (i <= j) continue;
-        size_t t = sp_find(a, j, i);
-        paired += t != SIZE_MAX;
-        double d = fabs(a->a[k] - (t == SIZE_MAX ? 0.0 : a->a[t]));
-        if (d > worst || isnan(d)) {
-          worst = isnan(d) ? INFINITY : d;
-          wi = i;
-          wj = j;
-        }
-      }
-    if (paired < upper)
+    for (int pass = 0; pass < 2 && !(pass == 1 && paired >= upper); pass++)
       for (size_t j = 0; j < a->cols; j++)
         for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
-          size_t i = a->ri[k], t = sp_find(a, j, i);
-          double d = fabs(a->a[k] - (t == SIZE_MAX ? 0.0 : a->a[t]));
-          if (d > worst || isnan(d)) {
-            worst = isnan(d) ? INFINITY : d;
-            wi = i;
-            wj = j;
+          size_t i = a->ri[k];
+          if (pass == 0) {
+            upper += i < j;
+            if (i <= j) continue;
           }
+          size_t t = sp_find(a, j, i);
+          paired += t != SIZE_MAX;
+          lvsi_note_defect(fabs(a->a[k] - (t == SIZE_MAX ? 0.0 : a->a[t])), i, j, &worst, &wi, &wj);
         }
   } else if (a->sparse && !a->vis) {
     for (size_t j = 0; j < a->cols; j++)
       for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
         size_t i = a->ri[k];
-        double d = cabs(sval(a, k) - conj(lvsi_mat_at(a, j, i)));
-        if (d > worst || isnan(d)) {
-          worst = isnan(d) ? INFINITY : d;
-          wi = i;
-          wj = j;
-        }
+        lvsi_note_defect(cabs(sval(a, k) - conj(lvsi_mat_at(a, j, i))), i, j, &worst, &wi, &wj);
       }
   } else {
     for (size_t j = 0; j < n; j++)
       for (size_t i = 0; i <= j; i++) {
         double d = cabs(lvsi_mat_at(a, vmap(a, i), vmap(a, j)) -
                         conj(lvsi_mat_at(a, vmap(a, j), vmap(a, i))));
-        if (d > worst || isnan(d)) {
-          worst = isnan(d) ? INFINITY : d;
-          wi = i;
-          wj = j;
-        }
+        lvsi_note_defect(d, i, j, &worst, &wi, &wj);
       }
   }
   if (pi) *pi = wi;

@@ -469,7 +469,7 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
      * orders of magnitude (fewer Sturm passes) */
     double sd = 0.0, se = 0.0;
     for (size_t i = 0; i < n; i++) sd += d[i];
-    for (size_t i = 0; i + 1 < n; i++) se += hb[2 * i + 1];
+    for (size_t i = 0; i + 1 < n; i++) se += e[i];
     double rq = (sd - 2 * fabs(se)) / (double)n + 1e-12 * scale;
     if (rq < bb && rq > a) bb = rq;
   }
@@ -786,15 +786,6 @@ static int find_pair(lvs_ctx *ctx, const double *hb, size_t n, size_t b, size_t 
   return LVS_OK;
 }
 
-/* keeps the largest |upper - lower| difference and where it is */
-static void note_pair(double diff, size_t i, size_t j, double *worst, size_t *wi, size_t *wj) {
-  if (diff > *worst) {
-    *worst = diff;
-    *wi = i;
-    *wj = j;
-  }
-}
-
 /* The lower band of a plain symmetric H into LAPACK lower storage, hb[(i-j)
  * + j (b+1)] = H(i, j) for j <= i <= j + b, checking finiteness and
  * symmetry on the way in O(n b) (the generic check searches every
@@ -823,7 +814,7 @@ static int band_load(lvs_ctx *ctx, const lvs_matrix *h, size_t b, double *hb) {
       } else if (j - i <= b) { /* H(i, j) above the diagonal, within the band */
         double low = hb[(j - i) + i * ld];
         matched_cnt += low != 0.0;
-        note_pair(fabs(v - low), i, j, &worst, &wi, &wj);
+        lvsi_note_defect(fabs(v - low), i, j, &worst, &wi, &wj);
       }
     }
   }
@@ -835,7 +826,7 @@ static int band_load(lvs_ctx *ctx, const lvs_matrix *h, size_t b, double *hb) {
         ub[(j - h->ri[k]) + h->ri[k] * ld] = h->a[k];
     for (size_t i = 0; i < n; i++)
       for (size_t d = 1; d <= b && i + d < n; d++) /* H(i, i+d) vs H(i+d, i) */
-        note_pair(fabs(ub[d + i * ld] - hb[d + i * ld]), i, i + d, &worst, &wi, &wj);
+        lvsi_note_defect(fabs(ub[d + i * ld] - hb[d + i * ld]), i, i + d, &worst, &wi, &wj);
     lvsi_free(ctx, ub);
   }
   if (worst > LVS_DEFAULT_HERM_TOL * (scale > 0 ? scale : 1.0))
