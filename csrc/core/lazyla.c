@@ -22,9 +22,11 @@
  * void function); the compiler checks it against the header. These
  * definitions are hidden (CMAKE_C_VISIBILITY_PRESET), so they never
  * interpose on the loaded libraries' own calls. */
+#include <arpack.h>
 #include <cblas.h>
 #include <dlfcn.h>
 #include <lapacke.h>
+#include <umfpack.h>
 #include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -37,15 +39,25 @@
 #define LVS_BLAS_SONAME "libopenblas.so.0"
 #endif
 
-enum { LIB_LAPACKE, LIB_BLAS };
-static const char* const sonames[2] = {LVS_LAPACKE_SONAME, LVS_BLAS_SONAME};
-static void* handles[2];
-static pthread_once_t once[2] = {PTHREAD_ONCE_INIT, PTHREAD_ONCE_INIT};
+#ifndef LVS_ARPACK_SONAME
+#define LVS_ARPACK_SONAME "libarpack.so.2"
+#endif
+#ifndef LVS_UMFPACK_SONAME
+#define LVS_UMFPACK_SONAME "libumfpack.so.5"
+#endif
 
-/* LVS_LAPACKE and LVS_CBLAS in the environment name other libraries (a
- * path or a SONAME) with the same interface */
+enum { LIB_LAPACKE, LIB_BLAS, LIB_ARPACK, LIB_UMFPACK, NLIBS };
+static const char* const sonames[NLIBS] = {LVS_LAPACKE_SONAME, LVS_BLAS_SONAME, LVS_ARPACK_SONAME,
+                                           LVS_UMFPACK_SONAME};
+static const char* const envnames[NLIBS] = {"LVS_LAPACKE", "LVS_CBLAS", "LVS_ARPACK", "LVS_UMFPACK"};
+static void* handles[NLIBS];
+static pthread_once_t once[NLIBS] = {PTHREAD_ONCE_INIT, PTHREAD_ONCE_INIT, PTHREAD_ONCE_INIT,
+                                     PTHREAD_ONCE_INIT};
+
+/* LVS_LAPACKE, LVS_CBLAS, LVS_ARPACK and LVS_UMFPACK in the environment
+ * name other libraries (a path or a SONAME) with the same interface */
 static const char* lib_name(int lib) {
-  const char* env = getenv(lib == LIB_LAPACKE ? "LVS_LAPACKE" : "LVS_CBLAS");
+  const char* env = getenv(envnames[lib]);
   return env && *env ? env : sonames[lib];
 }
 
@@ -59,10 +71,13 @@ static void open_lib(int lib) {
 }
 static void open_lapacke(void) { open_lib(LIB_LAPACKE); }
 static void open_blas(void) { open_lib(LIB_BLAS); }
+static void open_arpack(void) { open_lib(LIB_ARPACK); }
+static void open_umfpack(void) { open_lib(LIB_UMFPACK); }
 
 /* the library handle, opened on first use */
 static void* lib_handle(int lib) {
-  pthread_once(&once[lib], lib == LIB_LAPACKE ? open_lapacke : open_blas);
+  static void (*const openers[NLIBS])(void) = {open_lapacke, open_blas, open_arpack, open_umfpack};
+  pthread_once(&once[lib], openers[lib]);
   return handles[lib];
 }
 
@@ -240,4 +255,58 @@ FWDV(cblas_zgemv, (OPENBLAS_CONST enum CBLAS_ORDER order, OPENBLAS_CONST enum CB
     void *a, OPENBLAS_CONST blasint lda, OPENBLAS_CONST void *x, OPENBLAS_CONST blasint incx,
     OPENBLAS_CONST void *beta, void *y, OPENBLAS_CONST blasint incy), (order, trans, m, n, alpha, a,
     lda, x, incx, beta, y, incy), LIB_BLAS)
+/* ARPACK's ISO C interface (arpack.h) */
+FWDV(dsaupd_c, (a_int* ido, char const* bmat, a_int n, char const* which, a_int nev, double tol,
+    double* resid, a_int ncv, double* v, a_int ldv, a_int* iparam, a_int* ipntr, double* workd,
+    double* workl, a_int lworkl, a_int* info), (ido, bmat, n, which, nev, tol, resid, ncv, v, ldv,
+    iparam, ipntr, workd, workl, lworkl, info), LIB_ARPACK)
+FWDV(dseupd_c, (a_int rvec, char const* howmny, a_int const* select, double* d, double* z, a_int
+    ldz, double sigma, char const* bmat, a_int n, char const* which, a_int nev, double tol, double*
+    resid, a_int ncv, double* v, a_int ldv, a_int* iparam, a_int* ipntr, double* workd, double*
+    workl, a_int lworkl, a_int* info), (rvec, howmny, select, d, z, ldz, sigma, bmat, n, which,
+    nev, tol, resid, ncv, v, ldv, iparam, ipntr, workd, workl, lworkl, info), LIB_ARPACK)
+FWDV(znaupd_c, (a_int* ido, char const* bmat, a_int n, char const* which, a_int nev, double tol,
+    double _Complex* resid, a_int ncv, double _Complex* v, a_int ldv, a_int* iparam, a_int* ipntr,
+    double _Complex* workd, double _Complex* workl, a_int lworkl, double* rwork, a_int* info), (ido,
+    bmat, n, which, nev, tol, resid, ncv, v, ldv, iparam, ipntr, workd, workl, lworkl, rwork,
+    info), LIB_ARPACK)
+FWDV(zneupd_c, (a_int rvec, char const* howmny, a_int const* select, double _Complex* d, double
+    _Complex* z, a_int ldz, double _Complex sigma, double _Complex* workev, char const* bmat, a_int
+    n, char const* which, a_int nev, double tol, double _Complex* resid, a_int ncv, double _Complex*
+    v, a_int ldv, a_int* iparam, a_int* ipntr, double _Complex* workd, double _Complex* workl,
+    a_int lworkl, double* rwork, a_int* info), (rvec, howmny, select, d, z, ldz, sigma, workev,
+    bmat, n, which, nev, tol, resid, ncv, v, ldv, iparam, ipntr, workd, workl, lworkl, rwork,
+    info), LIB_ARPACK)
+/* UMFPACK, SuiteSparse_long indices (umfpack.h); complex values packed
+ * (Az = NULL: interleaved re, im) */
+FWDV(umfpack_dl_defaults, (double Control[UMFPACK_CONTROL]), (Control), LIB_UMFPACK)
+FWD(SuiteSparse_long, umfpack_dl_symbolic, (SuiteSparse_long n_row, SuiteSparse_long n_col, const
+    SuiteSparse_long Ap[], const SuiteSparse_long Ai[], const double Ax[], void** Symbolic, const
+    double Control[UMFPACK_CONTROL], double Info[UMFPACK_INFO]), (n_row, n_col, Ap, Ai, Ax,
+    Symbolic, Control, Info), LIB_UMFPACK)
+FWD(SuiteSparse_long, umfpack_dl_numeric, (const SuiteSparse_long Ap[], const SuiteSparse_long
+    Ai[], const double Ax[], void* Symbolic, void** Numeric, const double Control[UMFPACK_CONTROL],
+    double Info[UMFPACK_INFO]), (Ap, Ai, Ax, Symbolic, Numeric, Control, Info), LIB_UMFPACK)
+FWD(SuiteSparse_long, umfpack_dl_solve, (SuiteSparse_long sys, const SuiteSparse_long Ap[], const
+    SuiteSparse_long Ai[], const double Ax[], double X[], const double B[], void* Numeric, const
+    double Control[UMFPACK_CONTROL], double Info[UMFPACK_INFO]), (sys, Ap, Ai, Ax, X, B, Numeric,
+    Control, Info), LIB_UMFPACK)
+FWDV(umfpack_dl_free_symbolic, (void** Symbolic), (Symbolic), LIB_UMFPACK)
+FWDV(umfpack_dl_free_numeric, (void** Numeric), (Numeric), LIB_UMFPACK)
+FWDV(umfpack_zl_defaults, (double Control[UMFPACK_CONTROL]), (Control), LIB_UMFPACK)
+FWD(SuiteSparse_long, umfpack_zl_symbolic, (SuiteSparse_long n_row, SuiteSparse_long n_col, const
+    SuiteSparse_long Ap[], const SuiteSparse_long Ai[], const double Ax[], const double Az[], void**
+    Symbolic, const double Control[UMFPACK_CONTROL], double Info[UMFPACK_INFO]), (n_row, n_col, Ap,
+    Ai, Ax, Az, Symbolic, Control, Info), LIB_UMFPACK)
+FWD(SuiteSparse_long, umfpack_zl_numeric, (const SuiteSparse_long Ap[], const SuiteSparse_long
+    Ai[], const double Ax[], const double Az[], void* Symbolic, void** Numeric, const double
+    Control[UMFPACK_CONTROL], double Info[UMFPACK_INFO]), (Ap, Ai, Ax, Az, Symbolic, Numeric,
+    Control, Info), LIB_UMFPACK)
+FWD(SuiteSparse_long, umfpack_zl_solve, (SuiteSparse_long sys, const SuiteSparse_long Ap[], const
+    SuiteSparse_long Ai[], const double Ax[], const double Az[], double Xx[], double Xz[], const
+    double Bx[], const double Bz[], void* Numeric, const double Control[UMFPACK_CONTROL], double
+    Info[UMFPACK_INFO]), (sys, Ap, Ai, Ax, Az, Xx, Xz, Bx, Bz, Numeric, Control, Info),
+    LIB_UMFPACK)
+FWDV(umfpack_zl_free_symbolic, (void** Symbolic), (Symbolic), LIB_UMFPACK)
+FWDV(umfpack_zl_free_numeric, (void** Numeric), (Numeric), LIB_UMFPACK)
 /* clang-format on */
