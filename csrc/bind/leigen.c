@@ -1,4 +1,7 @@
-/* leigen.c -- ls.eigen(H [, {count = k, vectors = true}]) -> E, U */
+/* leigen.c -- ls.eigen(H [, {count = k, vectors = true, blocks = {...},
+ * method = "auto" | "dense" | "krylov", near = E, tol =, maxiter =, ncv =}])
+ * -> E, U */
+#include <math.h>
 #include <stdint.h>
 #include <string.h>
 #include "bind/lbind.h"
@@ -6,7 +9,7 @@
 static int l_eigen(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_matrix *h = lvsL_checkmatrix(L, 1);
-  static const char *const known[] = {"count", "vectors", "blocks", NULL};
+  static const char *const known[] = {"count", "vectors", "blocks", "method", "near", "tol", "maxiter", "ncv", NULL};
   lvsL_checkoptions(L, 2, known, "eigen", 2);
   size_t n = lvs_matrix_rows(h);
   if (n != lvs_matrix_cols(h)) {
@@ -69,12 +72,50 @@ static int l_eigen(lua_State *L) {
         }
     }
   }
+  lvs_eigen_opts eo = {0};
+  if (lua_istable(L, 2)) {
+    static const char *const methods[] = {"auto", "dense", "krylov", NULL};
+    lua_getfield(L, 2, "method");
+    if (!lua_isnil(L, -1)) {
+      const char *m = lua_type(L, -1) == LUA_TSTRING ? lua_tostring(L, -1) : NULL;
+      int k = 0;
+      while (m && methods[k] && strcmp(methods[k], m) != 0) k++;
+      if (!m || !methods[k]) return luaL_argerror(L, 2, "option 'method' must be \"auto\", \"dense\" or \"krylov\"");
+      eo.method = k == 0 ? LVS_EIGEN_AUTO : k == 1 ? LVS_EIGEN_DENSE : LVS_EIGEN_KRYLOV;
+    }
+    lua_pop(L, 1);
+    lua_getfield(L, 2, "near");
+    if (!lua_isnil(L, -1)) {
+      if (!lua_isnumber(L, -1) || !isfinite(lua_tonumber(L, -1)))
+        return luaL_argerror(L, 2, "option 'near' must be a finite number");
+      eo.has_near = 1;
+      eo.near = lua_tonumber(L, -1);
+    }
+    lua_pop(L, 1);
+    eo.tol = lvsL_optfield_num(L, 2, "tol", 0.0, "eigen", 2);
+    if (!(eo.tol >= 0.0 && eo.tol < 1.0)) return luaL_argerror(L, 2, "option 'tol' must be from 0 (machine precision) to below 1");
+    lua_Integer mi = lvsL_optfield_int(L, 2, "maxiter", 0, "eigen", 2);
+    if (mi < 0 || mi > 2147483647) return luaL_argerror(L, 2, "option 'maxiter' must be a positive integer");
+    eo.maxiter = (size_t)mi;
+    lua_Integer ncv = lvsL_optfield_int(L, 2, "ncv", 0, "eigen", 2);
+    if (ncv < 0 || (ncv > 0 && ((size_t)ncv <= (size_t)count || (size_t)ncv > n))) {
+      lua_pushfstring(L, "option 'ncv' must be from count + 1 = %d to %d, got %d", (int)count + 1, (int)n, (int)ncv);
+      return luaL_argerror(L, 2, lua_tostring(L, -1));
+    }
+    eo.ncv = (size_t)ncv;
+    if (eo.method == LVS_EIGEN_KRYLOV && !lvs_matrix_is_sparse(h))
+      return luaL_argerror(L, 2, "option 'method': 'krylov' needs a sparse matrix (this one is stored dense)");
+  }
   double *w = lua_newuserdatauv(L, (size_t)count * sizeof(double), 0); /* GC-owned */
   lvs_matrix **out = vectors ? lvsL_newmatrix(L) : NULL;
-  int st = comp ? lvs_eigen_sectors(h, comp, (size_t)count, vectors, w, out)
-                : lvs_eigen(h, (size_t)count, vectors, w, out);
+  int st = lvs_eigen_ex(h, comp, (size_t)count, vectors, &eo, w, out);
   if (st == LVS_EINVAL && comp && strstr(lvs_errmsg(ctx), "couples two blocks")) {
     lua_pushfstring(L, "option 'blocks': %s", lvs_errmsg(ctx));
+    lvs_clear_error(ctx);
+    return luaL_argerror(L, 2, lua_tostring(L, -1));
+  }
+  if (st == LVS_EINVAL && eo.has_near && strstr(lvs_errmsg(ctx), "near = ")) {
+    lua_pushfstring(L, "option 'near': %s", lvs_errmsg(ctx) + (strncmp(lvs_errmsg(ctx), "eigen: ", 7) ? 0 : 7));
     lvs_clear_error(ctx);
     return luaL_argerror(L, 2, lua_tostring(L, -1));
   }

@@ -36,154 +36,6 @@ int lvsi_check_hermitian(const lvs_matrix *h, double tol, const char *what) {
 
 /* ---- structure: symmetry sectors and tridiagonal matrices --------------- */
 
-typedef struct {
-  double w;
-  size_t blk, col;
-} evrec;
-
-static int cmp_evrec(const void *x, const void *y) {
-  const evrec *a = x, *b = y;
-  if (a->w != b->w) return a->w < b->w ? -1 : 1;
-  if (a->blk != b->blk) return a->blk < b->blk ? -1 : 1;
-  return a->col < b->col ? -1 : a->col > b->col;
-}
-
-static double complex entry_at(const lvs_matrix *m, size_t k) {
-  return m->cplx ? CMPLX(m->a[2 * k], m->a[2 * k + 1]) : m->a[k];
-}
-
-/* Spectrum of a plain Hermitian matrix block by block: comp[i] (0..nb-1)
- * gives the block of state i. Each block is diagonalized densely (its
- * lowest min(count, size) pairs), the values are merged in ascending order
- * (ties by block, then by position: deterministic) and the vectors are
- * scattered into an n x count dense matrix. An entry coupling two blocks is
- * an error (LVS_EINVAL, naming it). source: METHODS.md 4 (symmetry sectors). */
-static int eigen_blocks(const lvs_matrix *a, const size_t *comp, size_t nb, size_t count,
-                        int want, double *w, lvs_matrix **vecs) {
-  lvs_ctx *ctx = a->ctx;
-  size_t n = a->rows;
-  int st = LVS_OK;
-  size_t *size = lvsi_calloc(ctx, nb, sizeof(size_t));
-  size_t *loc = lvsi_malloc(ctx, n * sizeof(size_t));
-  lvs_matrix **blk = lvsi_calloc(ctx, nb, sizeof(lvs_matrix *));
-  lvs_matrix **bv = lvsi_calloc(ctx, nb, sizeof(lvs_matrix *));
-  double **bw = lvsi_calloc(ctx, nb, sizeof(double *));
-  evrec *rec = NULL;
-  lvs_matrix *z = NULL;
-  if (!size || !loc || !blk || !bv || !bw) {
-    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
-    goto done;
-  }
-  for (size_t i = 0; i < n; i++) loc[i] = size[comp[i]]++;
-  int diag = nb == n; /* every block is one state: no LAPACK calls */
-  if (diag) {
-    if (!(rec = lvsi_malloc(ctx, n * sizeof(evrec)))) {
-      st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
-      goto done;
-    }
-    for (size_t i = 0; i < n; i++) rec[comp[i]] = (evrec){0.0, comp[i], 0};
-  } else {
-    for (size_t b = 0; b < nb; b++)
-      if ((st = lvsi_mat_alloc(ctx, size[b], size[b], a->cplx, 0, 0, &blk[b]))) goto done;
-  }
-  /* scatter the entries into their blocks; an entry between two is an error */
-  for (size_t j = 0; j < n; j++) {
-    size_t k0 = a->sparse ? a->cp[j] : 0, k1 = a->sparse ? a->cp[j + 1] : n;
-    for (size_t k = k0; k < k1; k++) {
-      size_t i = a->sparse ? a->ri[k] : k;
-      double complex v = entry_at(a, a->sparse ? k : i + j * n);
-      if (v == 0.0) continue;
-      if (comp[i] != comp[j]) {
-        st = lvsi_fail(ctx, LVS_EINVAL, "entry (%zu, %zu) = %.3g couples two blocks", i + 1, j + 1,
-                       cabs(v));
-        goto done;
-      }
-      if (diag) {
-        rec[comp[i]].w = creal(v);
-        continue;
-      }
-      lvs_matrix *m = blk[comp[j]];
-      size_t p = loc[i] + loc[j] * m->rows;
-      if (m->cplx) {
-        m->a[2 * p] = creal(v);
-        m->a[2 * p + 1] = cimag(v);
-      } else {
-        m->a[p] = creal(v);
-      }
-    }
-  }
-  if (diag) {
-    qsort(rec, n, sizeof(evrec), cmp_evrec);
-    for (size_t k = 0; k < count; k++) w[k] = rec[k].w;
-    if (want) {
-      if ((st = lvsi_mat_alloc(ctx, n, count, a->cplx, 0, 0, &z))) goto done;
-      for (size_t i = 0; i < n; i++) loc[comp[i]] = i; /* block -> state */
-      for (size_t k = 0; k < count; k++) z->a[(a->cplx ? 2 : 1) * (loc[rec[k].blk] + k * n)] = 1.0;
-      *vecs = z;
-      z = NULL;
-    }
-    goto done;
-  }
-  size_t total = 0;
-  for (size_t b = 0; b < nb; b++) {
-    size_t kb = count < size[b] ? count : size[b];
-    if (!(bw[b] = lvsi_malloc(ctx, kb * sizeof(double)))) {
-      st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
-      goto done;
-    }
-    if ((st = lvs_eigen(blk[b], kb, want, bw[b], want ? &bv[b] : NULL))) goto done;
-    total += kb;
-    lvs_matrix_free(blk[b]);
-    blk[b] = NULL;
-  }
-  if (!(rec = lvsi_malloc(ctx, total * sizeof(evrec)))) {
-    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
-    goto done;
-  }
-  size_t r = 0;
-  for (size_t b = 0; b < nb; b++) {
-    size_t kb = count < size[b] ? count : size[b];
-    for (size_t c = 0; c < kb; c++) rec[r++] = (evrec){bw[b][c], b, c};
-  }
-  qsort(rec, total, sizeof(evrec), cmp_evrec);
-  for (size_t k = 0; k < count; k++) w[k] = rec[k].w;
-  if (want) {
-    if ((st = lvsi_mat_alloc(ctx, n, count, a->cplx, 0, 0, &z))) goto done;
-    /* members of each block in ascending order: walk states once per column */
-    for (size_t k = 0; k < count; k++) {
-      const lvs_matrix *v = bv[rec[k].blk];
-      size_t m = v->rows, c = rec[k].col;
-      for (size_t i = 0; i < n; i++) {
-        if (comp[i] != rec[k].blk) continue;
-        size_t src = loc[i] + c * m, dst = i + k * n;
-        if (a->cplx) {
-          z->a[2 * dst] = v->a[2 * src];
-          z->a[2 * dst + 1] = v->a[2 * src + 1];
-        } else {
-          z->a[dst] = v->a[src];
-        }
-      }
-    }
-    *vecs = z;
-    z = NULL;
-  }
-done:
-  if (blk)
-    for (size_t b = 0; b < nb; b++) lvs_matrix_free(blk[b]);
-  if (bv)
-    for (size_t b = 0; b < nb; b++) lvs_matrix_free(bv[b]);
-  if (bw)
-    for (size_t b = 0; b < nb; b++) lvsi_free(ctx, bw[b]);
-  lvsi_free(ctx, blk);
-  lvsi_free(ctx, bv);
-  lvsi_free(ctx, bw);
-  lvsi_free(ctx, size);
-  lvsi_free(ctx, loc);
-  lvsi_free(ctx, rec);
-  lvs_matrix_free(z);
-  return st;
-}
-
 /* Real symmetric tridiagonal (sparse, bandwidth 1): dstevr (MRRR for all
  * pairs, bisection + inverse iteration for a subset), O(n count) memory. */
 static int eigen_tridiag(const lvs_matrix *a, size_t count, int want, double *w, lvs_matrix **vecs) {
@@ -233,53 +85,434 @@ done:
   return st;
 }
 
-int lvs_eigen_sectors(const lvs_matrix *h, const size_t *comp, size_t count, int want_vectors,
-                      double *w, lvs_matrix **vecs) {
+/* ---- one sector ------------------------------------------------------ */
+
+enum { M_DENSE, M_KRYLOV, M_TRIDIAG };
+
+/* the kb values of the plain Hermitian block m nearest `near` (ascending)
+ * and their vectors, from its full dense spectrum */
+static int dense_nearest(const lvs_matrix *m, size_t kb, int want, double near, double *w, lvs_matrix **vecs) {
+  lvs_ctx *ctx = m->ctx;
+  size_t s = m->rows, el = m->cplx ? 2 : 1;
+  double *wall = lvsi_malloc(ctx, s * sizeof(double));
+  lvs_matrix *vall = NULL, *z = NULL;
+  int st = wall ? lvs_eigen_dense(m, s, want, wall, want ? &vall : NULL)
+                : lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen");
+  if (!st && want) st = lvsi_mat_alloc(ctx, s, kb, m->cplx, 0, 0, &z);
+  if (!st) {
+    /* the nearest kb form a window of the ascending spectrum: slide it */
+    size_t lo = 0;
+    while (lo + kb < s && fabs(wall[lo + kb] - near) < fabs(wall[lo] - near)) lo++;
+    memcpy(w, wall + lo, kb * sizeof(double));
+    if (want) memcpy(z->a, vall->a + lo * s * el, kb * s * el * sizeof(double));
+    if (want) *vecs = z, z = NULL;
+  }
+  lvsi_free(ctx, wall);
+  lvs_matrix_free(vall);
+  lvs_matrix_free(z);
+  return st;
+}
+
+/* kb pairs of one plain block by the chosen method; vectors (s x kb dense)
+ * into *vecs when want */
+static int solve_sector(const lvs_matrix *m, int method, size_t kb, int want, const lvs_eigen_opts *o, double *w,
+                        lvs_matrix **vecs) {
+  int near = o && o->has_near;
+  if (method == M_KRYLOV) {
+    lvs_matrix *z = NULL;
+    int st = want ? lvsi_mat_alloc(m->ctx, m->rows, kb, m->cplx, 0, 0, &z) : LVS_OK;
+    if (!st) st = lvsi_krylov(m, kb, o, w, want ? z->a : NULL);
+    if (!st && want) *vecs = z, z = NULL;
+    lvs_matrix_free(z);
+    return st;
+  }
+  if (method == M_TRIDIAG) return eigen_tridiag(m, kb, want, w, vecs);
+  if (near) return dense_nearest(m, kb, want, o->near, w, vecs);
+  return lvs_eigen_dense(m, kb, want, w, vecs);
+}
+
+/* ---- the sector plan --------------------------------------------------- */
+
+typedef struct {
+  const lvs_matrix *a; /* plain, Hermitian (checked) */
+  size_t n, nb, count;
+  const size_t *comp;
+  size_t *size, *loc, *order, *start; /* per block size; position in block; states by block */
+  int *method;
+  size_t *kb; /* pairs wanted from each block */
+} splan;
+
+static void splan_free(lvs_ctx *ctx, splan *p) {
+  lvsi_free(ctx, p->size);
+  lvsi_free(ctx, p->loc);
+  lvsi_free(ctx, p->order);
+  lvsi_free(ctx, p->start);
+  lvsi_free(ctx, p->method);
+  lvsi_free(ctx, p->kb);
+}
+
+/* sizes, member lists and each block's method; every dense block is checked
+ * against the dense cap here, before any block is worked on */
+static int splan_init(splan *p, const lvs_eigen_opts *o) {
+  lvs_ctx *ctx = p->a->ctx;
+  size_t n = p->n, nb = p->nb;
+  p->size = lvsi_calloc(ctx, nb, sizeof(size_t));
+  p->start = lvsi_calloc(ctx, nb + 1, sizeof(size_t));
+  p->loc = lvsi_malloc(ctx, (n ? n : 1) * sizeof(size_t));
+  p->order = lvsi_malloc(ctx, (n ? n : 1) * sizeof(size_t));
+  p->method = lvsi_calloc(ctx, nb, sizeof(int));
+  p->kb = lvsi_calloc(ctx, nb, sizeof(size_t));
+  if (!p->size || !p->start || !p->loc || !p->order || !p->method || !p->kb)
+    return lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (sectors)");
+  for (size_t i = 0; i < n; i++) p->loc[i] = p->size[p->comp[i]]++;
+  for (size_t b = 0; b < nb; b++) p->start[b + 1] = p->start[b] + p->size[b];
+  for (size_t i = 0; i < n; i++) p->order[p->start[p->comp[i]] + p->loc[i]] = i;
+  int want_method = o ? o->method : LVS_EIGEN_AUTO, near = o && o->has_near;
+  const lvs_matrix *a = p->a;
+  /* the caller's sectors: no stored nonzero may couple two of them */
+  size_t w = a->cplx ? 2 : 1;
+  for (size_t j = 0; j < n; j++) {
+    size_t k0 = a->sparse ? a->cp[j] : 0, k1 = a->sparse ? a->cp[j + 1] : n;
+    for (size_t k = k0; k < k1; k++) {
+      size_t i = a->sparse ? a->ri[k] : k, src = a->sparse ? k : i + j * n;
+      double re = a->a[w * src], im = w == 2 ? a->a[w * src + 1] : 0.0;
+      if (p->comp[i] != p->comp[j] && (re != 0.0 || im != 0.0))
+        return lvsi_fail(ctx, LVS_EINVAL, "entry (%zu, %zu) = %.3g couples two blocks", i + 1, j + 1,
+                         hypot(re, im));
+    }
+  }
+  for (size_t b = 0; b < nb; b++) {
+    size_t sz = p->size[b], kb = p->count < sz ? p->count : sz;
+    int m = M_DENSE;
+    int tri = nb == 1 && !near && a->sparse && !a->cplx && n > 64 && lvsi_mat_bandwidth(a) == 1;
+    int kry_ok = a->sparse && kb + 2 <= sz;
+    if (want_method == LVS_EIGEN_KRYLOV) m = kry_ok ? M_KRYLOV : M_DENSE;
+    else if (tri) m = M_TRIDIAG;
+    else if (want_method == LVS_EIGEN_AUTO && kry_ok && sz > LVS_KRYLOV_MIN_DIM && kb * 8 <= sz) m = M_KRYLOV;
+    p->method[b] = m;
+    p->kb[b] = kb;
+    int st = LVS_OK;
+    if (m == M_DENSE && sz > 1)
+      st = lvsi_dense_ok(ctx, sz, sz, a->cplx ? 16 : 8, nb > 1 ? "eigen (dense copy of a sector)" : "eigen (working copy)");
+    if (st) return st;
+  }
+  return LVS_OK;
+}
+
+/* block b of the plain op as its own plain matrix (sparse stays sparse) */
+static int extract_sector(const splan *p, size_t b, int dense, lvs_matrix **out) {
+  const lvs_matrix *a = p->a;
+  lvs_ctx *ctx = a->ctx;
+  size_t sz = p->size[b], n = p->n, w = a->cplx ? 2 : 1;
+  const size_t *mem = p->order + p->start[b];
+  size_t nnz = 0;
+  if (a->sparse)
+    for (size_t c = 0; c < sz; c++) nnz += a->cp[mem[c] + 1] - a->cp[mem[c]];
+  lvs_matrix *m = NULL;
+  int st = lvsi_mat_alloc(ctx, sz, sz, a->cplx, !dense, nnz, &m);
+  if (st) return st;
+  for (size_t c = 0; c < sz; c++) {
+    size_t j = mem[c];
+    if (!dense) m->cp[c] = m->nnz;
+    size_t k0 = a->sparse ? a->cp[j] : 0, k1 = a->sparse ? a->cp[j + 1] : n;
+    for (size_t k = k0; k < k1; k++) {
+      size_t i = a->sparse ? a->ri[k] : k, src = a->sparse ? k : i + j * n;
+      double re = a->a[w * src], im = w == 2 ? a->a[w * src + 1] : 0.0;
+      if (re == 0.0 && im == 0.0) continue; /* (couplings were refused by splan_init) */
+      size_t dst = dense ? p->loc[i] + c * sz : m->nnz++;
+      if (!dense) m->ri[dst] = p->loc[i];
+      m->a[w * dst] = re;
+      if (w == 2) m->a[w * dst + 1] = im;
+    }
+  }
+  if (!dense) m->cp[sz] = m->nnz;
+  *out = m;
+  return LVS_OK;
+}
+
+/* ---- merge -------------------------------------------------------------- */
+
+typedef struct {
+  double w;
+  size_t blk, col;
+} evrec;
+
+static int cmp_evrec(const void *x, const void *y) {
+  const evrec *a = x, *b = y;
+  if (a->w != b->w) return a->w < b->w ? -1 : 1;
+  if (a->blk != b->blk) return a->blk < b->blk ? -1 : 1;
+  return a->col < b->col ? -1 : a->col > b->col;
+}
+
+static _Thread_local double tl_near;
+static int cmp_evrec_near(const void *x, const void *y) {
+  const evrec *a = x, *b = y;
+  double da = fabs(a->w - tl_near), db = fabs(b->w - tl_near);
+  if (da != db) return da < db ? -1 : 1;
+  return cmp_evrec(x, y);
+}
+
+/* choose count records (lowest, or nearest `near`), leave them ascending */
+static void select_records(evrec *rec, size_t total, size_t count, const lvs_eigen_opts *o) {
+  if (o && o->has_near) {
+    tl_near = o->near;
+    qsort(rec, total, sizeof(evrec), cmp_evrec_near);
+    qsort(rec, count, sizeof(evrec), cmp_evrec);
+  } else {
+    qsort(rec, total, sizeof(evrec), cmp_evrec);
+  }
+}
+
+/* Spectrum of a plain Hermitian matrix sector by sector (comp[i] in
+ * 0..nb-1 is the sector of state i): each sector's lowest (or nearest)
+ * min(count, size) pairs by its method, values merged in ascending order
+ * (ties by sector, then position: deterministic), vectors scattered into an
+ * n x count dense matrix. Sectors are extracted and solved one at a time.
+ * source: METHODS.md 4 (symmetry sectors). */
+static int eigen_blocks(splan *p, int want, const lvs_eigen_opts *o, double *w, lvs_matrix **vecs) {
+  const lvs_matrix *a = p->a;
+  lvs_ctx *ctx = a->ctx;
+  size_t n = p->n, nb = p->nb, count = p->count, el = a->cplx ? 2 : 1;
+  int st = LVS_OK;
+  lvs_matrix **bv = lvsi_calloc(ctx, nb, sizeof(lvs_matrix *));
+  double **bw = lvsi_calloc(ctx, nb, sizeof(double *));
+  double *bstart = NULL;
+  evrec *rec = NULL;
+  lvs_matrix *z = NULL, *m = NULL;
+  if (!bv || !bw) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
+    goto done;
+  }
+  size_t total = 0;
+  for (size_t b = 0; b < nb; b++) {
+    size_t kb = p->kb[b], sz = p->size[b];
+    if (!(bw[b] = lvsi_malloc(ctx, kb * sizeof(double)))) {
+      st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
+      goto done;
+    }
+    if (sz == 1) { /* a one-state sector needs no solver */
+      double re = 0.0;
+      size_t j = p->order[p->start[b]];
+      double complex v = lvsi_mat_at(a, j, j);
+      re = creal(v);
+      bw[b][0] = re;
+      if (want && !(st = lvsi_mat_alloc(ctx, 1, 1, a->cplx, 0, 0, &bv[b]))) bv[b]->a[0] = 1.0;
+      if (st) goto done;
+      total += 1;
+      continue;
+    }
+    if ((st = extract_sector(p, b, p->method[b] == M_DENSE, &m))) goto done;
+    lvs_eigen_opts ob = o ? *o : (lvs_eigen_opts){0};
+    ob.start = NULL;
+    if (o && o->start && p->method[b] == M_KRYLOV) { /* the start vector's part in this sector */
+      if (!(bstart = lvsi_malloc(ctx, sz * el * sizeof(double)))) {
+        st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
+        goto done;
+      }
+      double nrm = 0.0;
+      for (size_t c = 0; c < sz; c++)
+        for (size_t e = 0; e < el; e++) {
+          bstart[el * c + e] = o->start[el * p->order[p->start[b] + c] + e];
+          nrm += bstart[el * c + e] * bstart[el * c + e];
+        }
+      if (nrm > 0.0) ob.start = bstart;
+    }
+    st = solve_sector(m, p->method[b], kb, want, &ob, bw[b], want ? &bv[b] : NULL);
+    lvsi_free(ctx, bstart);
+    bstart = NULL;
+    lvs_matrix_free(m);
+    m = NULL;
+    if (st) goto done;
+    total += kb;
+  }
+  if (!(rec = lvsi_malloc(ctx, total * sizeof(evrec)))) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen (blocks)");
+    goto done;
+  }
+  size_t r = 0;
+  for (size_t b = 0; b < nb; b++)
+    for (size_t c = 0; c < p->kb[b]; c++) rec[r++] = (evrec){bw[b][c], b, c};
+  select_records(rec, total, count, o);
+  for (size_t k = 0; k < count; k++) w[k] = rec[k].w;
+  if (want) {
+    if ((st = lvsi_mat_alloc(ctx, n, count, a->cplx, 0, 0, &z))) goto done;
+    for (size_t k = 0; k < count; k++) {
+      size_t b = rec[k].blk, sz = p->size[b];
+      const double *src = bv[b]->a + el * sz * rec[k].col;
+      const size_t *mem = p->order + p->start[b];
+      double *dst = z->a + el * n * k;
+      for (size_t c = 0; c < sz; c++)
+        for (size_t e = 0; e < el; e++) dst[el * mem[c] + e] = src[el * c + e];
+    }
+    *vecs = z;
+    z = NULL;
+  }
+done:
+  if (bv)
+    for (size_t b = 0; b < nb; b++) lvs_matrix_free(bv[b]);
+  if (bw)
+    for (size_t b = 0; b < nb; b++) lvsi_free(ctx, bw[b]);
+  lvsi_free(ctx, bv);
+  lvsi_free(ctx, bw);
+  lvsi_free(ctx, rec);
+  lvsi_free(ctx, bstart);
+  lvs_matrix_free(z);
+  lvs_matrix_free(m);
+  return st;
+}
+
+/* options checked once for every entry point */
+static int check_opts(lvs_ctx *ctx, const lvs_eigen_opts *o) {
+  if (!o) return LVS_OK;
+  if (o->method < LVS_EIGEN_AUTO || o->method > LVS_EIGEN_KRYLOV)
+    return lvsi_fail(ctx, LVS_EINVAL, "eigen: unknown method %d", o->method);
+  if (o->has_near && !isfinite(o->near)) return lvsi_fail(ctx, LVS_EINVAL, "eigen: near must be finite");
+  if (!(o->tol >= 0.0) || !isfinite(o->tol))
+    return lvsi_fail(ctx, LVS_EINVAL, "eigen: tol must be finite and not negative, got %g", o->tol);
+  return LVS_OK;
+}
+
+/* the sector numbers: the caller's (checked: every block used) or the
+ * connected components of the sparsity graph */
+static int sector_numbers(const lvs_matrix *a, const size_t *comp, size_t n, size_t *cc, size_t *nb) {
+  lvs_ctx *ctx = a->ctx;
+  if (!comp) return lvsi_components(a, NULL, cc, nb);
+  *nb = 0;
+  for (size_t i = 0; i < n; i++) {
+    cc[i] = comp[i];
+    if (comp[i] + 1 > *nb) *nb = comp[i] + 1;
+  }
+  size_t *seen = lvsi_calloc(ctx, *nb ? *nb : 1, sizeof(size_t));
+  if (!seen) return lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen");
+  int st = LVS_OK;
+  for (size_t i = 0; i < n; i++) seen[cc[i]] = 1;
+  for (size_t b = 0; !st && b < *nb; b++)
+    if (!seen[b]) st = lvsi_fail(ctx, LVS_EINVAL, "block %zu is empty", b + 1);
+  lvsi_free(ctx, seen);
+  return st;
+}
+
+/* A complex op whose imaginary parts are all zero (products such as
+ * Sy Sy keep complex storage) as a real copy, so the real solvers (Lanczos
+ * rather than Arnoldi, dsyevr rather than zheevr) do the work; NULL in
+ * *out when some imaginary part is nonzero. */
+static int real_copy_if_real(const lvs_matrix *a, lvs_matrix **out) {
+  *out = NULL;
+  size_t cnt = a->sparse ? a->nnz : a->rows * a->cols;
+  for (size_t k = 0; k < cnt; k++)
+    if (a->a[2 * k + 1] != 0.0) return LVS_OK;
+  lvs_matrix *r = NULL;
+  int st = lvsi_mat_alloc(a->ctx, a->rows, a->cols, 0, a->sparse, a->sparse ? a->nnz : 0, &r);
+  if (st) return st;
+  for (size_t k = 0; k < cnt; k++) r->a[k] = a->a[2 * k];
+  if (a->sparse) {
+    memcpy(r->cp, a->cp, (a->cols + 1) * sizeof(size_t));
+    memcpy(r->ri, a->ri, a->nnz * sizeof(size_t));
+    r->nnz = a->nnz;
+  }
+  r->band = a->band;
+  *out = r;
+  return LVS_OK;
+}
+
+/* real vectors as a complex matrix (the caller's op was complex) */
+static int to_complex(lvs_matrix **vecs) {
+  lvs_matrix *v = *vecs, *c = NULL;
+  if (!v || v->cplx) return LVS_OK;
+  int st = lvsi_mat_alloc(v->ctx, v->rows, v->cols, 1, 0, 0, &c);
+  if (st) return st;
+  for (size_t k = 0; k < v->rows * v->cols; k++) c->a[2 * k] = v->a[k];
+  lvs_matrix_free(v);
+  *vecs = c;
+  return LVS_OK;
+}
+
+/* Order of work, so that an impossible request fails before any work that
+ * grows faster than the stored entries: options and sizes, the vectors'
+ * cap, the plain visible copy (O(nnz)), the Hermitian check (O(nnz log
+ * nnz) on sparse storage), the sectors, every dense sector's cap, then the
+ * solves one sector at a time. */
+int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want_vectors,
+                 const lvs_eigen_opts *o, double *w, lvs_matrix **vecs) {
   lvs_ctx *ctx = h->ctx;
   if (vecs) *vecs = NULL;
-  int st = lvsi_check_hermitian(h, LVS_DEFAULT_HERM_TOL, "matrix");
+  int st = check_opts(ctx, o);
   if (st) return st;
   size_t n = lvs_matrix_rows(h);
+  if (n != lvs_matrix_cols(h))
+    return lvsi_fail(ctx, LVS_EDIM, "matrix must be square, got %zux%zu", n, lvs_matrix_cols(h));
   if (count == 0 || count > n) count = n;
   if (want_vectors && (st = lvsi_dense_ok(ctx, n, count, h->cplx ? 16 : 8, "eigenvectors"))) return st;
+  if (o && o->method == LVS_EIGEN_KRYLOV && !h->sparse)
+    return lvsi_fail(ctx, LVS_EINVAL, "eigen: method 'krylov' needs a sparse matrix (this one is stored dense)");
+  if (h->cplx && !h->vis) { /* complex storage of a real op: solve it as real */
+    lvs_matrix *r = NULL;
+    if ((st = real_copy_if_real(h, &r))) return st;
+    if (r) {
+      st = lvs_eigen_ex(r, comp, count, want_vectors, o, w, vecs);
+      lvs_matrix_free(r);
+      if (!st && want_vectors && vecs) st = to_complex(vecs);
+      if (st && vecs) lvs_matrix_free(*vecs), *vecs = NULL;
+      return st;
+    }
+  }
+  if (!h->sparse && !h->vis && !comp) { /* plain dense: LAPACK on the whole */
+    if (o && o->has_near) {
+      if ((st = lvsi_check_hermitian(h, LVS_DEFAULT_HERM_TOL, "matrix"))) return st;
+      return dense_nearest(h, count, want_vectors, o->near, w, vecs);
+    }
+    return lvs_eigen_dense(h, count, want_vectors, w, vecs);
+  }
   lvs_matrix *p = NULL;
   if (h->vis && (st = lvs_matrix_visible(h, 0, &p))) return st;
-  const lvs_matrix *a = p ? p : h;
-  size_t nb = 0;
-  size_t *cc = lvsi_malloc(ctx, (n ? n : 1) * sizeof(size_t));
-  if (!cc) {
-    lvs_matrix_free(p);
-    return lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen");
-  }
-  if (comp) {
-    for (size_t i = 0; i < n; i++) {
-      cc[i] = comp[i];
-      if (comp[i] + 1 > nb) nb = comp[i] + 1;
+  if (p && p->cplx) { /* a padded complex op: the same test on its visible copy */
+    lvs_matrix *r = NULL;
+    if ((st = real_copy_if_real(p, &r))) goto fail_p;
+    if (r) {
+      lvs_matrix_free(p);
+      st = lvs_eigen_ex(r, comp, count, want_vectors, o, w, vecs);
+      lvs_matrix_free(r);
+      if (!st && want_vectors && vecs) st = to_complex(vecs);
+      if (st && vecs) lvs_matrix_free(*vecs), *vecs = NULL;
+      return st;
     }
-    size_t *seen = lvsi_calloc(ctx, nb ? nb : 1, sizeof(size_t));
-    if (!seen) st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen");
-    for (size_t i = 0; !st && i < n; i++) seen[cc[i]] = 1;
-    for (size_t b = 0; !st && b < nb; b++)
-      if (!seen[b]) st = lvsi_fail(ctx, LVS_EINVAL, "block %zu is empty", b + 1);
-    lvsi_free(ctx, seen);
+  }
+  const lvs_matrix *a = p ? p : h;
+  size_t *cc = NULL;
+  splan pl = {0};
+  if ((st = lvsi_check_hermitian(a, LVS_DEFAULT_HERM_TOL, "matrix"))) goto done;
+  if (!(cc = lvsi_malloc(ctx, (n ? n : 1) * sizeof(size_t)))) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen");
+    goto done;
+  }
+  pl.a = a;
+  pl.n = n;
+  pl.count = count;
+  pl.comp = cc;
+  if ((st = sector_numbers(a, comp, n, cc, &pl.nb))) goto done;
+  if ((st = splan_init(&pl, o))) goto done;
+  if (pl.nb == 1) { /* one sector: the op itself, no copy */
+    st = solve_sector(a, pl.method[0], count, want_vectors, o, w, vecs);
   } else {
-    st = lvsi_components(a, NULL, cc, &nb);
+    st = eigen_blocks(&pl, want_vectors, o, w, vecs);
   }
-  if (!st && nb > 1) {
-    st = eigen_blocks(a, cc, nb, count, want_vectors, w, vecs);
-  } else if (!st && a->sparse && !a->cplx && n > 64 && lvsi_mat_bandwidth(a) == 1) {
-    st = eigen_tridiag(a, count, want_vectors, w, vecs);
-  } else if (!st) {
-    st = lvs_eigen_dense(a, count, want_vectors, w, vecs);
-  }
+done:
+  splan_free(ctx, &pl);
   lvsi_free(ctx, cc);
+  lvs_matrix_free(p);
+  return st;
+fail_p:
   lvs_matrix_free(p);
   return st;
 }
 
+int lvs_eigen_sectors(const lvs_matrix *h, const size_t *comp, size_t count, int want_vectors,
+                      double *w, lvs_matrix **vecs) {
+  return lvs_eigen_ex(h, comp, count, want_vectors, NULL, w, vecs);
+}
+
 int lvs_eigen(const lvs_matrix *h, size_t count, int want_vectors, double *w, lvs_matrix **vecs) {
-  if (!h->sparse && !h->vis) return lvs_eigen_dense(h, count, want_vectors, w, vecs);
-  return lvs_eigen_sectors(h, NULL, count, want_vectors, w, vecs);
+  return lvs_eigen_ex(h, NULL, count, want_vectors, NULL, w, vecs);
 }
 
 /* The dense path: dsyevd/zheevd for all pairs, dsyevr/zheevr for a subset. */

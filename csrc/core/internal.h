@@ -73,6 +73,19 @@ LVSI int lvsi_components(const lvs_matrix *a, const lvs_matrix *b, size_t *comp,
 /* eigen.c: the dense path of lvs_eigen (no structure detection) */
 LVSI int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, double *w, lvs_matrix **vecs);
 
+/* krylov.c: ARPACK on a plain sparse Hermitian op (see lvs_eigen_ex);
+ * Gershgorin bounds of a plain sparse Hermitian op */
+LVSI int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, double *w, double *z);
+LVSI void lvsi_gershgorin(const lvs_matrix *a, double *lo, double *hi);
+/* sparse_lu.c: UMFPACK LU of an n x n CSC matrix (arrays copied; complex
+ * interleaved); a singular matrix is LVS_EINVAL */
+typedef struct lvsi_splu lvsi_splu;
+LVSI int lvsi_splu_new(lvs_ctx *ctx, size_t n, int cplx, const size_t *cp, const size_t *ri, const double *a,
+                       const char *what, lvsi_splu **out);
+LVSI int lvsi_splu_solve(const lvsi_splu *f, const double *b, double *x);
+LVSI void lvsi_splu_free(lvsi_splu *f);
+LVSI size_t lvsi_splu_dim(const lvsi_splu *f);
+
 LVSI int lvsi_check_hermitian(const lvs_matrix *h, double tol, const char *what);
 LVSI int lvsi_basis_twoS(const lvs_basis *b);
 /* basis kinds defined in their own files (box.c, rotor.c); see basis.c */

@@ -1,0 +1,550 @@
+/* krylov.c -- a few eigenpairs of a large sparse Hermitian op by ARPACK.
+ *
+ * Real symmetric: the implicitly restarted Lanczos method (dsaupd/dseupd;
+ * D. C. Sorensen, SIAM J. Matrix Anal. Appl. 13, 357 (1992); R. B. Lehoucq,
+ * D. C. Sorensen, C. Yang, "ARPACK Users' Guide", SIAM 1998, sections 2.3
+ * and 4.2). Complex Hermitian: the implicitly restarted Arnoldi method
+ * (znaupd/zneupd; ARPACK has no complex Hermitian driver), whose Ritz values
+ * are real to rounding; we keep their real parts.
+ *
+ * Lowest levels: mode 1, which = "SA" (smallest algebraic; "SR" for the
+ * complex driver), OP = H. Levels nearest a target sigma (`near`): mode 3,
+ * shift-invert, which = "LM", OP = (H - sigma)^{-1} applied by a sparse LU
+ * factorization (sparse_lu.c, UMFPACK) computed once; dseupd/zneupd map the
+ * Ritz values back to lambda = sigma + 1/nu (Users' Guide section 3.2).
+ *
+ * Convergence: ARPACK's test |residual| <= tol |theta| per Ritz value, with
+ * tol = 0 meaning machine precision (the Users' Guide's default, and
+ * SciPy's eigsh default). A run that ends without every requested value
+ * converged is LVS_ENOCONV naming the tolerance, the restarts and how many
+ * converged; it never returns unconverged numbers. The start vector is a
+ * fixed pseudo-random vector (splitmix64 of the index), so the same op
+ * gives the same numbers in every call, or the caller's (sweeps pass the
+ * previous point's vectors).
+ *
+ * Products: see "the product y = H x" below (a lower-triangle copy with
+ * 32-bit indices, two threads above LVSI_KRYLOV_THREAD_NNZ entries). */
+#include <arpack.h>
+#include <math.h>
+#include <pthread.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+#include "internal.h"
+
+#define LVSI_KRYLOV_THREAD_NNZ 200000
+
+/* ---- the product y = H x ---------------------------------------------
+ *
+ * The op is copied once per run into its lower triangle (column j: the
+ * diagonal, then rows i > j) with 32-bit row indices: about half the
+ * entries and 12 bytes each, so a product moves about a quarter of the
+ * bytes of the full 16-byte CSC (and half of a full CSR with 32-bit
+ * indices). Each stored entry a = H_ij (i > j) serves twice: y_j +=
+ * conj(a) x_i (gather: H_ji = conj(H_ij)) and y_i += a x_j (scatter).
+ * Two threads take the columns [0, s) and [s, n) (s balances the entries):
+ * the second thread's gathers and scatters all land in y[s, n); the first
+ * thread's gathers land in y[0, s) and its scatters below s too, or in a
+ * private buffer for rows >= s that is added to y afterwards. No two
+ * threads write one word, and the sums are formed in the same order
+ * whatever the thread count. */
+
+typedef struct {
+  size_t n, nnz, split;
+  int cplx, threads;
+  size_t *cp;     /* n + 1 column starts into ri/v (lower triangle, diagonal first) */
+  uint32_t *ri;
+  double *v;      /* values, complex interleaved */
+  double *buf;    /* first thread's scatters into rows >= split (complex: 2 per row) */
+} symop;
+
+static void symop_free(lvs_ctx *ctx, symop *s) {
+  lvsi_free(ctx, s->cp);
+  lvsi_free(ctx, s->ri);
+  lvsi_free(ctx, s->v);
+  lvsi_free(ctx, s->buf);
+}
+
+static int symop_init(symop *s, const lvs_matrix *a) {
+  lvs_ctx *ctx = a->ctx;
+  size_t n = a->cols, w = a->cplx ? 2 : 1, nl = 0;
+  memset(s, 0, sizeof *s);
+  s->n = n;
+  s->cplx = a->cplx;
+  for (size_t j = 0; j < n; j++)
+    for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) nl += a->ri[k] > j;
+  s->nnz = nl + n;
+  s->cp = lvsi_malloc(ctx, (n + 1) * sizeof(size_t));
+  s->ri = lvsi_malloc(ctx, s->nnz * sizeof(uint32_t));
+  s->v = lvsi_malloc(ctx, s->nnz * w * sizeof(double));
+  if (!s->cp || !s->ri || !s->v) {
+    symop_free(ctx, s);
+    return lvsi_fail(ctx, LVS_ENOMEM, "eigen: krylov method: out of memory for the product's copy of the matrix");
+  }
+  size_t q = 0;
+  for (size_t j = 0; j < n; j++) {
+    s->cp[j] = q;
+    s->ri[q] = (uint32_t)j; /* the diagonal first, zero when not stored */
+    s->v[w * q] = 0.0;
+    if (w == 2) s->v[w * q + 1] = 0.0;
+    size_t dq = q++;
+    for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
+      size_t i = a->ri[k];
+      if (i < j) continue;
+      size_t t = i == j ? dq : q++;
+      s->ri[t] = (uint32_t)i;
+      s->v[w * t] = a->a[w * k];
+      if (w == 2) s->v[w * t + 1] = i == j ? 0.0 : a->a[w * k + 1];
+    }
+  }
+  s->cp[n] = q;
+  s->threads = s->nnz >= LVSI_KRYLOV_THREAD_NNZ ? 2 : 1;
+  size_t half = s->nnz / 2, lo = 0, hi = n;
+  while (lo < hi) {
+    size_t mid = lo + (hi - lo) / 2;
+    if (s->cp[mid] < half) lo = mid + 1;
+    else hi = mid;
+  }
+  s->split = lo;
+  if (s->threads > 1 && !(s->buf = lvsi_malloc(ctx, (n - s->split + 1) * w * sizeof(double)))) s->threads = 1;
+  return LVS_OK;
+}
+
+typedef struct {
+  const symop *s;
+  const double *x;
+  double *y;
+  size_t j0, j1, lim; /* columns [j0, j1); scatters to rows >= lim go to buf[i - lim] */
+  double *buf;
+} sym_part;
+
+static void sym_range_real(const sym_part *p) {
+  const symop *s = p->s;
+  const size_t *cp = s->cp;
+  const uint32_t *ri = s->ri;
+  const double *v = s->v, *x = p->x;
+  double *y = p->y, *buf = p->buf;
+  size_t lim = p->lim;
+  for (size_t j = p->j0; j < p->j1; j++) {
+    size_t k = cp[j], e = cp[j + 1];
+    double xj = x[j], acc = v[k] * xj; /* the diagonal */
+    for (k++; k < e; k++) {
+      size_t i = ri[k];
+      acc += v[k] * x[i];
+      if (i < lim) y[i] += v[k] * xj;
+      else buf[i - lim] += v[k] * xj;
+    }
+    y[j] += acc;
+  }
+}
+
+static void sym_range_cplx(const sym_part *p) {
+  const symop *s = p->s;
+  const size_t *cp = s->cp;
+  const uint32_t *ri = s->ri;
+  const double *v = s->v, *x = p->x;
+  double *y = p->y, *buf = p->buf;
+  size_t lim = p->lim;
+  for (size_t j = p->j0; j < p->j1; j++) {
+    size_t k = cp[j], e = cp[j + 1];
+    double xr = x[2 * j], xi = x[2 * j + 1];
+    double ar = v[2 * k] * xr, ai = v[2 * k] * xi;
+    for (k++; k < e; k++) {
+      size_t i = ri[k];
+      double hr = v[2 * k], hi = v[2 * k + 1], ur = x[2 * i], ui = x[2 * i + 1];
+      ar += hr * ur + hi * ui; /* conj(h) x_i */
+      ai += hr * ui - hi * ur;
+      double *t = i < lim ? y + 2 * i : buf + 2 * (i - lim);
+      t[0] += hr * xr - hi * xi; /* h x_j */
+      t[1] += hr * xi + hi * xr;
+    }
+    y[2 * j] += ar;
+    y[2 * j + 1] += ai;
+  }
+}
+
+static void *sym_thread(void *arg) {
+  sym_part *p = arg;
+  if (p->s->cplx) sym_range_cplx(p);
+  else sym_range_real(p);
+  return NULL;
+}
+
+static void sym_apply(const symop *s, const double *x, double *y) {
+  size_t w = s->cplx ? 2 : 1, n = s->n;
+  if (s->threads > 1) {
+    size_t sp = s->split;
+    memset(y, 0, n * w * sizeof(double));
+    memset(s->buf, 0, (n - sp) * w * sizeof(double));
+    sym_part p0 = {s, x, y, 0, sp, sp, s->buf}, p1 = {s, x, y, sp, n, n, NULL};
+    pthread_t t;
+    if (pthread_create(&t, NULL, sym_thread, &p1) == 0) {
+      sym_thread(&p0);
+      pthread_join(t, NULL);
+    } else { /* no thread: the same sums in the same order, here */
+      sym_thread(&p0);
+      sym_thread(&p1);
+    }
+    for (size_t i = 0; i < (n - sp) * w; i++) y[sp * w + i] += s->buf[i];
+    return;
+  }
+  memset(y, 0, n * w * sizeof(double));
+  sym_part p = {s, x, y, 0, n, n, NULL};
+  sym_thread(&p);
+}
+
+/* ---- shift-invert operator ------------------------------------------- */
+
+/* H - sigma as a new CSC copy (every diagonal entry present) */
+static int shifted_copy(const lvs_matrix *a, double sigma, size_t **pcp, size_t **pri, double **pv) {
+  lvs_ctx *ctx = a->ctx;
+  size_t n = a->cols, w = a->cplx ? 2 : 1;
+  size_t cap = a->nnz + n;
+  size_t *cp = lvsi_malloc(ctx, (n + 1) * sizeof(size_t));
+  size_t *ri = lvsi_malloc(ctx, cap * sizeof(size_t));
+  double *v = lvsi_malloc(ctx, cap * w * sizeof(double));
+  if (!cp || !ri || !v) {
+    lvsi_free(ctx, cp);
+    lvsi_free(ctx, ri);
+    lvsi_free(ctx, v);
+    return lvsi_fail(ctx, LVS_ENOMEM, "eigen: out of memory for the shifted matrix");
+  }
+  size_t q = 0;
+  for (size_t j = 0; j < n; j++) {
+    cp[j] = q;
+    int diag = 0;
+    for (size_t k = a->cp[j]; k <= a->cp[j + 1]; k++) {
+      int end = k == a->cp[j + 1];
+      size_t i = end ? SIZE_MAX : a->ri[k];
+      if (!diag && i > j) { /* the diagonal goes here (rows stay ascending) */
+        ri[q] = j;
+        v[w * q] = -sigma;
+        if (w == 2) v[2 * q + 1] = 0.0;
+        q++;
+        diag = 1;
+      }
+      if (end) break;
+      ri[q] = i;
+      v[w * q] = a->a[w * k] - (i == j ? sigma : 0.0);
+      if (w == 2) v[2 * q + 1] = a->a[2 * k + 1];
+      diag |= i == j;
+      q++;
+    }
+  }
+  cp[n] = q;
+  *pcp = cp;
+  *pri = ri;
+  *pv = v;
+  return LVS_OK;
+}
+
+/* ---- Gershgorin bounds (for `near`) ----------------------------------- */
+
+void lvsi_gershgorin(const lvs_matrix *a, double *lo, double *hi) {
+  double l = INFINITY, h = -INFINITY;
+  size_t w = a->cplx ? 2 : 1;
+  for (size_t j = 0; j < a->cols; j++) {
+    double d = 0.0, r = 0.0;
+    for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
+      double m = w == 2 ? hypot(a->a[2 * k], a->a[2 * k + 1]) : fabs(a->a[k]);
+      if (a->ri[k] == j) d = a->a[w * k];
+      else r += m; /* column sums: H Hermitian, so rows and columns agree */
+    }
+    if (d - r < l) l = d - r;
+    if (d + r > h) h = d + r;
+  }
+  if (a->cols == 0) l = h = 0.0;
+  *lo = l;
+  *hi = h;
+}
+
+/* ---- the ARPACK drivers ----------------------------------------------- */
+
+typedef struct {
+  const lvs_matrix *a; /* plain sparse Hermitian, n x n */
+  size_t n, nev, ncv, maxit;
+  double tol;
+  int near_mode;
+  double sigma;
+  const double *start;
+  lvsi_splu *lu;
+  symop mv;
+  size_t restarts, products;
+} kjob;
+
+static void default_start(double *r, size_t n, int cplx) {
+  uint64_t s = 0x6c657665 ^ (uint64_t)n;
+  for (size_t i = 0; i < n * (cplx ? 2 : 1); i++) {
+    uint64_t z = (s += 0x9e3779b97f4a7c15ULL);
+    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+    z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+    z ^= z >> 31;
+    r[i] = (double)(z >> 11) * 0x1.0p-53 - 0.5;
+  }
+}
+
+/* y = OP x: H x, or (H - sigma)^{-1} x */
+static int op_apply(kjob *j, const double *x, double *y) {
+  j->products++;
+  if (j->near_mode) return lvsi_splu_solve(j->lu, x, y);
+  sym_apply(&j->mv, x, y);
+  return LVS_OK;
+}
+
+static int arpack_info_error(lvs_ctx *ctx, const char *routine, int info, const kjob *j) {
+  if (info == 1 || info == -9999)
+    return lvsi_fail(ctx, LVS_ENOCONV,
+                     "eigen: krylov method: ARPACK did not converge: %d of %zu levels after %zu restarts (tol %.3g, ncv %zu);"
+                     " raise maxiter or ncv",
+                     info == 1 ? -1 : 0, j->nev, j->restarts, j->tol, j->ncv);
+  if (info == 3)
+    return lvsi_fail(ctx, LVS_ENOCONV,
+                     "eigen: krylov method: ARPACK found no shifts to apply after %zu restarts (ncv %zu too small for %zu"
+                     " levels); raise ncv",
+                     j->restarts, j->ncv, j->nev);
+  return lvsi_fail(ctx, LVS_ELAPACK, "eigen: krylov method: ARPACK %s failed (info %d)", routine, info);
+}
+
+/* lowest (or nearest) nev pairs of a real symmetric op: values ascending in
+ * w, vectors n x nev column-major in z (NULL: no vectors) */
+static int run_real(kjob *j, double *w, double *z) {
+  lvs_ctx *ctx = j->a->ctx;
+  a_int n = (a_int)j->n, nev = (a_int)j->nev, ncv = (a_int)j->ncv;
+  a_int lworkl = ncv * (ncv + 8);
+  double *resid = lvsi_malloc(ctx, j->n * sizeof(double));
+  double *v = lvsi_malloc(ctx, j->n * j->ncv * sizeof(double));
+  double *workd = lvsi_malloc(ctx, 3 * j->n * sizeof(double));
+  double *workl = lvsi_malloc(ctx, (size_t)lworkl * sizeof(double));
+  double *d = lvsi_malloc(ctx, j->ncv * sizeof(double));
+  a_int *select = lvsi_calloc(ctx, j->ncv, sizeof(a_int));
+  int st = LVS_OK;
+  if (!resid || !v || !workd || !workl || !d || !select) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "eigen: krylov method: out of memory for %zu Lanczos vectors of %zu states", j->ncv,
+                   j->n);
+    goto done;
+  }
+  if (j->start) memcpy(resid, j->start, j->n * sizeof(double));
+  else default_start(resid, j->n, 0);
+  a_int iparam[11] = {0}, ipntr[14] = {0}, ido = 0, info = 1;
+  iparam[0] = 1; /* exact shifts */
+  iparam[2] = (a_int)j->maxit;
+  iparam[6] = j->near_mode ? 3 : 1;
+  const char *which = j->near_mode ? "LM" : "SA";
+  for (;;) {
+    dsaupd_c(&ido, "I", n, which, nev, j->tol, resid, ncv, v, n, iparam, ipntr, workd, workl, lworkl, &info);
+    if (ido == 1 || ido == -1) {
+      if ((st = op_apply(j, workd + ipntr[0] - 1, workd + ipntr[1] - 1))) goto done;
+    } else {
+      break;
+    }
+  }
+  j->restarts = (size_t)iparam[2];
+  if (info < 0 || info > 1 || (info == 1)) {
+    if (info == 1)
+      st = lvsi_fail(ctx, LVS_ENOCONV,
+                     "eigen: krylov method: ARPACK did not converge: %d of %zu levels after %zu restarts (tol %.3g, ncv %zu);"
+                     " raise maxiter or ncv",
+                     (int)iparam[4], j->nev, j->restarts, j->tol, j->ncv);
+    else
+      st = arpack_info_error(ctx, "dsaupd", (int)info, j);
+    goto done;
+  }
+  if ((size_t)iparam[4] < j->nev) {
+    st = lvsi_fail(ctx, LVS_ENOCONV,
+                   "eigen: krylov method: ARPACK converged %d of %zu levels after %zu restarts (tol %.3g, ncv %zu); raise"
+                   " maxiter or ncv",
+                   (int)iparam[4], j->nev, j->restarts, j->tol, j->ncv);
+    goto done;
+  }
+  a_int ierr = 0;
+  dseupd_c(z != NULL, "A", select, d, z ? z : v, n, j->sigma, "I", n, which, nev, j->tol, resid, ncv, v, n, iparam,
+           ipntr, workd, workl, lworkl, &ierr);
+  if (ierr != 0) {
+    st = arpack_info_error(ctx, "dseupd", (int)ierr, j);
+    goto done;
+  }
+  memcpy(w, d, j->nev * sizeof(double)); /* sorted by the caller */
+done:
+  lvsi_free(ctx, resid);
+  lvsi_free(ctx, v);
+  lvsi_free(ctx, workd);
+  lvsi_free(ctx, workl);
+  lvsi_free(ctx, d);
+  lvsi_free(ctx, select);
+  return st;
+}
+
+typedef struct {
+  double w;
+  size_t k;
+} wk;
+static int cmp_wk(const void *x, const void *y) {
+  const wk *a = x, *b = y;
+  return a->w < b->w ? -1 : a->w > b->w ? 1 : (a->k > b->k) - (a->k < b->k);
+}
+
+/* the complex Hermitian case by the Arnoldi driver; values sorted ascending
+ * and the vectors permuted to match */
+static int run_complex(kjob *j, double *w, double *z) {
+  lvs_ctx *ctx = j->a->ctx;
+  a_int n = (a_int)j->n, nev = (a_int)j->nev, ncv = (a_int)j->ncv;
+  a_int lworkl = 3 * ncv * ncv + 5 * ncv;
+  double complex *resid = lvsi_malloc(ctx, j->n * sizeof(double complex));
+  double complex *v = lvsi_malloc(ctx, j->n * j->ncv * sizeof(double complex));
+  double complex *workd = lvsi_malloc(ctx, 3 * j->n * sizeof(double complex));
+  double complex *workl = lvsi_malloc(ctx, (size_t)lworkl * sizeof(double complex));
+  double complex *d = lvsi_malloc(ctx, (j->nev + 1) * sizeof(double complex));
+  double complex *workev = lvsi_malloc(ctx, 2 * j->ncv * sizeof(double complex));
+  double complex *zz = z ? lvsi_malloc(ctx, j->n * j->nev * sizeof(double complex)) : NULL;
+  double *rwork = lvsi_malloc(ctx, j->ncv * sizeof(double));
+  a_int *select = lvsi_calloc(ctx, j->ncv, sizeof(a_int));
+  wk *ord = lvsi_malloc(ctx, j->nev * sizeof(wk));
+  int st = LVS_OK;
+  if (!resid || !v || !workd || !workl || !d || !workev || (z && !zz) || !rwork || !select || !ord) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "eigen: krylov method: out of memory for %zu Arnoldi vectors of %zu states", j->ncv,
+                   j->n);
+    goto done;
+  }
+  if (j->start) memcpy(resid, j->start, j->n * sizeof(double complex));
+  else default_start((double *)resid, j->n, 1);
+  a_int iparam[11] = {0}, ipntr[14] = {0}, ido = 0, info = 1;
+  iparam[0] = 1;
+  iparam[2] = (a_int)j->maxit;
+  iparam[6] = j->near_mode ? 3 : 1;
+  const char *which = j->near_mode ? "LM" : "SR";
+  for (;;) {
+    znaupd_c(&ido, "I", n, which, nev, j->tol, resid, ncv, v, n, iparam, ipntr, workd, workl, lworkl, rwork, &info);
+    if (ido == 1 || ido == -1) {
+      if ((st = op_apply(j, (const double *)(workd + ipntr[0] - 1), (double *)(workd + ipntr[1] - 1)))) goto done;
+    } else {
+      break;
+    }
+  }
+  j->restarts = (size_t)iparam[2];
+  if (info != 0 || (size_t)iparam[4] < j->nev) {
+    if (info == 1 || (info == 0 && (size_t)iparam[4] < j->nev))
+      st = lvsi_fail(ctx, LVS_ENOCONV,
+                     "eigen: krylov method: ARPACK did not converge: %d of %zu levels after %zu restarts (tol %.3g, ncv %zu);"
+                     " raise maxiter or ncv",
+                     (int)iparam[4], j->nev, j->restarts, j->tol, j->ncv);
+    else
+      st = arpack_info_error(ctx, "znaupd", (int)info, j);
+    goto done;
+  }
+  a_int ierr = 0;
+  zneupd_c(z != NULL, "A", select, d, zz ? zz : v, n, CMPLX(j->sigma, 0.0), workev, "I", n, which, nev, j->tol,
+           resid, ncv, v, n, iparam, ipntr, workd, workl, lworkl, rwork, &ierr);
+  if (ierr != 0) {
+    st = arpack_info_error(ctx, "zneupd", (int)ierr, j);
+    goto done;
+  }
+  for (size_t k = 0; k < j->nev; k++) ord[k] = (wk){creal(d[k]), k};
+  qsort(ord, j->nev, sizeof(wk), cmp_wk);
+  for (size_t k = 0; k < j->nev; k++) {
+    w[k] = ord[k].w;
+    if (z) memcpy(z + 2 * j->n * k, zz + j->n * ord[k].k, j->n * sizeof(double complex));
+  }
+done:
+  lvsi_free(ctx, resid);
+  lvsi_free(ctx, v);
+  lvsi_free(ctx, workd);
+  lvsi_free(ctx, workl);
+  lvsi_free(ctx, d);
+  lvsi_free(ctx, workev);
+  lvsi_free(ctx, zz);
+  lvsi_free(ctx, rwork);
+  lvsi_free(ctx, select);
+  lvsi_free(ctx, ord);
+  return st;
+}
+
+/* Public-facing internal entry: count pairs of the plain sparse Hermitian
+ * n x n op a (checked by the caller): the lowest, or the nearest to
+ * o->near when o->has_near, values ascending in w; vectors into z (n x
+ * count dense column-major, complex interleaved when a is complex; NULL:
+ * none). */
+int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, double *w, double *z) {
+  lvs_ctx *ctx = a->ctx;
+  size_t n = a->rows;
+  kjob j = {0};
+  j.a = a;
+  j.n = n;
+  j.nev = count;
+  if (!a->sparse || a->vis || n != a->cols)
+    return lvsi_fail(ctx, LVS_EINVAL, "eigen: krylov method: needs a plain sparse square matrix");
+  size_t minv = a->cplx ? 2 : 1; /* znaupd: nev <= n - 2; dsaupd: nev < n */
+  if (count < 1 || count + minv > n)
+    return lvsi_fail(ctx, LVS_ERANGE,
+                     "eigen: krylov method: count %zu is too large for %zu states (at most %zu); use method = 'dense'",
+                     count, n, n > minv ? n - minv : 0);
+  size_t ncv = o && o->ncv ? o->ncv : (2 * count + 1 > 20 ? 2 * count + 1 : 20);
+  if (ncv > n) ncv = n;
+  if (ncv < count + minv) ncv = count + minv > n ? n : count + minv;
+  if (ncv <= count || (a->cplx && ncv < count + 2))
+    return lvsi_fail(ctx, LVS_ERANGE, "eigen: krylov method: ncv %zu must exceed count %zu by %zu (and be at most %zu)",
+                     ncv, count, minv, n);
+  j.ncv = ncv;
+  j.maxit = o && o->maxiter ? o->maxiter : (n * 10 > 1000 ? n * 10 : 1000);
+  if (j.maxit > 2147483647u) j.maxit = 2147483647u;
+  j.tol = o ? o->tol : 0.0;
+  j.start = o ? o->start : NULL;
+  if (n > 2147483647u / (ncv + 8))
+    return lvsi_fail(ctx, LVS_ECAP, "eigen: krylov method: %zu states is too large for ARPACK's 32-bit indices", n);
+  int st = lvsi_dense_ok(ctx, n, ncv, a->cplx ? 16 : 8, "eigen: krylov method (Lanczos vectors)");
+  if (st) return st;
+  if (o && o->has_near) {
+    double lo, hi;
+    lvsi_gershgorin(a, &lo, &hi);
+    if (!(o->near >= lo && o->near <= hi))
+      return lvsi_fail(ctx, LVS_EINVAL,
+                       "eigen: near = %.6g lies outside the spectrum's range [%.6g, %.6g] (Gershgorin bounds)",
+                       o->near, lo, hi);
+    j.near_mode = 1;
+    j.sigma = o->near;
+    size_t *cp = NULL, *ri = NULL;
+    double *v = NULL;
+    if ((st = shifted_copy(a, o->near, &cp, &ri, &v))) return st;
+    st = lvsi_splu_new(ctx, n, a->cplx, cp, ri, v, "eigen (shift-invert)", &j.lu);
+    lvsi_free(ctx, cp);
+    lvsi_free(ctx, ri);
+    lvsi_free(ctx, v);
+    if (st == LVS_EINVAL)
+      return lvsi_fail(ctx, LVS_EINVAL,
+                       "eigen: near = %.17g is on a level: H - near is singular (move the target off the level)",
+                       o->near);
+    if (st) return st;
+  } else if ((st = symop_init(&j.mv, a))) { /* n < 2^31 (checked above) */
+    return st;
+  }
+  /* ARPACK's own BLAS work (Gram-Schmidt against n x ncv) is bound by
+   * memory bandwidth; OpenBLAS's pool, woken for it, spins (sched_yield)
+   * against the product's second thread on two cores. One BLAS thread
+   * while ARPACK runs; the previous setting is restored. */
+  int bt = lvsi_blas_threads();
+  if (bt > 1) {
+    lvsi_set_blas_threads(1);
+    lvsi_blas_pool_stop(); /* its idle threads spin for a while otherwise */
+  }
+  st = a->cplx ? run_complex(&j, w, z) : run_real(&j, w, z);
+  if (bt > 1) lvsi_set_blas_threads(bt);
+  if (!st) {
+    /* dseupd's order depends on the mode and on rvec: make it ascending */
+    for (size_t k = 1; k < count; k++)
+      for (size_t m = k; m > 0 && w[m - 1] > w[m]; m--) {
+        double t = w[m];
+        w[m] = w[m - 1];
+        w[m - 1] = t;
+        if (z) {
+          size_t len = n * (a->cplx ? 2 : 1);
+          for (size_t i = 0; i < len; i++) {
+            double u = z[len * m + i];
+            z[len * m + i] = z[len * (m - 1) + i];
+            z[len * (m - 1) + i] = u;
+          }
+        }
+      }
+  }
+  lvsi_splu_free(j.lu);
+  symop_free(ctx, &j.mv);
+  return st;
+}
