@@ -328,6 +328,13 @@ LVS_API int lvs_series_info(const lvs_series *s, size_t level, size_t *group, in
 LVS_API int lvs_series_state(const lvs_series *s, size_t level, int k, double *psi);
 /* basis state of the level's unperturbed state when H0 is diagonal (*pure:
  * exactly that state, else its largest component); SIZE_MAX otherwise */
+/* STATIC name of how the orders were solved: "diagonal" (diagonal H0),
+ * "eigenbasis" (H0 diagonalized densely), "bordered dense" (a few levels of a
+ * dense real H0), "bordered LU" or "MINRES" (the sparse path: levels from the
+ * Krylov path, each order by a bordered sparse LU or by MINRES on the
+ * projected H0); *solves and *iters (may be NULL) get the sparse path's
+ * solves and MINRES iterations. */
+LVS_API const char *lvs_series_solver(const lvs_series *s, size_t *solves, size_t *iters);
 LVS_API size_t lvs_series_basis_state(const lvs_series *s, size_t level, int *pure);
 /* ---- transitions under time-dependent perturbations (transition.c) -----
  * hbar = 1. H(t) = H0 + pulse(t) V, or H0 + W(t) from a callback. Amplitudes

@@ -291,6 +291,17 @@ static int s_vnorm(lua_State *L) {
   lua_pushnumber(L, lvs_series_vnorm(checkseries(L, 1)));
   return 1;
 }
+/* s:solver() -> how the orders were solved ("diagonal", "eigenbasis",
+ * "bordered dense", "bordered LU", "MINRES"), resolvent solves, MINRES
+ * iterations */
+static int s_solver(lua_State *L) {
+  size_t solves = 0, iters = 0;
+  const char *m = lvs_series_solver(checkseries(L, 1), &solves, &iters);
+  lua_pushstring(L, m);
+  lua_pushinteger(L, (lua_Integer)solves);
+  lua_pushinteger(L, (lua_Integer)iters);
+  return 3;
+}
 static int s_levels(lua_State *L) {
   lvs_series *s = checkseries(L, 1);
   lua_newtable(L);
@@ -315,7 +326,8 @@ void lvsL_open_series(lua_State *L, int ctxidx) {
   static const luaL_Reg methods[] = {{"energy", s_energy}, {"at", s_at},         {"state", s_state},
                                      {"info", s_info},     {"groups", s_groups}, {"dim", s_dim},
                                      {"order", s_order},   {"vnorm", s_vnorm},   {"chosen", s_levels},
-                                     {"operators", s_operators}, {"label", s_label}, {NULL, NULL}};
+                                     {"operators", s_operators}, {"label", s_label}, {"solver", s_solver},
+                                     {NULL, NULL}};
   luaL_newmetatable(L, LVS_SERIES_MT);
   lvsL_setfuncs(L, meta, ctxidx);
   lua_newtable(L);

@@ -494,7 +494,15 @@ int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want
   if (pl.nb == 1) { /* one sector: the op itself, no copy */
     st = solve_sector(a, pl.method[0], count, want_vectors, o, w, vecs);
   } else {
+    /* many sectors, some by ARPACK: the small dense ones gain nothing from
+     * BLAS threads, and waking the pool between Krylov runs leaves its
+     * threads spinning against the products' second thread */
+    int bt = 0;
+    for (size_t b = 0; b < pl.nb && !bt; b++)
+      if (pl.method[b] == M_KRYLOV) bt = lvsi_blas_threads();
+    if (bt > 1) lvsi_set_blas_threads(1);
     st = eigen_blocks(&pl, want_vectors, o, w, vecs);
+    if (bt > 1) lvsi_set_blas_threads(bt), lvsi_blas_pool_stop();
   }
 done:
   splan_free(ctx, &pl);

@@ -85,6 +85,25 @@ LVSI int lvsi_splu_new(lvs_ctx *ctx, size_t n, int cplx, const size_t *cp, const
 LVSI int lvsi_splu_solve(const lvsi_splu *f, const double *b, double *x);
 LVSI void lvsi_splu_free(lvsi_splu *f);
 LVSI size_t lvsi_splu_dim(const lvsi_splu *f);
+#define LVSI_SPLU_TOO_FULL 100 /* lvsi_splu_new_capped: the factors would pass the budget */
+LVSI int lvsi_splu_new_capped(lvs_ctx *ctx, size_t n, int cplx, const size_t *cp, const size_t *ri, const double *a,
+                              double max_bytes, const char *what, lvsi_splu **out);
+/* krylov.c: y = H x (x, y complex interleaved) on a lower-triangle copy of
+ * a plain sparse Hermitian op with 32-bit indices, two threads when large */
+typedef struct lvsi_symop lvsi_symop;
+LVSI int lvsi_symop_new(const lvs_matrix *a, lvsi_symop **out);
+LVSI void lvsi_symop_free(lvsi_symop *s);
+LVSI void lvsi_symop_apply_complex(lvsi_symop *s, const double *x, double *y);
+/* resolvent.c: x = Q (E - H0)^{-1} Q r for a group P (n x d, orthonormal,
+ * BORROWED for the object's life) of a plain sparse Hermitian H0; bordered
+ * sparse LU when its factors stay small (allow_lu), MINRES otherwise */
+typedef struct lvsi_resolvent lvsi_resolvent;
+LVSI int lvsi_resolvent_new(const lvs_matrix *h, const double complex *P, size_t d, double e, int allow_lu,
+                            lvsi_resolvent **out);
+LVSI int lvsi_resolvent_solve(lvsi_resolvent *r, const double complex *rhs, double complex *x);
+LVSI void lvsi_resolvent_free(lvsi_resolvent *r);
+LVSI const char *lvsi_resolvent_method(const lvsi_resolvent *r);
+LVSI size_t lvsi_resolvent_iterations(const lvsi_resolvent *r);
 
 LVSI int lvsi_check_hermitian(const lvs_matrix *h, double tol, const char *what);
 LVSI int lvsi_basis_twoS(const lvs_basis *b);

@@ -49,26 +49,32 @@
  * threads write one word, and the sums are formed in the same order
  * whatever the thread count. */
 
-typedef struct {
+struct lvsi_symop {
+  lvs_ctx *ctx;
   size_t n, nnz, split;
   int cplx, threads;
   size_t *cp;     /* n + 1 column starts into ri/v (lower triangle, diagonal first) */
   uint32_t *ri;
   double *v;      /* values, complex interleaved */
   double *buf;    /* first thread's scatters into rows >= split (complex: 2 per row) */
-} symop;
+  double *sx, *sy; /* real op, complex vectors: the parts (n each), on first use */
+};
+typedef struct lvsi_symop symop;
 
-static void symop_free(lvs_ctx *ctx, symop *s) {
+static void symop_clear(lvs_ctx *ctx, symop *s) {
   lvsi_free(ctx, s->cp);
   lvsi_free(ctx, s->ri);
   lvsi_free(ctx, s->v);
   lvsi_free(ctx, s->buf);
+  lvsi_free(ctx, s->sx);
+  lvsi_free(ctx, s->sy);
 }
 
 static int symop_init(symop *s, const lvs_matrix *a) {
   lvs_ctx *ctx = a->ctx;
   size_t n = a->cols, w = a->cplx ? 2 : 1, nl = 0;
   memset(s, 0, sizeof *s);
+  s->ctx = ctx;
   s->n = n;
   s->cplx = a->cplx;
   for (size_t j = 0; j < n; j++)
@@ -78,7 +84,7 @@ static int symop_init(symop *s, const lvs_matrix *a) {
   s->ri = lvsi_malloc(ctx, s->nnz * sizeof(uint32_t));
   s->v = lvsi_malloc(ctx, s->nnz * w * sizeof(double));
   if (!s->cp || !s->ri || !s->v) {
-    symop_free(ctx, s);
+    symop_clear(ctx, s);
     return lvsi_fail(ctx, LVS_ENOMEM, "eigen: krylov method: out of memory for the product's copy of the matrix");
   }
   size_t q = 0;
@@ -191,6 +197,57 @@ static void sym_apply(const symop *s, const double *x, double *y) {
   memset(y, 0, n * w * sizeof(double));
   sym_part p = {s, x, y, 0, n, n, NULL};
   sym_thread(&p);
+}
+
+/* the product as an object for other solvers (resolvent.c): H x for a
+ * complex vector x (interleaved), whether H is real or complex */
+int lvsi_symop_new(const lvs_matrix *a, lvsi_symop **out) {
+  *out = NULL;
+  if (!a->sparse || a->vis || a->rows != a->cols || a->rows > UINT32_MAX)
+    return lvsi_fail(a->ctx, LVS_EINVAL, "sparse product: needs a plain sparse square matrix below 2^32 states");
+  symop *s = lvsi_malloc(a->ctx, sizeof *s);
+  if (!s) return lvsi_fail(a->ctx, LVS_ENOMEM, "out of memory");
+  int st = symop_init(s, a);
+  if (st) {
+    lvsi_free(a->ctx, s);
+    return st;
+  }
+  if (!s->cplx) { /* the parts of a complex vector, for a real op */
+    s->sx = lvsi_malloc(a->ctx, (s->n ? s->n : 1) * sizeof(double));
+    s->sy = lvsi_malloc(a->ctx, (s->n ? s->n : 1) * sizeof(double));
+    if (!s->sx || !s->sy) {
+      lvsi_symop_free(s);
+      return lvsi_fail(a->ctx, LVS_ENOMEM, "out of memory");
+    }
+  }
+  *out = s;
+  return LVS_OK;
+}
+
+void lvsi_symop_free(lvsi_symop *s) {
+  if (!s) return;
+  lvs_ctx *ctx = s->ctx;
+  symop_clear(ctx, s);
+  lvsi_free(ctx, s);
+}
+
+void lvsi_symop_apply_complex(lvsi_symop *s, const double *x, double *y) {
+  size_t n = s->n;
+  if (s->cplx) {
+    sym_apply(s, x, y);
+    return;
+  }
+  int has_im = 0;
+  for (size_t i = 0; i < n; i++) {
+    s->sx[i] = x[2 * i];
+    has_im |= x[2 * i + 1] != 0.0;
+  }
+  sym_apply(s, s->sx, s->sy);
+  for (size_t i = 0; i < n; i++) y[2 * i] = s->sy[i], y[2 * i + 1] = 0.0;
+  if (!has_im) return;
+  for (size_t i = 0; i < n; i++) s->sx[i] = x[2 * i + 1];
+  sym_apply(s, s->sx, s->sy);
+  for (size_t i = 0; i < n; i++) y[2 * i + 1] = s->sy[i];
 }
 
 /* ---- shift-invert operator ------------------------------------------- */
@@ -526,7 +583,11 @@ int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, doub
     lvsi_blas_pool_stop(); /* its idle threads spin for a while otherwise */
   }
   st = a->cplx ? run_complex(&j, w, z) : run_real(&j, w, z);
-  if (bt > 1) lvsi_set_blas_threads(bt);
+  if (bt > 1) { /* restoring starts the pool, whose idle threads spin: stop it
+                  again (the next threaded BLAS call restarts it) */
+    lvsi_set_blas_threads(bt);
+    lvsi_blas_pool_stop();
+  }
   if (!st) {
     /* dseupd's order depends on the mode and on rvec: make it ascending */
     for (size_t k = 1; k < count; k++)
@@ -545,6 +606,6 @@ int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, doub
       }
   }
   lvsi_splu_free(j.lu);
-  symop_free(ctx, &j.mv);
+  symop_clear(ctx, &j.mv);
   return st;
 }

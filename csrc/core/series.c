@@ -102,6 +102,10 @@ struct lvs_series {
   size_t ngrp;
   size_t *perm;   /* working index -> original basis index (diagonal H0) */
   lvs_matrix *U;  /* eigenvectors of H0 (NULL when H0 is diagonal or the levels are solved for) */
+  const char *solver; /* how the orders were solved: "diagonal", "eigenbasis", "bordered dense",
+                         "bordered LU", "MINRES" (the last two: the sparse path) */
+  size_t solves;  /* sparse path: resolvent solves; MINRES iterations in `iters` */
+  size_t iters;
   double vnorm;   /* max column 1-norm of V */
 };
 
@@ -790,6 +794,121 @@ done:
   return st;
 }
 
+/* ---- a few levels of a large sparse H0 (krylov.c, resolvent.c) -------- */
+/* Method: the lowest levels of H0 and their vectors from the Krylov path
+ * (lvs_eigen_ex: ARPACK per symmetry sector); then, per group P (n x d
+ * vectors, energy E_P), the Bloch recursion in the original basis,
+ *   W(k) = P^H V Omega(k-1),
+ *   Omega(k) = R [V Omega(k-1) - sum_{i=1..k-1} Omega(i) W(k-i)],
+ * with Omega(0) = P and R = Q (E_P - H0)^{-1} Q the reduced resolvent
+ * (resolvent.c: the bordered system [[E_P - H0, P], [P^H, 0]] by one sparse
+ * LU reused for every order, or MINRES on Q (H0 - E_P) Q when the LU would
+ * fill in). This is the eigenbasis recursion of bloch_group with the
+ * division by (E_P - E_m) replaced by R; W feeds the same eigseries. Cost per
+ * order: d products with V and d solves; memory O(n d K). */
+#define SERIES_SPARSE_MIN LVS_KRYLOV_MIN_DIM
+
+/* the sparse path applies: sparse, large, and a few explicit low levels */
+static int sparse_path(const lvs_matrix *hp, const size_t *levels, size_t nlevels) {
+  size_t n = hp->rows, top = 0;
+  if (!hp->sparse || n <= SERIES_SPARSE_MIN || nlevels == 0) return 0;
+  for (size_t i = 0; i < nlevels; i++)
+    if (levels[i] > top) top = levels[i];
+  return (top + 8) * 8 <= n;
+}
+
+/* The lowest m levels, m large enough that the group of the highest wanted
+ * level ends inside them with its next level known: E[0..m) set, the rest
+ * INFINITY; *pv gets the n x m vectors. gtol on the known range (the
+ * Gershgorin range of H0 stands in for the unknown top of the spectrum). */
+static int sparse_levels(lvs_ctx *ctx, const lvs_matrix *hp, size_t top, double degen_tol, double *E, dc **pv,
+                         double *pgtol) {
+  size_t n = hp->rows, m = top + 2;
+  double lo, hi;
+  lvsi_gershgorin(hp, &lo, &hi);
+  double gtol = degen_tol * fmax(hi - lo, fmax(fabs(lo), fabs(hi)));
+  *pgtol = gtol;
+  for (;;) {
+    if (m + 2 > n) m = n - 2;
+    lvs_matrix *U = NULL;
+    lvs_eigen_opts o = {0};
+    int st = lvs_eigen_ex(hp, NULL, m, 1, &o, E, &U);
+    if (st) return st;
+    size_t g1 = top + 1;
+    while (g1 < m && E[g1] - E[g1 - 1] <= gtol) g1++;
+    if (g1 < m || m >= n - 2) {
+      dc *P = lvsi_malloc(ctx, n * m * sizeof(dc));
+      if (!P) {
+        lvs_matrix_free(U);
+        return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+      }
+      for (size_t q = 0; q < n * m; q++) P[q] = U->cplx ? CMPLX(U->a[2 * q], U->a[2 * q + 1]) : U->a[q];
+      lvs_matrix_free(U);
+      for (size_t i = m; i < n; i++) E[i] = INFINITY;
+      *pv = P;
+      return LVS_OK;
+    }
+    lvs_matrix_free(U);
+    m *= 2; /* the group runs past the levels found: ask for more */
+  }
+}
+
+static int bloch_sparse(lvs_ctx *ctx, const lvs_matrix *hp, const lvs_matrix *vp, const dc *P, sgroup *g, int K,
+                        dc *W, const char **solver, size_t *solves, size_t *iters) {
+  size_t n = hp->rows, d = g->d, dd = d * d;
+  g->direct = 1;
+  for (int k = 0; k <= g->nom; k++) g->lo[k] = 0, g->hi[k] = n;
+  int st = LVS_OK;
+  lvsi_resolvent *R = NULL;
+  dc *y = lvsi_malloc(ctx, n * sizeof *y), *rhs = lvsi_malloc(ctx, n * sizeof *rhs);
+  if (!y || !rhs || !(g->om[0] = lvsi_malloc(ctx, n * d * sizeof(dc)))) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    goto done;
+  }
+  memcpy(g->om[0], P, n * d * sizeof(dc));
+  if (g->nom >= 1 && (st = lvsi_resolvent_new(hp, g->om[0], d, g->ep, 1, &R))) goto done;
+  for (int k = 1; k <= K; k++) {
+    dc *Wk = W + (size_t)(k - 1) * dd;
+    int keep = k <= g->nom;
+    if (keep && !(g->om[k] = lvsi_malloc(ctx, n * d * sizeof(dc)))) {
+      st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
+      goto done;
+    }
+    for (size_t a = 0; a < d; a++) {
+      if ((st = lvs_matrix_apply(vp, 1, (const double *)(g->om[k - 1] + a * n), (double *)y))) goto done;
+      for (size_t b = 0; b < d; b++) {
+        const dc *pb = g->om[0] + b * n;
+        dc c = 0;
+        for (size_t i = 0; i < n; i++) c += conj(pb[i]) * y[i];
+        Wk[b + a * d] = c;
+      }
+    }
+    if (!keep) continue;
+    for (size_t a = 0; a < d; a++) {
+      if ((st = lvs_matrix_apply(vp, 1, (const double *)(g->om[k - 1] + a * n), (double *)rhs))) goto done;
+      for (int i = 1; i < k; i++) {
+        const dc *oi = g->om[i], *wk = W + (size_t)(k - i - 1) * dd;
+        for (size_t b = 0; b < d; b++) {
+          dc c = wk[b + a * d];
+          if (c == 0) continue;
+          for (size_t r = 0; r < n; r++) rhs[r] -= oi[r + b * n] * c;
+        }
+      }
+      if ((st = lvsi_resolvent_solve(R, rhs, g->om[k] + a * n))) goto done;
+      (*solves)++;
+    }
+  }
+done:
+  if (R) {
+    *solver = lvsi_resolvent_method(R);
+    *iters += lvsi_resolvent_iterations(R);
+  }
+  lvsi_resolvent_free(R);
+  lvsi_free(ctx, y);
+  lvsi_free(ctx, rhs);
+  return st;
+}
+
 /* ---- public API ------------------------------------------------------- */
 void lvs_series_free(lvs_series *s) {
   if (!s) return;
@@ -1065,6 +1184,8 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
   int bordered = 0, bheld = 0; /* bheld: BLAS threads to restore (blas_hold1) */
   unsigned char *want = NULL;
   ekey *raw = NULL;
+  dc *pvec = NULL; /* sparse path: the lowest levels' vectors, n x m */
+  double sgtol = 0;
   dc *W = NULL, *zz = NULL;
   double *mu = NULL;
   int *sp = NULL, *zo = NULL;
@@ -1098,6 +1219,13 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
     lvsi_free(ctx, raw);
     raw = NULL;
     if ((st = wop_permuted(ctx, vp, s->perm, &w))) goto fail;
+    s->solver = "diagonal";
+  } else if (sparse_path(hp, levels, nlevels)) {
+    for (size_t i = 0; i < n; i++) s->perm[i] = i;
+    size_t top = 0;
+    for (size_t i = 0; i < nlevels; i++) top = levels[i] > top ? levels[i] : top;
+    if ((st = sparse_levels(ctx, hp, top, degen_tol, E, &pvec, &sgtol))) goto fail;
+    s->solver = "bordered LU";
   } else {
     for (size_t i = 0; i < n; i++) s->perm[i] = i;
     /* a few explicit, non-degenerate levels of a real H0: solve, do not diagonalize */
@@ -1112,6 +1240,7 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
         if ((L > 0 && E[L] - E[L - 1] <= gt) || (L + 1 < n && E[L + 1] - E[L] <= gt)) bordered = 0;
       }
       if (!bordered) tri_free(ctx, &t);
+      else s->solver = "bordered dense";
     }
     if (!bordered) {
       if ((st = lvs_eigen(hp, 0, 1, E, &s->U))) goto fail;
@@ -1128,8 +1257,8 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
     for (size_t i = 0; i < nlevels; i++) want[levels[i]] = 1;
   /* groups: count what is needed first */
   double big = 0;
-  for (size_t i = 0; i < n; i++) big = fmax(big, fabs(E[i]));
-  double gtol = degen_tol * fmax(E[n - 1] - E[0], big);
+  for (size_t i = 0; i < n && !pvec; i++) big = fmax(big, fabs(E[i]));
+  double gtol = pvec ? sgtol : degen_tol * fmax(E[n - 1] - E[0], big);
   size_t ngneed = 0, nlneed = 0;
   for (size_t g0 = 0; g0 < n;) {
     size_t g1 = g0 + 1;
@@ -1174,7 +1303,9 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
     }
     blas_release(bheld);
     bheld = blas_hold1(d);
-    if (bordered)
+    if (pvec)
+      st = bloch_sparse(ctx, hp, vp, pvec + g0 * n, g, K, W, &s->solver, &s->solves, &s->iters);
+    else if (bordered)
       st = bordered_level(ctx, &t, hp, vp, E, g0, K, g, W);
     else
       st = bloch_group(ctx, &w, E, g, K, W);
@@ -1264,6 +1395,7 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
   }
   st = LVS_OK;
 fail:
+  lvsi_free(ctx, pvec);
   blas_release(bheld);
   wop_free(ctx, &w);
   tri_free(ctx, &t);
@@ -1285,6 +1417,11 @@ fail:
 }
 
 size_t lvs_series_dim(const lvs_series *s) { return s->n; }
+const char *lvs_series_solver(const lvs_series *s, size_t *solves, size_t *iters) {
+  if (solves) *solves = s->solves;
+  if (iters) *iters = s->iters;
+  return s->solver ? s->solver : "eigenbasis";
+}
 int lvs_series_order(const lvs_series *s) { return s->K; }
 double lvs_series_vnorm(const lvs_series *s) { return s->vnorm; }
 
@@ -1381,7 +1518,29 @@ int lvs_series_state(const lvs_series *s, size_t level, int k, double *psi) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "state: out of memory");
     goto done;
   }
-  for (int j = 0; j <= k && g->direct; j++) memcpy(q + (size_t)j * n, g->om[j], n * sizeof *q);
+  /* Omega in the original basis (om[0] = P, n x d): q_j = sum_i Omega(j-i) z_i,
+   * c_j = <P z_0 | q_j> */
+  for (int j = 0; j <= k && g->direct; j++) {
+    dc *qj = q + (size_t)j * n;
+    for (int i = 0; i <= j; i++) {
+      const dc *zi = z + (size_t)i * d, *om = g->om[j - i];
+      for (size_t b = 0; b < d; b++)
+        if (zi[b] != 0)
+          for (size_t r = 0; r < n; r++) qj[r] += om[r + b * n] * zi[b];
+    }
+    dc cj = 0;
+    for (size_t b = 0; b < d; b++) {
+      const dc *pb = g->om[0] + b * n;
+      dc pq = 0;
+      for (size_t r = 0; r < n; r++) pq += conj(pb[r]) * qj[r];
+      cj += conj(z[b]) * pq;
+    }
+    c[j] = cj;
+    for (int i = 1; i <= j; i++) {
+      const dc *qp = q + (size_t)(j - i) * n;
+      for (size_t r = 0; r < n; r++) qj[r] -= c[i] * qp[r];
+    }
+  }
   for (int j = 0; j <= k && !g->direct; j++) {
     dc *qj = q + (size_t)j * n;
     for (size_t b = 0; b < d; b++) qj[g->g0 + b] += z[(size_t)j * d + b]; /* Omega(0) z_j */

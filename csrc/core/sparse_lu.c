@@ -59,6 +59,14 @@ static int umf_error(lvs_ctx *ctx, const char *what, const char *phase, SuiteSpa
  * matrix is LVS_EINVAL with "singular" in the message. */
 int lvsi_splu_new(lvs_ctx *ctx, size_t n, int cplx, const size_t *cp, const size_t *ri, const double *a,
                   const char *what, lvsi_splu **out) {
+  return lvsi_splu_new_capped(ctx, n, cplx, cp, ri, a, 0.0, what, out);
+}
+
+/* The same with a budget: when UMFPACK's estimate of the factors' bytes
+ * exceeds max_bytes (> 0), nothing is factored and the return is
+ * LVSI_SPLU_TOO_FULL (with a message), so the caller can take another way. */
+int lvsi_splu_new_capped(lvs_ctx *ctx, size_t n, int cplx, const size_t *cp, const size_t *ri, const double *a,
+                         double max_bytes, const char *what, lvsi_splu **out) {
   *out = NULL;
   lvsi_splu *f = lvsi_calloc(ctx, 1, sizeof *f);
   if (!f) return lvsi_fail(ctx, LVS_ENOMEM, "%s: out of memory", what);
@@ -94,6 +102,14 @@ int lvsi_splu_new(lvs_ctx *ctx, size_t n, int cplx, const size_t *cp, const size
   }
   /* the factors' estimated size (in Units = 8 bytes) against the dense cap */
   double bytes = info[UMFPACK_NUMERIC_SIZE_ESTIMATE] * info[UMFPACK_SIZE_OF_UNIT];
+  if (max_bytes > 0 && bytes > max_bytes) {
+    if (cplx) umfpack_zl_free_symbolic(&symbolic);
+    else umfpack_dl_free_symbolic(&symbolic);
+    lvsi_splu_free(f);
+    lvsi_fail(ctx, LVS_ECAP, "%s: the sparse LU factors would need about %.3g MB (budget %.3g MB)", what, bytes / 1e6,
+              max_bytes / 1e6);
+    return LVSI_SPLU_TOO_FULL;
+  }
   if (bytes > (double)ctx->dense_cap) {
     if (cplx) umfpack_zl_free_symbolic(&symbolic);
     else umfpack_dl_free_symbolic(&symbolic);
