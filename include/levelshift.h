@@ -261,6 +261,11 @@ LVS_API int lvs_write_file(lvs_ctx *ctx, const char *path, const void *data, siz
  * eigenbasis (a diagonal H0 keeps its basis states). */
 typedef struct lvs_effective lvs_effective;
 LVS_API int lvs_effective_new(const lvs_matrix *h0, const lvs_matrix *v, const size_t *levels, size_t nlevels, int order, lvs_effective **out);
+/* as lvs_effective_new; flags LVS_EFFECTIVE_DENSE: take the dense eigenbasis
+ * path even when H0 is diagonal (O(n^2) memory; for checking the sparse path) */
+#define LVS_EFFECTIVE_DENSE 1u
+LVS_API int lvs_effective_new_ex(const lvs_matrix *h0, const lvs_matrix *v, const size_t *levels, size_t nlevels,
+                                 int order, unsigned flags, lvs_effective **out);
 LVS_API void lvs_effective_free(lvs_effective *e);
 LVS_API size_t lvs_effective_dim(const lvs_effective *e);
 LVS_API int lvs_effective_order(const lvs_effective *e);
