@@ -275,6 +275,9 @@ LVS_API size_t lvs_effective_state(const lvs_effective *e, size_t i);
 /* level (0-based, ascending energy, ties in basis order) of a basis state of a
  * diagonal H0; LVS_EINVAL when H0 is not diagonal */
 LVS_API int lvs_level_of_state(const lvs_matrix *h0, size_t state, size_t *level);
+/* all n eigenvalues of H0 into w (n entries), ascending; a diagonal H0 is
+ * sorted without an eigensolver. LVS_ENOTHERM / LVS_EINVAL as lvs_eigen */
+LVS_API int lvs_effective_spectrum(const lvs_matrix *h0, double *w);
 LVS_API int lvs_effective_term(const lvs_effective *e, int k, lvs_matrix **out);
 /* sum_k lambda^k term(k) through order (order < 0: all) */
 LVS_API int lvs_effective_at(const lvs_effective *e, double lambda, int order, lvs_matrix **out);

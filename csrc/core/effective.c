@@ -687,6 +687,37 @@ int lvs_effective_new(const lvs_matrix *h0, const lvs_matrix *v, const size_t *l
   return lvs_effective_new_ex(h0, v, levels, nlevels, order, 0, out);
 }
 
+/* All n eigenvalues of H0, ascending (the binding's window). A diagonal H0
+ * is sorted (O(n log runs), no eigensolver: lvs_eigen would treat each of
+ * its n states as a symmetry sector); anything else goes to lvs_eigen. */
+int lvs_effective_spectrum(const lvs_matrix *h0, double *w) {
+  lvs_ctx *ctx = h0->ctx;
+  ework wk;
+  memset(&wk, 0, sizeof wk);
+  wk.ctx = ctx;
+  size_t n = wk.n = lvs_matrix_rows(h0);
+  if (n != lvs_matrix_cols(h0)) return lvsi_fail(ctx, LVS_EDIM, "H0 must be square, got %zux%zu", n, lvs_matrix_cols(h0));
+  int st = h0->vis ? lvs_matrix_visible(h0, 0, &wk.hown) : LVS_OK;
+  wk.hp = h0->vis ? wk.hown : h0;
+  if (!st) st = lvsi_check_hermitian(wk.hp, LVS_DEFAULT_HERM_TOL, "matrix");
+  if (!st) {
+    wk.Es = lvsi_malloc(ctx, (n ? n : 1) * sizeof(double));
+    wk.perm = lvsi_malloc(ctx, (n ? n : 1) * sizeof(size_t));
+    if (!wk.Es || !wk.perm) st = oom(ctx);
+  }
+  if (!st) {
+    if (plain_diagonal(&wk)) {
+      wk.E = w; /* borrowed */
+      st = sort_states(&wk);
+      wk.E = NULL;
+    } else {
+      st = lvs_eigen(h0, 0, 0, w, NULL);
+    }
+  }
+  ework_free(&wk);
+  return st;
+}
+
 size_t lvs_effective_dim(const lvs_effective *e) { return e->d; }
 int lvs_effective_order(const lvs_effective *e) { return e->order; }
 const size_t *lvs_effective_levels(const lvs_effective *e) { return e->levels; }

@@ -323,6 +323,11 @@ describe("effective", function()
       assert.near(Eg, re(H6, 1, 1), 2e-7)
       assert.near(Ee, re(H6, 2, 2), 2e-7)
       assert.is_true(math.abs(Ee - re(h:at(1, 4), 2, 2)) > 1e-6, "order 4 must be visibly worse")
+      -- the same |g,3> chosen by a window (the spectrum of a diagonal H0 is
+      -- sorted, not diagonalized): E = 3 wr - wq/2 = 2.35
+      local hw = ls.effective(H0, V, { basis = P, window = { 2.3, 2.4 }, order = 6 })
+      assert.are.same({ "m1=-1/2 n2=3" }, hw:labels())
+      assert.near(Eg, re(hw:at(1), 1, 1), 2e-7)
     end)
 
     it("has eigenvalue errors falling like lambda^(K+1) against exact diagonalization", function()
