@@ -20,6 +20,21 @@
  * Only matrix products are needed, so exactly degenerate, nearly degenerate
  * and spread-out groups are handled alike as long as no group level is
  * degenerate with a level outside the group.
+ *
+ * Two paths fill W(k) and X(k) (step 2 and N - 1), then share step 3:
+ *   - sparse (H0 diagonal in any storage): the basis states are the levels,
+ *     V is read as stored, column by column; Omega(k) lives on the states
+ *     reached from the group by at most k applications of V, numbered in
+ *     order of discovery, so each Omega(k) is a dense block on a prefix of
+ *     that list. Cost O(K d * entries of V in the reached columns + K^2 d^2
+ *     * reached), memory O(K d * reached) plus one n-entry index; nothing
+ *     n x n. The spectrum is a stable sort of the diagonal.
+ *   - dense (H0 not diagonal, or LVS_EFFECTIVE_DENSE): lvs_eigen, V in
+ *     the eigenbasis as an n x n array, Omega(k) on every level outside the
+ *     group: O(n^2 d K) time, O(n^2) memory.
+ * lvs_effective_new runs the phases check_args, plain_diagonal/sort_states
+ * (spectrum and basis), sparse_path or dense_path (wave operator),
+ * symmetrize, assemble.
  */
 #include <math.h>
 #include <stdint.h>
