@@ -322,41 +322,58 @@ static int gap_warning(lvs_effective *e, ework *w) {
 /* V in H0's eigenbasis as a dense n x n array (U^dag V U, or V permuted to
  * ascending energy when H0 is diagonal and the dense path was asked for);
  * Omega(k) on every Q row. O(n^2 d K) time, O(n^2) memory. */
-static int dense_path(lvs_effective *e, ework *w, const lvs_matrix *h0, const lvs_matrix *v, int diag) {
-  lvs_ctx *ctx = w->ctx;
-  size_t n = w->n, d = w->d, nq = n - d, dd = d * d, qd = nq * d;
-  int K = w->K, st;
+/* vt = V in H0's eigenbasis, n x n (E filled by lvs_eigen when H0 is not
+ * diagonal; a diagonal H0 only permutes V to ascending energy) */
+static int dense_v(ework *w, const lvs_matrix *h0, const lvs_matrix *v, int diag, cplx *vt) {
+  size_t n = w->n;
   lvs_matrix *hd = NULL, *vd = NULL, *u = NULL;
-  cplx *vt = NULL, *tmp = NULL, *om = NULL, *vom = NULL;
-  size_t *q = NULL;
-  if ((st = lvsi_dense_ok(ctx, n, n, 3 * sizeof(cplx), "effective (working arrays)"))) return st;
-  vt = lvsi_malloc(ctx, n * n * sizeof(cplx));
-  tmp = lvsi_malloc(ctx, n * n * sizeof(cplx));
-  q = lvsi_malloc(ctx, (nq ? nq : 1) * sizeof(size_t));
-  if (!vt || !tmp || !q) {
-    st = oom(ctx);
-    goto done;
-  }
+  cplx *tmp = NULL;
+  int st;
   if ((st = lvs_matrix_visible(h0, 1, &hd)) || (st = lvs_matrix_visible(v, 1, &vd))) goto done;
   if (diag) {
     for (size_t j = 0; j < n; j++)
       for (size_t i = 0; i < n; i++) vt[i + j * n] = lvsi_mat_at(vd, w->perm[i], w->perm[j]);
-  } else {
-    if ((st = lvs_eigen(hd, 0, 1, w->E, &u))) goto done;
-    /* tmp = V U, vt = U^dag tmp */
-    for (size_t j = 0; j < n; j++)
-      for (size_t i = 0; i < n; i++) {
-        cplx s = 0;
-        for (size_t l = 0; l < n; l++) s += lvsi_mat_at(vd, i, l) * lvsi_mat_at(u, l, j);
-        tmp[i + j * n] = s;
-      }
-    for (size_t j = 0; j < n; j++)
-      for (size_t i = 0; i < n; i++) {
-        cplx s = 0;
-        for (size_t l = 0; l < n; l++) s += conj(lvsi_mat_at(u, l, i)) * tmp[l + j * n];
-        vt[i + j * n] = s;
-      }
+    goto done;
   }
+  tmp = lvsi_malloc(w->ctx, n * n * sizeof(cplx));
+  if (!tmp) {
+    st = oom(w->ctx);
+    goto done;
+  }
+  if ((st = lvs_eigen(hd, 0, 1, w->E, &u))) goto done;
+  /* tmp = V U, vt = U^dag tmp */
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = 0; i < n; i++) {
+      cplx s = 0;
+      for (size_t l = 0; l < n; l++) s += lvsi_mat_at(vd, i, l) * lvsi_mat_at(u, l, j);
+      tmp[i + j * n] = s;
+    }
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = 0; i < n; i++) {
+      cplx s = 0;
+      for (size_t l = 0; l < n; l++) s += conj(lvsi_mat_at(u, l, i)) * tmp[l + j * n];
+      vt[i + j * n] = s;
+    }
+done:
+  lvs_matrix_free(hd), lvs_matrix_free(vd), lvs_matrix_free(u);
+  lvsi_free(w->ctx, tmp);
+  return st;
+}
+
+static int dense_path(lvs_effective *e, ework *w, const lvs_matrix *h0, const lvs_matrix *v, int diag) {
+  lvs_ctx *ctx = w->ctx;
+  size_t n = w->n, d = w->d, nq = n - d, dd = d * d, qd = nq * d;
+  int K = w->K, st;
+  cplx *vt = NULL, *om = NULL, *vom = NULL;
+  size_t *q = NULL;
+  if ((st = lvsi_dense_ok(ctx, n, n, 3 * sizeof(cplx), "effective (working arrays)"))) return st;
+  vt = lvsi_malloc(ctx, n * n * sizeof(cplx));
+  q = lvsi_malloc(ctx, (nq ? nq : 1) * sizeof(size_t));
+  if (!vt || !q) {
+    st = oom(ctx);
+    goto done;
+  }
+  if ((st = dense_v(w, h0, v, diag, vt))) goto done;
   group_levels(e, w, e->levels, diag);
   const size_t *p = e->levels;
   for (size_t i = 0, k = 0; i < n; i++)
@@ -417,8 +434,7 @@ static int dense_path(lvs_effective *e, ework *w, const lvs_matrix *h0, const lv
     }
   }
 done:
-  lvs_matrix_free(hd), lvs_matrix_free(vd), lvs_matrix_free(u);
-  lvsi_free(ctx, vt), lvsi_free(ctx, tmp), lvsi_free(ctx, q), lvsi_free(ctx, om), lvsi_free(ctx, vom);
+  lvsi_free(ctx, vt), lvsi_free(ctx, q), lvsi_free(ctx, om), lvsi_free(ctx, vom);
   return st;
 }
 
