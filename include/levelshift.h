@@ -290,6 +290,11 @@ LVS_API int lvs_write_file(lvs_ctx *ctx, const char *path, const void *data, siz
  * eigenbasis (a diagonal H0 keeps its basis states). */
 typedef struct lvs_effective lvs_effective;
 LVS_API int lvs_effective_new(const lvs_matrix *h0, const lvs_matrix *v, const size_t *levels, size_t nlevels, int order, lvs_effective **out);
+/* as lvs_effective_new; flags LVS_EFFECTIVE_DENSE: take the dense eigenbasis
+ * path even when H0 is diagonal (O(n^2) memory; for checking the sparse path) */
+#define LVS_EFFECTIVE_DENSE 1u
+LVS_API int lvs_effective_new_ex(const lvs_matrix *h0, const lvs_matrix *v, const size_t *levels, size_t nlevels,
+                                 int order, unsigned flags, lvs_effective **out);
 LVS_API void lvs_effective_free(lvs_effective *e);
 LVS_API size_t lvs_effective_dim(const lvs_effective *e);
 LVS_API int lvs_effective_order(const lvs_effective *e);
@@ -299,6 +304,9 @@ LVS_API size_t lvs_effective_state(const lvs_effective *e, size_t i);
 /* level (0-based, ascending energy, ties in basis order) of a basis state of a
  * diagonal H0; LVS_EINVAL when H0 is not diagonal */
 LVS_API int lvs_level_of_state(const lvs_matrix *h0, size_t state, size_t *level);
+/* all n eigenvalues of H0 into w (n entries), ascending; a diagonal H0 is
+ * sorted without an eigensolver. LVS_ENOTHERM / LVS_EINVAL as lvs_eigen */
+LVS_API int lvs_effective_spectrum(const lvs_matrix *h0, double *w);
 LVS_API int lvs_effective_term(const lvs_effective *e, int k, lvs_matrix **out);
 /* sum_k lambda^k term(k) through order (order < 0: all) */
 LVS_API int lvs_effective_at(const lvs_effective *e, double lambda, int order, lvs_matrix **out);

@@ -130,7 +130,7 @@ static int l_effective(lua_State *L) {
     lua_pop(L, 2);
     if (!(lo <= hi)) return luaL_argerror(L, 3, "'window' = {lo, hi} needs lo <= hi");
     double *w = lua_newuserdatauv(L, (n ? n : 1) * sizeof(double), 0);
-    int st = lvs_eigen(h0, 0, 0, w, NULL);
+    int st = lvs_effective_spectrum(h0, w);
     if (st == LVS_ENOTHERM || st == LVS_EINVAL) {
       lua_pushfstring(L, "H0: %s", lvs_errmsg(ctx));
       lvs_clear_error(ctx);

@@ -281,4 +281,85 @@ describe("effective", function()
       assert.error_matches(function() h:term(4) end, "order 4 is out of range 0..3", 1, true)
     end)
   end)
+
+  -- A diagonal H0 takes the sparse path (Omega on the states V reaches);
+  -- the 40,000-state models below could not be run densely (n^2 complex
+  -- working arrays of 77 GB are refused by the dense cap).
+  describe("on the sparse path", function()
+    -- qubit x oscillator, H0 = wq Sz + wr a^+a, Jaynes-Cummings coupling;
+    -- invented parameters
+    local function jc(N, wq, wr, g)
+      local P = ls.product(ls.spin(0.5), ls.oscillator(N))
+      local q, r = P:site(1), P:site(2)
+      return P, wq * q.Sz + wr * r.number, g * (q.Sp * r.lower + q.Sm * r.raise)
+    end
+
+    it("gives the dispersive shift chi = g^2/Delta and the exact Jaynes-Cummings doublets", function()
+      local wq, wr, g, n = 1.3, 1.0, 0.02, 3
+      local P, H0, V = jc(20000, wq, wr, g)
+      local D = wq - wr
+      local h = ls.effective(H0, V, { basis = P, labels = { { m1 = -0.5, n2 = n }, { m1 = 0.5, n2 = n } }, order = 6 })
+      assert.are.same({ "m1=-1/2 n2=3", "m1=1/2 n2=3" }, h:labels())
+      -- source: Blais et al., Phys. Rev. A 69, 062320 (2004), Sec. III, the
+      -- dispersive form H = (wr + chi sz) a^+a + (wq + chi) sz/2 with
+      -- chi = g^2/Delta, Delta = wq - wr (equation number not checked): the
+      -- second-order shifts of |g,n> and |e,n> are -n chi and (n + 1) chi
+      local chi = g * g / D
+      local H2 = h:term(2)
+      assert.near(-n * chi, re(H2, 1, 1), 1e-17)
+      assert.near((n + 1) * chi, re(H2, 2, 2), 1e-17)
+      assert.near(0, re(H2, 1, 2), 1e-18)
+      -- qubit line of the n-photon doublet: wq + (2n + 1) chi at second order
+      local H = h:at(1, 2)
+      assert.near(wq + (2 * n + 1) * chi, re(H, 2, 2) - re(H, 1, 1), 1e-14)
+      -- source: Jaynes & Cummings, Proc. IEEE 51, 89 (1963) (from memory): in
+      -- the doublet {|e,m>, |g,m+1>} the levels are (m + 1/2) wr +-
+      -- sqrt(Delta^2/4 + g^2 (m + 1)); |e,3> is the upper branch of m = 3,
+      -- |g,3> the lower of m = 2. Order 6 leaves O(g^8) ~ 1e-7 here, order 4
+      -- would miss the g^6 term (3.4e-6).
+      local Ee = (n + 0.5) * wr + math.sqrt(D * D / 4 + g * g * (n + 1))
+      local Eg = (n - 0.5) * wr - math.sqrt(D * D / 4 + g * g * n)
+      local H6 = h:at(1)
+      assert.near(Eg, re(H6, 1, 1), 2e-7)
+      assert.near(Ee, re(H6, 2, 2), 2e-7)
+      assert.is_true(math.abs(Ee - re(h:at(1, 4), 2, 2)) > 1e-6, "order 4 must be visibly worse")
+      -- the same |g,3> chosen by a window (the spectrum of a diagonal H0 is
+      -- sorted, not diagonalized): E = 3 wr - wq/2 = 2.35
+      local hw = ls.effective(H0, V, { basis = P, window = { 2.3, 2.4 }, order = 6 })
+      assert.are.same({ "m1=-1/2 n2=3" }, hw:labels())
+      assert.near(Eg, re(hw:at(1), 1, 1), 2e-7)
+    end)
+
+    it("has eigenvalue errors falling like lambda^(K+1) against exact diagonalization", function()
+      -- source: common practice (order-K truncation error), as in
+      -- ../shared/METHODS.md section 2; a Rabi coupling g sx (a + a^+) has
+      -- only even orders, so odd K shows the ratio 2^(K+1)
+      local P = ls.product(ls.spin(0.5), ls.oscillator(40))
+      local q, r = P:site(1), P:site(2)
+      local H0 = 0.6 * q.Sz + 1.0 * r.number
+      local V = 0.3 * (2 * q.Sx) * (r.lower + r.raise)
+      for _, K in ipairs{ 3, 5 } do
+        local h = ls.effective(H0, V, { levels = { 1, 2 }, order = K })
+        local errs = {}
+        for s, lam in ipairs{ 0.1, 0.05 } do
+          local Eeff, Eex = low(h:at(lam), 2), low(H0 + lam * V, 2)
+          errs[s] = math.max(math.abs(Eeff[1] - Eex[1]), math.abs(Eeff[2] - Eex[2]))
+        end
+        local ratio = errs[1] / errs[2]
+        assert.is_true(ratio > 0.75 * 2 ^ (K + 1) and ratio < 1.3 * 2 ^ (K + 1),
+          ("K = %d: ratio %.3g, want ~%d"):format(K, ratio, 2 ^ (K + 1)))
+      end
+    end)
+
+    it("names the levels a cut through a degenerate level leaves out", function()
+      -- resonant qubit: |e,2> and |g,3> share E = 2.5 (levels 6 and 7, ties
+      -- in basis order, the qubit's up state first)
+      local P, H0, V = jc(20000, 1.0, 1.0, 0.01)
+      assert.error_matches(function() ls.effective(H0, V, { basis = P, labels = { { m1 = -0.5, n2 = 3 } } }) end,
+        "bad argument #3 to 'effective' (the group cuts through a degenerate level of H0 (E = 2.5): level 6 must "
+          .. "come along with level 7)", 1, true)
+      local h = ls.effective(H0, V, { levels = { 6, 7 }, order = 2 })
+      assert.are.same({ 6, 7 }, h:group())
+    end)
+  end)
 end)
