@@ -853,9 +853,49 @@ static int sparse_levels(lvs_ctx *ctx, const lvs_matrix *hp, size_t top, double 
   }
 }
 
+/* Wigner's 2n+1 rule for one level when only energies are wanted: psi(0..m),
+ * m = ceil((K-1)/2), by the recursion; E(k) for k <= m+1 directly
+ * (<psi0|V|psi(k-1)>) and above from
+ *   E(2p+1) = <psi_p|V|psi_p> - sum_{k,l=1..p} E(2p+1-k-l) <psi_k|psi_l>,
+ *   E(2p)   = <psi_{p-1}|V|psi_p> - sum_{k=1..p, l=1..p-1} E(2p-k-l) <psi_k|psi_l>
+ * (E. P. Wigner, Math. Naturwiss. Anz. Ungar. Akad. Wiss. 53, 477 (1935);
+ * J. O. Hirschfelder, W. Byers Brown, S. T. Epstein, Adv. Quantum Chem. 1,
+ * 255 (1964), sec. 5) -- half the solves of the plain recursion.
+ * vpsi[j] = V psi(j) (n each, j = 0..m), psi[j] = om[j]. */
+static void wigner_energies(size_t n, int K, int m, dc *const *psi, dc *const *vpsi, dc *W) {
+  double S[64][64]; /* <psi_k|psi_l>, k, l <= m <= 50 */
+  for (int k = 1; k <= m; k++)
+    for (int l = 1; l <= m; l++) {
+      dc c = 0;
+      for (size_t r = 0; r < n; r++) c += conj(psi[k][r]) * psi[l][r];
+      S[k][l] = creal(c);
+    }
+  for (int e = m + 2; e <= K; e++) {
+    int p = e / 2;
+    dc c = 0;
+    const dc *a = e % 2 ? psi[p] : psi[p - 1];
+    for (size_t r = 0; r < n; r++) c += conj(a[r]) * vpsi[p][r];
+    double v = creal(c);
+    int lmax = e % 2 ? p : p - 1;
+    for (int k = 1; k <= p; k++)
+      for (int l = 1; l <= lmax; l++) {
+        int q = e - k - l;
+        if (q >= 1) v -= creal(W[q - 1]) * S[k][l];
+      }
+    W[e - 1] = v;
+  }
+}
+
 static int bloch_sparse(lvs_ctx *ctx, const lvs_matrix *hp, const lvs_matrix *vp, const dc *P, sgroup *g, int K,
-                        dc *W, const char **solver, size_t *solves, size_t *iters) {
+                        dc *W, int wigner, const char **solver, size_t *solves, size_t *iters) {
   size_t n = hp->rows, d = g->d, dd = d * d;
+  /* 2n+1: stop the states at m and keep every V psi(j) */
+  int m = wigner && d == 1 && K >= 3 && K <= 101 ? K / 2 : -1;
+  dc **vpsi = NULL;
+  if (m > 0) {
+    if (!(vpsi = lvsi_calloc(ctx, (size_t)m + 1, sizeof *vpsi))) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    g->nom = m;
+  }
   g->direct = 1;
   for (int k = 0; k <= g->nom; k++) g->lo[k] = 0, g->hi[k] = n;
   int st = LVS_OK;
@@ -874,8 +914,16 @@ static int bloch_sparse(lvs_ctx *ctx, const lvs_matrix *hp, const lvs_matrix *vp
       st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
       goto done;
     }
+    if (m > 0 && k > m + 1) break; /* the rest by the 2n+1 rule */
     for (size_t a = 0; a < d; a++) {
       if ((st = lvs_matrix_apply(vp, 1, (const double *)(g->om[k - 1] + a * n), (double *)y))) goto done;
+      if (m > 0) { /* keep V psi(k-1) */
+        if (!(vpsi[k - 1] = lvsi_malloc(ctx, n * sizeof(dc)))) {
+          st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+          goto done;
+        }
+        memcpy(vpsi[k - 1], y, n * sizeof(dc));
+      }
       for (size_t b = 0; b < d; b++) {
         const dc *pb = g->om[0] + b * n;
         dc c = 0;
@@ -898,7 +946,12 @@ static int bloch_sparse(lvs_ctx *ctx, const lvs_matrix *hp, const lvs_matrix *vp
       (*solves)++;
     }
   }
+  if (m > 0) wigner_energies(n, K, m, g->om, vpsi, W);
 done:
+  if (vpsi) {
+    for (int j = 0; j <= m; j++) lvsi_free(ctx, vpsi[j]);
+    lvsi_free(ctx, vpsi);
+  }
   if (R) {
     *solver = lvsi_resolvent_method(R);
     *iters += lvsi_resolvent_iterations(R);
@@ -1304,7 +1357,7 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
     blas_release(bheld);
     bheld = blas_hold1(d);
     if (pvec)
-      st = bloch_sparse(ctx, hp, vp, pvec + g0 * n, g, K, W, &s->solver, &s->solves, &s->iters);
+      st = bloch_sparse(ctx, hp, vp, pvec + g0 * n, g, K, W, !s->states, &s->solver, &s->solves, &s->iters);
     else if (bordered)
       st = bordered_level(ctx, &t, hp, vp, E, g0, K, g, W);
     else

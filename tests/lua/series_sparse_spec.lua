@@ -123,6 +123,29 @@ describe("series of a large sparse H0", function()
     for _, k in ipairs { 1, 3, 5, 7 } do assert.near(0, s:energy(1, k), 1e-8 * math.abs(s:energy(1, k + 1))) end
   end)
 
+  it("gets energies by Wigner's 2n+1 rule with half the solves when no states are kept", function()
+    -- source: E. P. Wigner (1935); Hirschfelder, Byers Brown, Epstein, Adv.
+    -- Quantum Chem. 1, 255 (1964), sec. 5: psi(0..n) fix E(2n+1); checked
+    -- against the plain recursion of the same series (complex V)
+    local L = 10
+    local H0, P = xxz(L, 0.5, 0.11)
+    local V = staggered(P, L) + 0.2 * ls.sum(1, L, function(i) return P:site(i).Sy end)
+    for _, K in ipairs { 3, 8, 9 } do
+      local a = ls.perturb(H0, V, { order = K, levels = { 2 }, states = false })
+      local b = ls.perturb(H0, V, { order = K, levels = { 2 } })
+      local _, na = a:solver()
+      local _, nb = b:solver()
+      assert.are.equal(K // 2, na)
+      assert.are.equal(K, nb)
+      for k = 0, K do
+        -- odd orders vanish up to rounding of their neighbours' size
+        local scale = 1
+        for j = math.max(0, k - 1), math.min(K, k + 1) do scale = math.max(scale, math.abs(b:energy(2, j))) end
+        assert.near(b:energy(2, k), a:energy(2, k), 1e-12 * scale)
+      end
+    end
+  end)
+
   it("works for a complex H0 (a Dzyaloshinskii-Moriya chain)", function()
     local L = 10
     local H0, P = xxz(L, 0.8, 0.17)
