@@ -125,7 +125,8 @@ def wait_child(cmd, timeout):
 def run(cmd, timeout=None):
     wall, rc, stdout, stderr, rss = wait_child(cmd, timeout)
     if rc != 0:
-        why = f"killed after {timeout:g} s" if rc < 0 and timeout and wall >= timeout else stderr.strip()[:300]
+        first = (stderr.strip().splitlines() or [f"exit status {rc}"])[0]   # not the traceback
+        why = f"killed after {timeout:g} s" if rc < 0 and timeout and wall >= timeout else first[:300]
         raise RuntimeError(f"{' '.join(cmd)}: {why}")
     line = [l for l in stdout.strip().splitlines() if " seconds=" in l][-1]
     fields = dict(f.split("=", 1) for f in line.split()[1:] if "=" in f)
