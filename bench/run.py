@@ -256,6 +256,7 @@ def main():
         else:
             print(f"{job:16s} {med(ls_core):10.4f} {'-':>11s} {'-':>10s} {med(ls_wall):10.4f} "
                   f"{'-':>11s} {'-':>10s} {ls_rss / MB:8.1f} {'-':>8s}  {res[0]}")
+            rows.append((job, med(ls_core), None, None, med(ls_wall), None, None, ls_rss / MB, None))
         target = target_check(job, stats)
         if target:
             print(f"{'':16s} target {target[0]}: {'met' if target[1] else 'NOT met'}")
@@ -265,9 +266,11 @@ def main():
         print("| job | levelshift core | baseline core | core ratio | levelshift process | baseline process "
               "| process ratio | levelshift peak RSS | baseline peak RSS |")
         print("|---|---|---|---|---|---|---|---|---|")
-        for r in rows:
-            print(f"| {r[0]} | {r[1]:.4f} s | {r[2]:.4f} s | {r[3]:.2f} | {r[4]:.3f} s | {r[5]:.3f} s "
-                  f"| {r[6]:.2f} | {r[7]:.0f} MB | {r[8]:.0f} MB |")
+        def cell(x, fmt, unit=""):
+            return "-" if x is None else format(x, fmt) + unit
+        for r in rows:   # a job without a baseline has None in the baseline's cells
+            print(f"| {r[0]} | {r[1]:.4f} s | {cell(r[2], '.4f', ' s')} | {cell(r[3], '.2f')} | {r[4]:.3f} s "
+                  f"| {cell(r[5], '.3f', ' s')} | {cell(r[6], '.2f')} | {r[7]:.0f} MB | {cell(r[8], '.0f', ' MB')} |")
 
 
 if __name__ == "__main__":
