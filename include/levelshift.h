@@ -208,7 +208,7 @@ LVS_API int lvs_eigen_sectors(const lvs_matrix *h, const size_t *comp, size_t co
  * copy of the sector) or by ARPACK (implicitly restarted Lanczos for a real
  * op, Arnoldi for a complex one; shift-invert with a UMFPACK sparse LU of
  * H - near for `near`). LVS_EIGEN_AUTO takes ARPACK for a sparse sector of
- * more than LVS_KRYLOV_MIN_DIM states when count <= size/8, LAPACK
+ * more than LVS_KRYLOV_MIN_DIM (200) states when count <= size/8, LAPACK
  * otherwise; LVS_EIGEN_KRYLOV takes ARPACK for every sector where it can
  * (count + 2 <= size), LVS_EIGEN_DENSE never. Every dense request is
  * checked against the dense cap before any work. Errors: LVS_ENOCONV (not
@@ -216,14 +216,14 @@ LVS_API int lvs_eigen_sectors(const lvs_matrix *h, const size_t *comp, size_t co
  * Gershgorin range of the op, or on a level: H - near singular),
  * LVS_ENOTHERM, LVS_ECAP. opts may be NULL (all defaults). */
 typedef enum { LVS_EIGEN_AUTO = 0, LVS_EIGEN_DENSE = 1, LVS_EIGEN_KRYLOV = 2 } lvs_eigen_method;
-#define LVS_KRYLOV_MIN_DIM 1000
+#define LVS_KRYLOV_MIN_DIM 200
 typedef struct {
   int method;          /* lvs_eigen_method */
   int has_near;        /* nonzero: levels nearest `near` */
   double near;
   double tol;          /* ARPACK's relative residual tolerance; 0 = machine precision */
   size_t maxiter;      /* ARPACK restarts; 0 = max(1000, 10 n) */
-  size_t ncv;          /* Lanczos/Arnoldi basis size; 0 = max(2 count + 1, 20) */
+  size_t ncv;          /* Lanczos/Arnoldi basis size; 0 = max(2 count + 1, 28) */
   const double *start; /* start vector (n values, 2n complex interleaved) or NULL:
                           a fixed pseudo-random one; used for a single sector only */
 } lvs_eigen_opts;

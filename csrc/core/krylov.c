@@ -534,7 +534,7 @@ int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, doub
     return lvsi_fail(ctx, LVS_ERANGE,
                      "eigen: krylov method: count %zu is too large for %zu states (at most %zu); use method = 'dense'",
                      count, n, n > minv ? n - minv : 0);
-  size_t ncv = o && o->ncv ? o->ncv : (2 * count + 1 > 20 ? 2 * count + 1 : 20);
+  size_t ncv = o && o->ncv ? o->ncv : (2 * count + 1 > 28 ? 2 * count + 1 : 28);
   if (ncv > n) ncv = n;
   if (ncv < count + minv) ncv = count + minv > n ? n : count + minv;
   if (ncv <= count || (a->cplx && ncv < count + 2))

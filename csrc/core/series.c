@@ -806,7 +806,7 @@ done:
  * fill in). This is the eigenbasis recursion of bloch_group with the
  * division by (E_P - E_m) replaced by R; W feeds the same eigseries. Cost per
  * order: d products with V and d solves; memory O(n d K). */
-#define SERIES_SPARSE_MIN LVS_KRYLOV_MIN_DIM
+#define SERIES_SPARSE_MIN 1000 /* below: the eigenbasis route, robust for any clustering */
 
 /* the sparse path applies: sparse, large, and a few explicit low levels */
 static int sparse_path(const lvs_matrix *hp, const size_t *levels, size_t nlevels) {
