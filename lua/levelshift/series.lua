@@ -142,7 +142,11 @@ return function(ls, core)
   function methods.check(s, lambda)
     argcheck_lambda(lambda, "check", 1)
     local H0, V = s:operators()
-    local ok, E = pcall(function() return ls.eigen(H0 + lambda * V, { vectors = false }) end)
+    -- only the levels up to the highest one checked: a large sparse H goes
+    -- to the Krylov path instead of a full dense spectrum
+    local top = 0
+    for _, lev in ipairs(s:chosen()) do top = math.max(top, lev) end
+    local ok, E = pcall(function() return ls.eigen(H0 + lambda * V, { count = top, vectors = false }) end)
     if not ok then -- e.g. lambda so large that H0 + lambda V overflows
       error("bad argument #1 to 'check' (exact diagonalization of H0 + lambda V at lambda = "
         .. tostring(lambda) .. " failed: " .. (tostring(E):gsub("^[^:]*:%d+: ", "")) .. ")", 2)
