@@ -29,6 +29,9 @@
  *     that list. Cost O(K d * entries of V in the reached columns + K^2 d^2
  *     * reached), memory O(K d * reached) plus one n-entry index; nothing
  *     n x n. The spectrum is a stable sort of the diagonal.
+ *   - Krylov (H0 sparse, not diagonal, large; phase 3c): the group's
+ *     vectors from ARPACK, Omega(k) by reduced-resolvent solves in the
+ *     original basis (resolvent.c). O(K d) products and solves.
  *   - dense (H0 not diagonal, or LVS_EFFECTIVE_DENSE): lvs_eigen, V in
  *     the eigenbasis as an n x n array, Omega(k) on every level outside the
  *     group: O(n^2 d K) time, O(n^2) memory.
@@ -438,6 +441,175 @@ done:
   return st;
 }
 
+/* ---- phase 3c: wave-operator recursion, Krylov path (sparse H0) -------- */
+/* A large sparse H0 that is not diagonal (more than KRYLOV_EFF_MIN states,
+ * a group of low levels): the lowest levels and their vectors P from the
+ * Krylov path (lvs_eigen_ex), then the recursion in the original basis,
+ *   W(k)_ba = <p_b| V Omega(k-1)_a>,
+ *   Omega(k)_a = R_a [V Omega(k-1)_a - sum_{i=1..k-1} sum_b Omega(i)_b W(k-i)_ba],
+ * Omega(0) = P, with R_a = Q (E_a - H0)^{-1} Q the reduced resolvent at the
+ * member's own energy (resolvent.c: bordered sparse LU or MINRES; members
+ * within the degeneracy tolerance share one). It is the dense path's
+ * division by (E_a - E_m) done by solves. Cost per order: d products with V
+ * and d solves; memory O(K n d). The cut and gap checks use the computed
+ * levels (the next level above the group is always computed). */
+#define KRYLOV_EFF_MIN 1000
+
+static int krylov_applies(const ework *w, const size_t *levels) {
+  size_t top = 0;
+  for (size_t i = 0; i < w->d; i++) top = levels[i] > top ? levels[i] : top;
+  return w->hp->sparse && w->n > KRYLOV_EFF_MIN && (top + 8) * 8 <= w->n;
+}
+
+/* the lowest m levels (E[0..m), rest INFINITY) and vectors, m past the
+ * group's top and past any level degenerate with it */
+static int krylov_levels(ework *w, size_t top, double dtol, cplx **pv, size_t *pm) {
+  lvs_ctx *ctx = w->ctx;
+  size_t n = w->n, m = top + 2;
+  for (;;) {
+    if (m + 2 > n) m = n - 2;
+    lvs_matrix *U = NULL;
+    lvs_eigen_opts o = {0};
+    int st = lvs_eigen_ex(w->hp, NULL, m, 1, &o, w->E, &U);
+    if (st) return st;
+    size_t g1 = top + 1;
+    while (g1 < m && w->E[g1] - w->E[g1 - 1] <= dtol) g1++;
+    if (g1 < m || m >= n - 2) {
+      cplx *P = lvsi_malloc(ctx, n * m * sizeof(cplx));
+      if (!P) {
+        lvs_matrix_free(U);
+        return oom(ctx);
+      }
+      for (size_t q = 0; q < n * m; q++) P[q] = U->cplx ? CMPLX(U->a[2 * q], U->a[2 * q + 1]) : U->a[q];
+      lvs_matrix_free(U);
+      for (size_t i = m; i < n; i++) w->E[i] = INFINITY;
+      *pv = P;
+      *pm = m;
+      return LVS_OK;
+    }
+    lvs_matrix_free(U);
+    m *= 2;
+  }
+}
+
+/* the cut check on the computed levels: no member degenerate with a level
+ * left out (the level above the group is known, the ones below all are) */
+static int krylov_cut(ework *w, const size_t *p, size_t m, double dtol) {
+  for (size_t a = 0; a < w->d; a++) {
+    size_t L = p[a];
+    for (size_t x = 0; x < m; x++)
+      if (!w->inP[x] && fabs(w->E[x] - w->E[L]) <= dtol)
+        return lvsi_fail(w->ctx, LVS_EINVAL,
+                         "the group cuts through a degenerate level of H0 (E = %.10g): level %zu must come along "
+                         "with level %zu",
+                         w->E[L], x + 1, L + 1);
+  }
+  return LVS_OK;
+}
+
+static int krylov_path(lvs_effective *e, ework *w) {
+  lvs_ctx *ctx = w->ctx;
+  size_t n = w->n, d = w->d, dd = d * d, m = 0;
+  int K = w->K, st;
+  double glo, ghi;
+  lvsi_gershgorin(w->hp, &glo, &ghi);
+  double dtol = 1e-10 * fmax(ghi - glo, fmax(fabs(glo), fabs(ghi)));
+  group_levels(e, w, e->levels, 0);
+  const size_t *p = e->levels;
+  cplx *Pall = NULL, *P = NULL, *y = NULL, **om = NULL;
+  lvsi_resolvent **R = NULL;
+  if ((st = krylov_levels(w, p[d - 1], dtol, &Pall, &m))) return st;
+  if ((st = krylov_cut(w, p, m, dtol))) goto done;
+  P = lvsi_malloc(ctx, n * d * sizeof(cplx));
+  y = lvsi_malloc(ctx, n * sizeof(cplx));
+  om = lvsi_calloc(ctx, (size_t)K + 1, sizeof *om);
+  R = lvsi_calloc(ctx, d, sizeof *R);
+  if (!P || !y || !om || !R) {
+    st = oom(ctx);
+    goto done;
+  }
+  for (size_t a = 0; a < d; a++) memcpy(P + a * n, Pall + p[a] * n, n * sizeof(cplx));
+  lvsi_free(ctx, Pall);
+  Pall = NULL;
+  om[0] = P;
+  /* coupling and |V| for the warnings: |Q V p_a| (a bound on the coupling
+   * to any one level outside) and the largest stored entry of V */
+  size_t vw = w->vp->cplx ? 2 : 1, vc = w->vp->sparse ? w->vp->nnz : n * n;
+  for (size_t k = 0; k < vc * vw; k++) w->vmax = fmax(w->vmax, fabs(w->vp->a[k]));
+  for (size_t a = 0; a < d; a++) {
+    if ((st = lvs_matrix_apply(w->vp, 1, (const double *)(P + a * n), (double *)y))) goto done;
+    for (size_t b = 0; b < d; b++) {
+      cplx c = 0;
+      for (size_t i = 0; i < n; i++) c += conj(P[i + b * n]) * y[i];
+      for (size_t i = 0; i < n; i++) y[i] -= c * P[i + b * n];
+    }
+    double nr = 0;
+    for (size_t i = 0; i < n; i++) nr += creal(y[i] * conj(y[i]));
+    w->coup = fmax(w->coup, sqrt(nr));
+  }
+  if ((st = gap_warning(e, w))) goto done;
+  /* one resolvent per distinct member energy */
+  for (size_t a = 0; a < d && K > 1; a++) {
+    for (size_t b = 0; b < a && !R[a]; b++)
+      if (fabs(w->E[p[a]] - w->E[p[b]]) <= dtol) R[a] = R[b];
+    if (!R[a] && (st = lvsi_resolvent_new(w->hp, P, d, w->E[p[a]], 1, &R[a]))) goto done;
+  }
+  for (int k = 1; k <= K; k++) {
+    cplx *Wk = w->W + (size_t)k * dd;
+    int keep = k < K; /* Omega(K) is not needed for H to order K */
+    if (keep && !(om[k] = lvsi_malloc(ctx, n * d * sizeof(cplx)))) {
+      st = oom(ctx);
+      goto done;
+    }
+    for (size_t a = 0; a < d; a++) {
+      if ((st = lvs_matrix_apply(w->vp, 1, (const double *)(om[k - 1] + a * n), (double *)y))) goto done;
+      for (size_t b = 0; b < d; b++) {
+        cplx c = 0;
+        for (size_t i = 0; i < n; i++) c += conj(P[i + b * n]) * y[i];
+        Wk[b + a * d] = c;
+      }
+      if (!keep) continue;
+      for (int i = 1; i < k; i++) {
+        const cplx *oi = om[i], *wj = w->W + (size_t)(k - i) * dd;
+        for (size_t b = 0; b < d; b++) {
+          cplx c = wj[b + a * d];
+          if (c != 0)
+            for (size_t r = 0; r < n; r++) y[r] -= oi[r + b * n] * c;
+        }
+      }
+      if ((st = lvsi_resolvent_solve(R[a], y, om[k] + a * n))) goto done;
+    }
+  }
+  /* X(k) = sum_{i+j=k, i,j>=1} Omega(i)^dag Omega(j) */
+  for (int k = 2; k <= K; k++) {
+    cplx *xk = w->X + (size_t)k * dd;
+    for (int i = 1; i <= k - 1; i++)
+      for (size_t b = 0; b < d; b++)
+        for (size_t a = 0; a < d; a++) {
+          const cplx *u = om[i] + a * n, *v = om[k - i] + b * n;
+          cplx c = 0;
+          for (size_t r = 0; r < n; r++) c += conj(u[r]) * v[r];
+          xk[a + b * d] += c;
+        }
+  }
+done:
+  if (R)
+    for (size_t a = 0; a < d; a++) {
+      int shared = 0;
+      for (size_t b = 0; b < a; b++) shared |= R[b] == R[a];
+      if (!shared) lvsi_resolvent_free(R[a]);
+    }
+  if (om)
+    for (int k = 0; k <= K; k++) lvsi_free(ctx, om[k]);
+  else
+    lvsi_free(ctx, P);
+  lvsi_free(ctx, om);
+  lvsi_free(ctx, R);
+  lvsi_free(ctx, y);
+  lvsi_free(ctx, Pall);
+  return st;
+}
+
 /* ---- phase 3b: wave-operator recursion, sparse path (diagonal H0) ------ */
 /* With H0 diagonal the basis states are the levels and V is used as given
  * (plain, sparse or dense), column by column. Omega(k) is nonzero only on
@@ -701,6 +873,8 @@ int lvs_effective_new_ex(const lvs_matrix *h0, const lvs_matrix *v, const size_t
   /* the recursion fills W and X */
   if (diag && !(flags & LVS_EFFECTIVE_DENSE))
     st = sparse_path(e, &w);
+  else if (!diag && !(flags & LVS_EFFECTIVE_DENSE) && krylov_applies(&w, levels))
+    st = krylov_path(e, &w);
   else
     st = dense_path(e, &w, h0, v, diag);
   if (st || (st = symmetrize(e, &w)) || (st = assemble(e, &w))) goto fail;

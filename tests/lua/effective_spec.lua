@@ -362,4 +362,45 @@ describe("effective", function()
       assert.are.same({ 6, 7 }, h:group())
     end)
   end)
+
+  describe("on the Krylov path (large sparse H0, not diagonal)", function()
+    -- a tilted qubit H_q = eps sigma_z + delta sigma_x (invented values)
+    -- beside an oscillator, V = g sigma_x (a + a^+). Rotated into the
+    -- qubit's eigenbasis by the angle theta (tan theta = delta/eps) the same
+    -- model is H_q' = r sigma_z (r = sqrt(eps^2 + delta^2)) and sigma_x' =
+    -- cos theta sigma_x - sin theta sigma_z (a rotation about y; common
+    -- practice), whose H0 is diagonal: the two effective Hamiltonians must
+    -- have the same eigenvalues at every lambda (unitary equivalence).
+    local eps, delta, g, N = 0.37, 0.11, 0.05, 3000
+    local P = ls.product(ls.spin(0.5), ls.oscillator(N))
+    local q, o = P:site(1), P:site(2)
+    local sx, sz = 2 * q.Sx, 2 * q.Sz
+    local x = o.lower + o.raise
+    it("agrees with the same model in the diagonal basis", function()
+      local H0 = 1.0 * o.number + eps * sz + delta * sx
+      local V = g * sx * x
+      local h = ls.effective(H0, V, { levels = { 1, 2, 3 }, order = 5 })
+      local r, th = math.sqrt(eps ^ 2 + delta ^ 2), math.atan(delta, eps)
+      local H0d = 1.0 * o.number + r * sz
+      local Vd = g * (math.cos(th) * sx - math.sin(th) * sz) * x
+      local hd = ls.effective(H0d, Vd, { levels = { 1, 2, 3 }, order = 5 })
+      for _, lam in ipairs { 0.4, 1 } do
+        local a = ls.eigen(h:at(lam), { vectors = false })
+        local b = ls.eigen(hd:at(lam), { vectors = false })
+        for k = 1, 3 do assert.near(b[k], a[k], 1e-12) end
+      end
+      -- zeroth order: the qubit-split levels -r, r, 1 - r (common practice)
+      local t0 = h:term(0)
+      assert.near(-r, (t0:get(1, 1)), 1e-12)
+      assert.near(r, (t0:get(2, 2)), 1e-12)
+      assert.near(1 - r, (t0:get(3, 3)), 1e-12)
+    end)
+
+    it("refuses a group that cuts through a degenerate level", function()
+      -- resonant qubit (2 r = omega): |e,0> and |g,1> share E = 0.5
+      local H0 = 1.0 * o.number + 0.4 * sz + 0.3 * sx
+      assert.error_matches(function() ls.effective(H0, g * sx * x, { levels = { 1, 2 }, order = 2 }) end,
+        "the group cuts through a degenerate level of H0", 1, true)
+    end)
+  end)
 end)
