@@ -1192,126 +1192,221 @@ static int wop_rotated(lvs_ctx *ctx, const lvs_matrix *v, const lvs_matrix *U, s
   return LVS_OK;
 }
 
-int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels,
-                   double degen_tol, int flags, lvs_series **out) {
-  lvs_ctx *ctx = h0->ctx;
-  *out = NULL;
+/* ---- lvs_series_new, phase by phase ------------------------------------
+ * inputs (sizes, order, levels; plain copies, Hermitian checks), basis (the
+ * working basis and how orders are solved: diagonal H0 permuted, the sparse
+ * path, a few bordered dense levels, or H0's eigenbasis), groups (counted,
+ * then each solved and its energies and P-space vectors z found). */
+typedef struct {
+  lvs_ctx *ctx;
+  const lvs_matrix *h0, *v;
+  lvs_matrix *hp, *vp, *vkeep; /* plain H0 and V (copies when padded); V kept for the matrix-free wop */
+  wop w;                       /* V in the working basis */
+  tri t;                       /* bordered dense route */
+  int bordered, bheld;         /* bheld: BLAS threads to restore (blas_hold1) */
+  dc *pvec;                    /* sparse path: the lowest levels' vectors, n x m */
+  double sgtol, degen_tol;
+  unsigned char *want;
+  dc *W, *zz;
+  double *mu;
+  int *sp, *zo;
+} sbuild;
+
+static void sbuild_free(sbuild *b) {
+  lvs_ctx *ctx = b->ctx;
+  lvsi_free(ctx, b->pvec);
+  blas_release(b->bheld);
+  wop_free(ctx, &b->w);
+  tri_free(ctx, &b->t);
+  lvs_matrix_free(b->vkeep);
+  if (b->hp != b->h0) lvs_matrix_free(b->hp);
+  if (b->vp != b->v) lvs_matrix_free(b->vp);
+  lvsi_free(ctx, b->want);
+  lvsi_free(ctx, b->W);
+  lvsi_free(ctx, b->mu);
+  lvsi_free(ctx, b->sp);
+  lvsi_free(ctx, b->zo);
+}
+
+/* sizes, order, tolerance and levels; plain copies (sparse stays sparse),
+ * whose Hermitian checks cost O(stored entries), not O(n^2) for a padded
+ * sparse operator */
+static int series_inputs(sbuild *b, int order, const size_t *levels, size_t nlevels) {
+  lvs_ctx *ctx = b->ctx;
+  const lvs_matrix *h0 = b->h0, *v = b->v;
   size_t n = lvs_matrix_rows(h0);
   if (n != lvs_matrix_cols(h0)) return lvsi_fail(ctx, LVS_EDIM, "H0 must be square, got %zux%zu", n, lvs_matrix_cols(h0));
   if (lvs_matrix_rows(v) != n || lvs_matrix_cols(v) != n)
     return lvsi_fail(ctx, LVS_EDIM, "V is %zux%zu but H0 is %zux%zu", lvs_matrix_rows(v), lvs_matrix_cols(v), n, n);
   if (order < 1 || order > 1000) return lvsi_fail(ctx, LVS_ERANGE, "order must be from 1 to 1000, got %d", order);
-  if (!(degen_tol >= 0) || degen_tol > 0.5)
-    return lvsi_fail(ctx, LVS_EINVAL, "degen_tol must be from 0 to 0.5, got %g", degen_tol);
+  if (!(b->degen_tol >= 0) || b->degen_tol > 0.5)
+    return lvsi_fail(ctx, LVS_EINVAL, "degen_tol must be from 0 to 0.5, got %g", b->degen_tol);
   for (size_t i = 0; i < nlevels; i++)
     if (levels[i] >= n) return lvsi_fail(ctx, LVS_ERANGE, "level %zu is out of range 1..%zu", levels[i] + 1, n);
-  /* plain copies (sparse stays sparse); the Hermitian checks on them cost
-   * O(stored entries), not O(n^2) for a padded sparse operator */
-  lvs_matrix *hp = NULL, *vp = NULL, *vkeep = NULL;
   int st;
-  if (h0->vis)
-    st = lvs_matrix_visible(h0, 0, &hp);
-  else
-    hp = (lvs_matrix *)h0, st = LVS_OK; /* plain already: read it in place */
-  if (st) return st;
-  if (!st) st = lvsi_check_hermitian(hp, LVS_DEFAULT_HERM_TOL, "H0");
-  if (!st) {
-    if (v->vis)
-      st = lvs_matrix_visible(v, 0, &vp);
-    else
-      vp = (lvs_matrix *)v;
-  }
-  if (!st) st = lvsi_check_hermitian(vp, LVS_DEFAULT_HERM_TOL, "V");
-  if (st) {
-    if (hp != h0) lvs_matrix_free(hp);
-    if (vp != v) lvs_matrix_free(vp);
+  b->hp = (lvs_matrix *)h0; /* plain already: read it in place */
+  if (h0->vis && (st = lvs_matrix_visible(h0, 0, &b->hp))) {
+    b->hp = (lvs_matrix *)h0;
     return st;
   }
-  int K = order;
-  size_t nk = (size_t)K + 1;
-  lvs_series *s = lvsi_calloc(ctx, 1, sizeof *s);
-  wop w;
-  memset(&w, 0, sizeof w);
-  tri t;
-  memset(&t, 0, sizeof t);
-  int bordered = 0, bheld = 0; /* bheld: BLAS threads to restore (blas_hold1) */
-  unsigned char *want = NULL;
-  ekey *raw = NULL;
-  dc *pvec = NULL; /* sparse path: the lowest levels' vectors, n x m */
-  double sgtol = 0;
-  dc *W = NULL, *zz = NULL;
-  double *mu = NULL;
-  int *sp = NULL, *zo = NULL;
-  if (!s) {
-    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-    goto fail;
+  if ((st = lvsi_check_hermitian(b->hp, LVS_DEFAULT_HERM_TOL, "H0"))) return st;
+  b->vp = (lvs_matrix *)v;
+  if (v->vis && (st = lvs_matrix_visible(v, 0, &b->vp))) {
+    b->vp = (lvs_matrix *)v;
+    return st;
   }
-  s->ctx = ctx;
-  s->n = n;
-  s->K = K;
-  s->normalized = (flags & LVS_SERIES_NORMALIZED) != 0;
-  s->states = (flags & LVS_SERIES_NO_STATES) == 0;
-  s->e0 = lvsi_malloc(ctx, n * sizeof *s->e0);
-  s->slot = lvsi_malloc(ctx, n * sizeof *s->slot);
-  s->perm = lvsi_malloc(ctx, n * sizeof *s->perm);
-  want = lvsi_calloc(ctx, n, 1);
-  if (!s->e0 || !s->slot || !s->perm || !want) {
-    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-    goto fail;
-  }
+  return lvsi_check_hermitian(b->vp, LVS_DEFAULT_HERM_TOL, "V");
+}
+
+/* the working basis: s->e0 sorted, s->perm, V in that basis (b->w), or the
+ * sparse path's levels and vectors, or the bordered dense route */
+static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t nlevels) {
+  lvs_ctx *ctx = s->ctx;
+  size_t n = s->n;
   double *E = s->e0;
+  const lvs_matrix *hp = b->hp, *vp = b->vp;
+  int st;
   if (plain_diagonal(hp, E)) {
-    raw = lvsi_malloc(ctx, n * sizeof *raw);
-    if (!raw) {
-      st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-      goto fail;
-    }
+    ekey *raw = lvsi_malloc(ctx, n * sizeof *raw);
+    if (!raw) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
     for (size_t i = 0; i < n; i++) raw[i].e = E[i], raw[i].i = i;
     qsort(raw, n, sizeof *raw, cmp_ekey);
     for (size_t i = 0; i < n; i++) E[i] = raw[i].e, s->perm[i] = raw[i].i;
     lvsi_free(ctx, raw);
-    raw = NULL;
-    if ((st = wop_permuted(ctx, vp, s->perm, &w))) goto fail;
     s->solver = "diagonal";
-  } else if (sparse_path(hp, levels, nlevels)) {
-    for (size_t i = 0; i < n; i++) s->perm[i] = i;
+    return wop_permuted(ctx, vp, s->perm, &b->w);
+  }
+  for (size_t i = 0; i < n; i++) s->perm[i] = i;
+  if (sparse_path(hp, levels, nlevels)) {
     size_t top = 0;
     for (size_t i = 0; i < nlevels; i++) top = levels[i] > top ? levels[i] : top;
-    if ((st = sparse_levels(ctx, hp, top, degen_tol, E, &pvec, &sgtol))) goto fail;
     s->solver = "bordered LU";
-  } else {
-    for (size_t i = 0; i < n; i++) s->perm[i] = i;
-    /* a few explicit, non-degenerate levels of a real H0: solve, do not diagonalize */
-    if (!hp->cplx && nlevels >= 1 && nlevels <= 8) {
-      if ((st = tri_new(ctx, hp, E, &t))) goto fail;
-      double big0 = 0;
-      for (size_t i = 0; i < n; i++) big0 = fmax(big0, fabs(E[i]));
-      double gt = degen_tol * fmax(E[n - 1] - E[0], big0);
-      bordered = 1;
-      for (size_t i = 0; i < nlevels; i++) {
-        size_t L = levels[i];
-        if ((L > 0 && E[L] - E[L - 1] <= gt) || (L + 1 < n && E[L + 1] - E[L] <= gt)) bordered = 0;
-      }
-      if (!bordered) tri_free(ctx, &t);
-      else s->solver = "bordered dense";
-    }
-    if (!bordered) {
-      if ((st = lvs_eigen(hp, 0, 1, E, &s->U))) goto fail;
-      /* columns to apply V to: the wanted levels' groups, counted loosely
-       * (a group is found only after the eigenvalues are known) */
-      size_t applies = (nlevels ? nlevels : n) * (size_t)K;
-      if ((st = wop_rotated(ctx, vp, s->U, applies, &w, &vkeep))) goto fail;
-    }
+    return sparse_levels(ctx, hp, top, b->degen_tol, E, &b->pvec, &b->sgtol);
   }
-  s->vnorm = colnorm1(vp);
-  if (nlevels == 0)
-    memset(want, 1, n);
+  /* a few explicit, non-degenerate levels of a real H0: solve, do not diagonalize */
+  if (!hp->cplx && nlevels >= 1 && nlevels <= 8) {
+    if ((st = tri_new(ctx, hp, E, &b->t))) return st;
+    double big0 = 0;
+    for (size_t i = 0; i < n; i++) big0 = fmax(big0, fabs(E[i]));
+    double gt = b->degen_tol * fmax(E[n - 1] - E[0], big0);
+    b->bordered = 1;
+    for (size_t i = 0; i < nlevels; i++) {
+      size_t L = levels[i];
+      if ((L > 0 && E[L] - E[L - 1] <= gt) || (L + 1 < n && E[L + 1] - E[L] <= gt)) b->bordered = 0;
+    }
+    if (b->bordered) {
+      s->solver = "bordered dense";
+      return LVS_OK;
+    }
+    tri_free(ctx, &b->t);
+  }
+  if ((st = lvs_eigen(hp, 0, 1, E, &s->U))) return st;
+  /* columns to apply V to: the wanted levels' groups, counted loosely
+   * (a group is found only after the eigenvalues are known) */
+  size_t applies = (nlevels ? nlevels : n) * (size_t)s->K;
+  return wop_rotated(ctx, vp, s->U, applies, &b->w, &b->vkeep);
+}
+
+/* energies (and P-space vectors z when states are kept) of the members of
+ * one group g of size d from its W(1..K) */
+static int group_energies(lvs_series *s, sbuild *b, sgroup *g) {
+  lvs_ctx *ctx = s->ctx;
+  size_t d = g->d, g0 = g->g0, nk = (size_t)s->K + 1, kp = (size_t)s->K;
+  int K = s->K, st;
+  const dc *W = b->W;
+  if (d == 1) {
+    slevel *L = &s->lev[s->slot[g0]];
+    for (int k = 1; k <= K; k++) L->e[k] = creal(W[k - 1]);
+    L->split = 0;
+    L->zord = s->states ? K : -1;
+    if (s->states) {
+      if (!(g->zbuf = lvsi_calloc(ctx, nk, sizeof(dc)))) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+      g->zbuf[0] = 1.0;
+      L->z = g->zbuf;
+    }
+  } else {
+    b->mu = lvsi_malloc(ctx, d * kp * sizeof *b->mu);
+    b->sp = lvsi_malloc(ctx, d * sizeof *b->sp);
+    b->zo = lvsi_malloc(ctx, d * sizeof *b->zo);
+    dc *zz = s->states ? (g->zbuf = lvsi_calloc(ctx, d * kp * d, sizeof *zz)) : NULL;
+    if (!b->mu || !b->sp || !b->zo || (s->states && !zz)) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    double stol = b->degen_tol > 0 ? b->degen_tol : 1e-10;
+    if ((st = eigseries(ctx, d, K - 1, W, stol, 1, b->mu, zz, b->sp, b->zo))) return st;
+    for (size_t i = 0; i < d; i++) {
+      slevel *L = &s->lev[s->slot[g0 + i]];
+      for (int k = 1; k <= K; k++) L->e[k] = b->mu[i * kp + (size_t)(k - 1)];
+      L->split = b->sp[i];
+      L->zord = s->states ? b->zo[i] : -1;
+      if (s->states) L->z = zz + i * kp * d; /* owned by the group */
+    }
+    lvsi_free(ctx, b->mu), lvsi_free(ctx, b->sp), lvsi_free(ctx, b->zo);
+    b->mu = NULL, b->sp = NULL, b->zo = NULL;
+  }
+  if (!s->states) /* Omega served the energies only */
+    for (int k = 1; k <= g->nom; k++) {
+      lvsi_free(ctx, g->om[k]);
+      g->om[k] = NULL;
+    }
+  return LVS_OK;
+}
+
+/* one group of levels [g0, g1) of H0: its wave operator and energies */
+static int series_group(lvs_series *s, sbuild *b, size_t g0, size_t g1, size_t gid) {
+  lvs_ctx *ctx = s->ctx;
+  size_t n = s->n, d = g1 - g0, dd = d * d, nk = (size_t)s->K + 1;
+  int K = s->K, st;
+  const double *E = s->e0;
+  sgroup *g = &s->grp[s->ngrp++];
+  g->g0 = g0;
+  g->d = d;
+  double ep = 0;
+  for (size_t i = g0; i < g1; i++) ep += E[i] / (double)d;
+  g->ep = ep;
+  g->nom = d == 1 && s->states ? K : K - 1;
+  g->om = lvsi_calloc(ctx, nk, sizeof *g->om);
+  g->lo = lvsi_calloc(ctx, nk, sizeof *g->lo);
+  g->hi = lvsi_calloc(ctx, nk, sizeof *g->hi);
+  b->W = lvsi_calloc(ctx, (size_t)K * dd, sizeof *b->W);
+  if (!g->om || !g->lo || !g->hi || !b->W)
+    return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
+  blas_release(b->bheld);
+  b->bheld = blas_hold1(d);
+  if (b->pvec)
+    st = bloch_sparse(ctx, b->hp, b->vp, b->pvec + g0 * n, g, K, b->W, !s->states, &s->solver, &s->solves, &s->iters);
+  else if (b->bordered)
+    st = bordered_level(ctx, &b->t, b->hp, b->vp, E, g0, K, g, b->W);
   else
-    for (size_t i = 0; i < nlevels; i++) want[levels[i]] = 1;
-  /* groups: count what is needed first */
+    st = bloch_group(ctx, &b->w, E, g, K, b->W);
+  if (st) return st;
+  /* nearest level outside the group (E is sorted) */
+  double md = INFINITY;
+  if (g0 > 0) md = fabs(ep - E[g0 - 1]);
+  if (g1 < n) md = fmin(md, fabs(E[g1] - ep));
+  for (size_t i = g0; i < g1; i++) {
+    slevel *L = &s->lev[s->nlev];
+    s->slot[i] = (int)s->nlev++;
+    L->group = gid;
+    L->gi = s->ngrp - 1;
+    L->mind = md;
+    if (!(L->e = lvsi_malloc(ctx, nk * sizeof *L->e))) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    L->e[0] = ep;
+  }
+  st = group_energies(s, b, g);
+  lvsi_free(ctx, b->W);
+  b->W = NULL;
+  return st;
+}
+
+/* the groups of the sorted E0 (relative tolerance) that hold a wanted
+ * level: counted first, then solved one by one */
+static int series_groups(lvs_series *s, sbuild *b) {
+  lvs_ctx *ctx = s->ctx;
+  size_t n = s->n;
+  const double *E = s->e0;
+  const unsigned char *want = b->want;
   double big = 0;
-  for (size_t i = 0; i < n && !pvec; i++) big = fmax(big, fabs(E[i]));
-  double gtol = pvec ? sgtol : degen_tol * fmax(E[n - 1] - E[0], big);
+  for (size_t i = 0; i < n && !b->pvec; i++) big = fmax(big, fabs(E[i]));
+  double gtol = b->pvec ? b->sgtol : b->degen_tol * fmax(E[n - 1] - E[0], big);
   size_t ngneed = 0, nlneed = 0;
   for (size_t g0 = 0; g0 < n;) {
     size_t g1 = g0 + 1;
@@ -1323,150 +1418,66 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
   }
   s->grp = lvsi_calloc(ctx, ngneed, sizeof *s->grp);
   s->lev = lvsi_calloc(ctx, nlneed, sizeof *s->lev);
-  if (!s->grp || !s->lev) {
-    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-    goto fail;
-  }
+  if (!s->grp || !s->lev) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
   for (size_t i = 0; i < n; i++) s->slot[i] = -1;
   size_t gid = 0;
   for (size_t g0 = 0; g0 < n; gid++) {
     size_t g1 = g0 + 1;
     while (g1 < n && E[g1] - E[g1 - 1] <= gtol) g1++;
-    size_t d = g1 - g0, dd = d * d;
     int need = 0;
     for (size_t i = g0; i < g1; i++) need |= want[i];
-    if (!need) {
-      g0 = g1;
-      continue;
-    }
-    sgroup *g = &s->grp[s->ngrp++];
-    g->g0 = g0;
-    g->d = d;
-    double ep = 0;
-    for (size_t i = g0; i < g1; i++) ep += E[i] / (double)d;
-    g->ep = ep;
-    g->nom = d == 1 && s->states ? K : K - 1;
-    g->om = lvsi_calloc(ctx, nk, sizeof *g->om);
-    g->lo = lvsi_calloc(ctx, nk, sizeof *g->lo);
-    g->hi = lvsi_calloc(ctx, nk, sizeof *g->hi);
-    W = lvsi_calloc(ctx, (size_t)K * dd, sizeof *W);
-    if (!g->om || !g->lo || !g->hi || !W) {
-      st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
-      goto fail;
-    }
-    blas_release(bheld);
-    bheld = blas_hold1(d);
-    if (pvec)
-      st = bloch_sparse(ctx, hp, vp, pvec + g0 * n, g, K, W, !s->states, &s->solver, &s->solves, &s->iters);
-    else if (bordered)
-      st = bordered_level(ctx, &t, hp, vp, E, g0, K, g, W);
-    else
-      st = bloch_group(ctx, &w, E, g, K, W);
-    if (st) goto fail;
-    /* nearest level outside the group (E is sorted) */
-    double md = INFINITY;
-    if (g0 > 0) md = fabs(ep - E[g0 - 1]);
-    if (g1 < n) md = fmin(md, fabs(E[g1] - ep));
-    for (size_t i = g0; i < g1; i++) {
-      slevel *L = &s->lev[s->nlev];
-      s->slot[i] = (int)s->nlev++;
-      L->group = gid;
-      L->gi = s->ngrp - 1;
-      L->mind = md;
-      L->e = lvsi_malloc(ctx, nk * sizeof *L->e);
-      if (!L->e) {
-        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-        goto fail;
-      }
-      L->e[0] = ep;
-    }
-    if (d == 1) {
-      slevel *L = &s->lev[s->slot[g0]];
-      for (int k = 1; k <= K; k++) L->e[k] = creal(W[k - 1]);
-      L->split = 0;
-      L->zord = s->states ? K : -1;
-    } else if (!s->states) {
-      size_t kp = (size_t)K;
-      mu = lvsi_malloc(ctx, d * kp * sizeof *mu);
-      sp = lvsi_malloc(ctx, d * sizeof *sp);
-      zo = lvsi_malloc(ctx, d * sizeof *zo);
-      if (!mu || !sp || !zo) {
-        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-        goto fail;
-      }
-      double stol = degen_tol > 0 ? degen_tol : 1e-10;
-      if ((st = eigseries(ctx, d, K - 1, W, stol, 1, mu, NULL, sp, zo))) goto fail;
-      for (size_t i = 0; i < d; i++) {
-        slevel *L = &s->lev[s->slot[g0 + i]];
-        for (int k = 1; k <= K; k++) L->e[k] = mu[i * kp + (size_t)(k - 1)];
-        L->split = sp[i];
-        L->zord = -1;
-      }
-      lvsi_free(ctx, mu), lvsi_free(ctx, sp), lvsi_free(ctx, zo);
-      mu = NULL, sp = NULL, zo = NULL;
-    }
-    if (!s->states) { /* Omega served the energies only */
-      for (int k = 1; k <= g->nom; k++) {
-        lvsi_free(ctx, g->om[k]);
-        g->om[k] = NULL;
-      }
-    } else if (d == 1) {
-      slevel *L = &s->lev[s->slot[g0]];
-      g->zbuf = lvsi_calloc(ctx, nk, sizeof(dc));
-      if (!g->zbuf) {
-        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-        goto fail;
-      }
-      g->zbuf[0] = 1.0;
-      L->z = g->zbuf;
-    } else {
-      size_t kp = (size_t)K;
-      mu = lvsi_malloc(ctx, d * kp * sizeof *mu);
-      zz = g->zbuf = lvsi_calloc(ctx, d * kp * d, sizeof *zz);
-      sp = lvsi_malloc(ctx, d * sizeof *sp);
-      zo = lvsi_malloc(ctx, d * sizeof *zo);
-      if (!mu || !zz || !sp || !zo) {
-        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-        goto fail;
-      }
-      double stol = degen_tol > 0 ? degen_tol : 1e-10;
-      if ((st = eigseries(ctx, d, K - 1, W, stol, 1, mu, zz, sp, zo))) goto fail;
-      for (size_t i = 0; i < d; i++) {
-        slevel *L = &s->lev[s->slot[g0 + i]];
-        for (int k = 1; k <= K; k++) L->e[k] = mu[i * kp + (size_t)(k - 1)];
-        L->split = sp[i];
-        L->zord = zo[i];
-        L->z = zz + i * kp * d;
-      }
-      zz = NULL; /* owned by the group */
-      lvsi_free(ctx, mu), lvsi_free(ctx, sp), lvsi_free(ctx, zo);
-      mu = NULL, zz = NULL, sp = NULL, zo = NULL;
-    }
-    lvsi_free(ctx, W);
-    W = NULL;
+    int st = need ? series_group(s, b, g0, g1, gid) : LVS_OK;
+    if (st) return st;
     g0 = g1;
   }
-  st = LVS_OK;
-fail:
-  lvsi_free(ctx, pvec);
-  blas_release(bheld);
-  wop_free(ctx, &w);
-  tri_free(ctx, &t);
-  lvs_matrix_free(vkeep);
-  if (hp != h0) lvs_matrix_free(hp);
-  if (vp != v) lvs_matrix_free(vp);
-  lvsi_free(ctx, want);
-  lvsi_free(ctx, raw);
-  lvsi_free(ctx, W);
-  lvsi_free(ctx, mu);
-  lvsi_free(ctx, sp);
-  lvsi_free(ctx, zo);
-  if (st) {
-    lvs_series_free(s);
-    return st;
+  return LVS_OK;
+}
+
+int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels,
+                   double degen_tol, int flags, lvs_series **out) {
+  lvs_ctx *ctx = h0->ctx;
+  *out = NULL;
+  sbuild b;
+  memset(&b, 0, sizeof b);
+  b.ctx = ctx;
+  b.h0 = h0;
+  b.v = v;
+  b.degen_tol = degen_tol;
+  lvs_series *s = NULL;
+  int st = series_inputs(&b, order, levels, nlevels);
+  if (st) goto fail;
+  size_t n = lvs_matrix_rows(h0);
+  if (!(s = lvsi_calloc(ctx, 1, sizeof *s))) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    goto fail;
   }
+  s->ctx = ctx;
+  s->n = n;
+  s->K = order;
+  s->normalized = (flags & LVS_SERIES_NORMALIZED) != 0;
+  s->states = (flags & LVS_SERIES_NO_STATES) == 0;
+  s->e0 = lvsi_malloc(ctx, n * sizeof *s->e0);
+  s->slot = lvsi_malloc(ctx, n * sizeof *s->slot);
+  s->perm = lvsi_malloc(ctx, n * sizeof *s->perm);
+  b.want = lvsi_calloc(ctx, n, 1);
+  if (!s->e0 || !s->slot || !s->perm || !b.want) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    goto fail;
+  }
+  if ((st = series_basis(s, &b, levels, nlevels))) goto fail;
+  s->vnorm = colnorm1(b.vp);
+  if (nlevels == 0)
+    memset(b.want, 1, n);
+  else
+    for (size_t i = 0; i < nlevels; i++) b.want[levels[i]] = 1;
+  if ((st = series_groups(s, &b))) goto fail;
+  sbuild_free(&b);
   *out = s;
   return LVS_OK;
+fail:
+  sbuild_free(&b);
+  lvs_series_free(s);
+  return st;
 }
 
 size_t lvs_series_dim(const lvs_series *s) { return s->n; }
