@@ -434,228 +434,306 @@ static int sector_eigvals(lvs_ctx *ctx, size_t d, const dc *M0, int real, double
 /* M: Kp+1 blocks d x d (column-major), d >= 2. Per member i (ascending):
  * mu[i*(Kp+1)+k], split[i], zord[i] and the eigenvector series
  * z[(i*(Kp+1)+k)*d + l], k = 0..zord[i]. ord0 is the energy order that M[0]
- * stands for. */
-static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, int ord0, double *mu, dc *z,
-                     int *split, int *zord) {
-  /* z == NULL: eigenvalues only (no eigenvector series) */
-  size_t dd = d * d, nk = (size_t)Kp + 1;
-  int st = LVS_OK, real = 1;
-  for (size_t q = 0; q < nk * dd && real; q++)
-    if (cimag(M[q]) != 0) real = 0;
+ * stands for. Phases: es_alloc, es_m0 (diagonalize M(0)), es_rotate
+ * (R(k) = C^H M(k) C), es_subgroups (equal eigenvalues of M(0)), es_bloch
+ * (one Bloch reduction for all subgroups), es_recurse (each subgroup's own
+ * eigseries, and the vectors u_k), then z_k = C u_k. */
+typedef struct {
+  lvs_ctx *ctx;
+  size_t d, dd, nk;
+  int Kp, real, hizero, eonly, lastblocks, needom;
+  const dc *M;
+  dc *c, *R, *T, *OM, *WA, *UU;
+  double *m, *rc, *mean, atol;
+  size_t *sg, kb;
+} eswork;
+
+#define RB(e, k) ((e)->R + (size_t)((k) - 1) * (e)->dd)
+#define OMB(e, k) ((e)->OM + (size_t)((k) - 1) * (e)->dd)
+#define WAB(e, k) ((e)->WA + (size_t)((k) - 1) * (e)->dd)
+
+static void es_free(eswork *e) {
+  lvs_ctx *ctx = e->ctx;
+  lvsi_free(ctx, e->c), lvsi_free(ctx, e->m), lvsi_free(ctx, e->rc), lvsi_free(ctx, e->R), lvsi_free(ctx, e->T);
+  lvsi_free(ctx, e->OM), lvsi_free(ctx, e->WA), lvsi_free(ctx, e->UU), lvsi_free(ctx, e->sg), lvsi_free(ctx, e->mean);
+}
+
+/* the shape of the work and its arrays (z == NULL: eigenvalues only) */
+static int es_alloc(eswork *e, int has_z) {
+  lvs_ctx *ctx = e->ctx;
+  size_t d = e->d, dd = e->dd, nk = e->nk;
+  int Kp = e->Kp;
+  e->real = 1;
+  for (size_t q = 0; q < nk * dd && e->real; q++)
+    if (cimag(e->M[q]) != 0) e->real = 0;
   /* M(1..Kp) all exactly zero (nothing beyond first order couples the
    * group, e.g. V conserves a quantity that labels it): the eigenvalues of
    * M(0) are the whole series, and without eigenvector series they are all
    * that is wanted: no eigenvectors, no products, no sub-reductions */
-  int hizero = 1;
-  for (size_t q = dd; q < nk * dd && hizero; q++)
-    if (M[q] != 0) hizero = 0;
-  int eonly = !z && hizero;
-  char jobz = eonly ? 'N' : 'V';
+  e->hizero = 1;
+  for (size_t q = dd; q < nk * dd && e->hizero; q++)
+    if (e->M[q] != 0) e->hizero = 0;
+  e->eonly = !has_z && e->hizero;
   /* eonly: a real M(0) needs rc alone (fresh pages are what small problems pay for) */
-  size_t cb = eonly && real ? 1 : dd;
-  dc *c = lvsi_malloc(ctx, cb * sizeof *c);
-  double *m = lvsi_malloc(ctx, d * sizeof *m), *rc = lvsi_malloc(ctx, (real ? dd : 1) * sizeof *rc);
+  size_t cb = e->eonly && e->real ? 1 : dd;
+  e->c = lvsi_malloc(ctx, cb * sizeof *e->c);
+  e->m = lvsi_malloc(ctx, d * sizeof *e->m);
+  e->rc = lvsi_malloc(ctx, (e->real ? dd : 1) * sizeof *e->rc);
   /* R, OM, WA hold orders 1..Kp (block k at k-1): R(0) = diag(m), OM(0) = 1 */
-  size_t kb = Kp > 0 && !eonly ? (size_t)Kp : 0;
+  e->kb = Kp > 0 && !e->eonly ? (size_t)Kp : 0;
   /* T and OM serve the orders below Kp and the eigenvectors only */
-  int needom = !eonly && (z || Kp > 1);
-  dc *R = lvsi_malloc(ctx, (kb * dd + 1) * sizeof *R), *T = lvsi_malloc(ctx, (needom ? dd : 1) * sizeof *T);
-  dc *OM = lvsi_malloc(ctx, (needom ? kb * dd + 1 : 1) * sizeof *OM), *WA = lvsi_malloc(ctx, (kb * dd + 1) * sizeof *WA);
-  dc *UU = Kp > 0 && z ? lvsi_calloc(ctx, nk * dd, sizeof *UU) : lvsi_malloc(ctx, sizeof *UU);
-  size_t *sg = lvsi_malloc(ctx, d * sizeof *sg);
-  double *mean = lvsi_malloc(ctx, d * sizeof *mean);
-  double *smu = NULL;
-  dc *sM = NULL, *sz = NULL;
-  int *ss = NULL, *szo = NULL;
-  if (!c || !m || !rc || !R || !T || !OM || !WA || !UU || !sg || !mean) {
-    st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-    goto done;
-  }
+  e->needom = !e->eonly && (has_z || Kp > 1);
+  e->R = lvsi_malloc(ctx, (e->kb * dd + 1) * sizeof *e->R);
+  e->T = lvsi_malloc(ctx, (e->needom ? dd : 1) * sizeof *e->T);
+  e->OM = lvsi_malloc(ctx, (e->needom ? e->kb * dd + 1 : 1) * sizeof *e->OM);
+  e->WA = lvsi_malloc(ctx, (e->kb * dd + 1) * sizeof *e->WA);
+  e->UU = Kp > 0 && has_z ? lvsi_calloc(ctx, nk * dd, sizeof *e->UU) : lvsi_malloc(ctx, sizeof *e->UU);
+  e->sg = lvsi_malloc(ctx, d * sizeof *e->sg);
+  e->mean = lvsi_malloc(ctx, d * sizeof *e->mean);
+  if (!e->c || !e->m || !e->rc || !e->R || !e->T || !e->OM || !e->WA || !e->UU || !e->sg || !e->mean)
+    return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  e->lastblocks = !has_z && Kp > 0;
+  return LVS_OK;
+}
+
+/* eigenvalues m (ascending) and vectors c of the Hermitian part of M(0) */
+static int es_m0(eswork *e) {
+  lvs_ctx *ctx = e->ctx;
+  size_t d = e->d, dd = e->dd;
+  const dc *M = e->M;
+  char jobz = e->eonly ? 'N' : 'V';
   /* eigenvalues only and M(0) block-diagonal up to a permutation (V
    * conserves a quantity inside the group): one small eigenvalue problem per
    * connected component of M(0)'s nonzero pattern, then sorted together */
-  int split_done = 0;
-  if (eonly && d > 2 && (st = sector_eigvals(ctx, d, M, real, rc, c, m, &split_done))) goto done;
+  int split_done = 0, st;
+  if (e->eonly && d > 2 && (st = sector_eigvals(ctx, d, M, e->real, e->rc, e->c, e->m, &split_done))) return st;
   /* Hermitian part of M[0] (exactly Hermitian at the first two levels) */
-  if (split_done) {
-  } else if (real) {
+  if (split_done) return LVS_OK;
+  if (e->real) {
     for (size_t j = 0; j < d; j++)
-      for (size_t i = 0; i < d; i++) rc[j * d + i] = 0.5 * creal(M[j * d + i] + M[i * d + j]);
-    if (LAPACKE_dsyevd(LAPACK_COL_MAJOR, jobz, 'L', (lapack_int)d, rc, (lapack_int)d, m)) {
-      st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: dsyevd failed on a degenerate group");
-      goto done;
-    }
-    if (!eonly)
-      for (size_t q = 0; q < dd; q++) c[q] = rc[q];
-  } else {
-    for (size_t j = 0; j < d; j++)
-      for (size_t i = 0; i < d; i++) c[j * d + i] = 0.5 * (M[j * d + i] + conj(M[i * d + j]));
-    if (LAPACKE_zheevd(LAPACK_COL_MAJOR, jobz, 'L', (lapack_int)d, (lapack_complex_double *)c, (lapack_int)d, m)) {
-      st = lvsi_fail(ctx, LVS_ELAPACK, "perturb: zheevd failed on a degenerate group");
-      goto done;
-    }
+      for (size_t i = 0; i < d; i++) e->rc[j * d + i] = 0.5 * creal(M[j * d + i] + M[i * d + j]);
+    if (LAPACKE_dsyevd(LAPACK_COL_MAJOR, jobz, 'L', (lapack_int)d, e->rc, (lapack_int)d, e->m))
+      return lvsi_fail(ctx, LVS_ELAPACK, "perturb: dsyevd failed on a degenerate group");
+    if (!e->eonly)
+      for (size_t q = 0; q < dd; q++) e->c[q] = e->rc[q];
+    return LVS_OK;
   }
-  /* R(k) = C^H M[k] C */
-#define RB(k) (R + (size_t)((k) - 1) * dd)
-#define OMB(k) (OM + (size_t)((k) - 1) * dd)
-#define WAB(k) (WA + (size_t)((k) - 1) * dd)
-  /* eigenvalues only: the last order needs just the subgroups' diagonal
-   * blocks of R(Kp), so RB(Kp) keeps M[Kp] C and the blocks come later */
-  int lastblocks = !z && Kp > 0;
-  for (int k = 1; k <= Kp && !eonly; k++) {
-    if (hizero) { /* C^H 0 C */
-      memset(RB(k), 0, dd * sizeof(dc));
+  for (size_t j = 0; j < d; j++)
+    for (size_t i = 0; i < d; i++) e->c[j * d + i] = 0.5 * (M[j * d + i] + conj(M[i * d + j]));
+  if (LAPACKE_zheevd(LAPACK_COL_MAJOR, jobz, 'L', (lapack_int)d, (lapack_complex_double *)e->c, (lapack_int)d, e->m))
+    return lvsi_fail(ctx, LVS_ELAPACK, "perturb: zheevd failed on a degenerate group");
+  return LVS_OK;
+}
+
+/* R(k) = C^H M[k] C; eigenvalues only: the last order needs just the
+ * subgroups' diagonal blocks of R(Kp), so RB(Kp) keeps M[Kp] C and the
+ * blocks come later */
+static int es_rotate(eswork *e) {
+  size_t d = e->d, dd = e->dd;
+  int st;
+  for (int k = 1; k <= e->Kp && !e->eonly; k++) {
+    if (e->hizero) { /* C^H 0 C */
+      memset(RB(e, k), 0, dd * sizeof(dc));
       continue;
     }
-    if (k == Kp && lastblocks) {
-      if ((st = gemm(ctx, real, 0, d, d, d, 1.0, M + (size_t)k * dd, d, c, d, 0.0, RB(k), d))) goto done;
-      break;
-    }
-    if ((st = gemm(ctx, real, 0, d, d, d, 1.0, M + (size_t)k * dd, d, c, d, 0.0, T, d))) goto done;
-    if ((st = gemm(ctx, real, 1, d, d, d, 1.0, c, d, T, d, 0.0, RB(k), d))) goto done;
+    if (k == e->Kp && e->lastblocks)
+      return gemm(e->ctx, e->real, 0, d, d, d, 1.0, e->M + (size_t)k * dd, d, e->c, d, 0.0, RB(e, k), d);
+    if ((st = gemm(e->ctx, e->real, 0, d, d, d, 1.0, e->M + (size_t)k * dd, d, e->c, d, 0.0, e->T, d))) return st;
+    if ((st = gemm(e->ctx, e->real, 1, d, d, d, 1.0, e->c, d, e->T, d, 0.0, RB(e, k), d))) return st;
   }
+  return LVS_OK;
+}
+
+/* subgroups of equal eigenvalues of M(0): sg[i], their means; the
+ * tolerance is relative to M(0)'s spread and to the size of the whole
+ * series, so tiny rounding eigenvalues of an all-zero block count as equal */
+static void es_subgroups(eswork *e, double tol) {
+  size_t d = e->d, dd = e->dd;
+  int Kp = e->Kp;
+  const double *m = e->m;
   double scale = 0;
   for (size_t i = 0; i < d; i++) scale = fmax(scale, fabs(m[i]));
   scale = fmax(scale, m[d - 1] - m[0]);
-  /* also relative to the size of the whole series, so tiny rounding
-   * eigenvalues of an all-zero block count as equal */
   double ms = 0;
   /* a scale only: max(|re|, |im|) is within sqrt 2 of |z| and much cheaper */
 #define MAG(z) (fabs(creal(z)) > fabs(cimag(z)) ? fabs(creal(z)) : fabs(cimag(z)))
   for (size_t q = 0; q < dd; q++)
-    if (MAG(M[q]) > ms) ms = MAG(M[q]);
-  for (size_t q = 0; !hizero && q < (size_t)(lastblocks ? Kp - 1 : Kp) * dd; q++)
-    if (MAG(R[q]) > ms) ms = MAG(R[q]);
-  if (lastblocks) /* RB(Kp) holds M[Kp] C: take the scale from M[Kp] itself */
+    if (MAG(e->M[q]) > ms) ms = MAG(e->M[q]);
+  for (size_t q = 0; !e->hizero && q < (size_t)(e->lastblocks ? Kp - 1 : Kp) * dd; q++)
+    if (MAG(e->R[q]) > ms) ms = MAG(e->R[q]);
+  if (e->lastblocks) /* RB(Kp) holds M[Kp] C: take the scale from M[Kp] itself */
     for (size_t q = 0; q < dd; q++)
-      if (MAG(M[(size_t)Kp * dd + q]) > ms) ms = MAG(M[(size_t)Kp * dd + q]);
+      if (MAG(e->M[(size_t)Kp * dd + q]) > ms) ms = MAG(e->M[(size_t)Kp * dd + q]);
 #undef MAG
-  double atol = tol * fmax(scale, ms) + 1e-14 * ms;
-  /* subgroups of equal eigenvalues */
+  e->atol = tol * fmax(scale, ms) + 1e-14 * ms;
   size_t ng = 0;
   for (size_t g0 = 0; g0 < d;) {
     size_t g1 = g0 + 1;
-    while (g1 < d && m[g1] - m[g1 - 1] <= atol) g1++;
-    double s = 0;
-    for (size_t i = g0; i < g1; i++) s += m[i] / (double)(g1 - g0);
-    mean[ng] = s;
-    for (size_t i = g0; i < g1; i++) sg[i] = ng;
+    while (g1 < d && m[g1] - m[g1 - 1] <= e->atol) g1++;
+    double sum = 0;
+    for (size_t i = g0; i < g1; i++) sum += m[i] / (double)(g1 - g0);
+    e->mean[ng] = sum;
+    for (size_t i = g0; i < g1; i++) e->sg[i] = ng;
     ng++;
     g0 = g1;
   }
-  if (Kp == 0 || eonly) { /* eonly: higher orders all vanish, nothing splits later */
-    for (size_t i = 0; i < d; i++) {
-      int alone = (i == 0 || sg[i - 1] != sg[i]) && (i + 1 == d || sg[i + 1] != sg[i]);
-      mu[i * nk] = alone ? m[i] : mean[sg[i]];
-      for (size_t k = 1; k < nk; k++) mu[i * nk + k] = 0.0;
-      split[i] = alone ? ord0 : -1;
-      zord[i] = 0;
-      if (z)
-        for (size_t l = 0; l < d; l++) z[i * d + l] = c[i * d + l];
-    }
-    goto done;
-  }
-  /* one Bloch reduction for all subgroups at once: OM[k] (d x d) holds each
-   * subgroup's wave operator in its own columns, WA[k] is block diagonal */
-  for (int k = 1; k <= Kp; k++) {
-    dc *Y = T;
-    if (k == Kp && lastblocks) { /* W(Kp) blocks: C_g^H (M C)_g + sum_j R(j)_g. OM(Kp-j)_.g */
-      dc *Wk = WAB(k);
+}
+
+/* one Bloch reduction for all subgroups at once: OM[k] (d x d) holds each
+ * subgroup's wave operator in its own columns, WA[k] is block diagonal */
+static int es_bloch(eswork *e) {
+  size_t d = e->d, dd = e->dd;
+  const size_t *sg = e->sg;
+  int st;
+  for (int k = 1; k <= e->Kp; k++) {
+    dc *Y = e->T;
+    if (k == e->Kp && e->lastblocks) { /* W(Kp) blocks: C_g^H (M C)_g + sum_j R(j)_g. OM(Kp-j)_.g */
+      dc *Wk = WAB(e, k);
       memset(Wk, 0, dd * sizeof *Wk);
       for (size_t g0 = 0; g0 < d;) {
         size_t g1 = g0 + 1;
         while (g1 < d && sg[g1] == sg[g0]) g1++;
         size_t gd = g1 - g0, off = g0 * d + g0;
-        if ((st = gemm(ctx, real, 1, gd, gd, d, 1.0, c + g0 * d, d, RB(k) + g0 * d, d, 0.0, Wk + off, d))) goto done;
+        if ((st = gemm(e->ctx, e->real, 1, gd, gd, d, 1.0, e->c + g0 * d, d, RB(e, k) + g0 * d, d, 0.0, Wk + off, d)))
+          return st;
         for (int j = 1; j < k; j++)
-          if ((st = gemm(ctx, real, 0, gd, gd, d, 1.0, RB(j) + g0, d, OMB(k - j) + g0 * d, d, 1.0, Wk + off, d)))
-            goto done;
+          if ((st = gemm(e->ctx, e->real, 0, gd, gd, d, 1.0, RB(e, j) + g0, d, OMB(e, k - j) + g0 * d, d, 1.0,
+                         Wk + off, d)))
+            return st;
         g0 = g1;
       }
-      break;
+      return LVS_OK;
     }
-    memcpy(Y, RB(k), dd * sizeof *Y);
+    memcpy(Y, RB(e, k), dd * sizeof *Y);
     for (int j = 1; j < k; j++)
-      if ((st = gemm(ctx, real, 0, d, d, d, 1.0, RB(j), d, OMB(k - j), d, 1.0, Y, d))) goto done;
-    dc *Wk = WAB(k), *Ok = OMB(k);
+      if ((st = gemm(e->ctx, e->real, 0, d, d, d, 1.0, RB(e, j), d, OMB(e, k - j), d, 1.0, Y, d))) return st;
+    dc *Wk = WAB(e, k), *Ok = OMB(e, k);
     for (size_t a = 0; a < d; a++)
       for (size_t r = 0; r < d; r++) Wk[a * d + r] = sg[r] == sg[a] ? Y[a * d + r] : 0.0;
     for (int i = 1; i < k; i++)
-      if ((st = gemm(ctx, real, 0, d, d, d, -1.0, OMB(i), d, WAB(k - i), d, 1.0, Y, d))) goto done;
+      if ((st = gemm(e->ctx, e->real, 0, d, d, d, -1.0, OMB(e, i), d, WAB(e, k - i), d, 1.0, Y, d))) return st;
     for (size_t a = 0; a < d; a++)
-      for (size_t r = 0; r < d; r++) Ok[a * d + r] = sg[r] == sg[a] ? 0.0 : Y[a * d + r] / (mean[sg[a]] - m[r]);
+      for (size_t r = 0; r < d; r++)
+        Ok[a * d + r] = sg[r] == sg[a] ? 0.0 : Y[a * d + r] / (e->mean[sg[a]] - e->m[r]);
   }
-  /* per subgroup: energies, split orders and u_k (eigenvector series in the
-   * basis of M(0)'s eigenvectors), UU[k] column i */
-  for (size_t g0 = 0; g0 < d;) {
+  return LVS_OK;
+}
+
+static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, int ord0, double *mu, dc *z,
+                     int *split, int *zord);
+
+/* per subgroup: energies, split orders and u_k (eigenvector series in the
+ * basis of M(0)'s eigenvectors), UU[k] column i; a subgroup of several
+ * members runs its own eigseries on its block of WA */
+static int es_recurse(eswork *e, double tol, int ord0, double *mu, int has_z, int *split, int *zord) {
+  lvs_ctx *ctx = e->ctx;
+  size_t d = e->d, dd = e->dd, nk = e->nk;
+  int Kp = e->Kp, st = LVS_OK;
+  const size_t *sg = e->sg;
+  double *smu = NULL;
+  dc *sM = NULL, *sz = NULL;
+  int *ss = NULL, *szo = NULL;
+  for (size_t g0 = 0; g0 < d && !st;) {
     size_t g1 = g0 + 1;
     while (g1 < d && sg[g1] == sg[g0]) g1++;
     size_t gd = g1 - g0;
     if (gd == 1) {
-      mu[g0 * nk] = m[g0];
-      for (int k = 1; k <= Kp; k++) mu[g0 * nk + (size_t)k] = creal(WAB(k)[g0 * d + g0]);
+      mu[g0 * nk] = e->m[g0];
+      for (int k = 1; k <= Kp; k++) mu[g0 * nk + (size_t)k] = creal(WAB(e, k)[g0 * d + g0]);
       split[g0] = ord0;
       zord[g0] = Kp;
-      if (z) {
-        UU[g0 * d + g0] = 1.0;
-        for (int k = 1; k <= Kp; k++) memcpy(UU + (size_t)k * dd + g0 * d, OMB(k) + g0 * d, d * sizeof(dc));
+      if (has_z) {
+        e->UU[g0 * d + g0] = 1.0;
+        for (int k = 1; k <= Kp; k++) memcpy(e->UU + (size_t)k * dd + g0 * d, OMB(e, k) + g0 * d, d * sizeof(dc));
       }
-    } else {
-      size_t gg = gd * gd, sk = (size_t)Kp;
-      sM = lvsi_malloc(ctx, sk * gg * sizeof *sM);
-      smu = lvsi_malloc(ctx, gd * sk * sizeof *smu);
-      sz = z ? lvsi_malloc(ctx, gd * sk * gd * sizeof *sz) : NULL;
-      ss = lvsi_malloc(ctx, gd * sizeof *ss);
-      szo = lvsi_malloc(ctx, gd * sizeof *szo);
-      if (!sM || !smu || (z && !sz) || !ss || !szo) {
-        st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-        goto done;
-      }
-      for (int k = 1; k <= Kp; k++)
-        for (size_t b = 0; b < gd; b++)
-          for (size_t a = 0; a < gd; a++)
-            sM[(size_t)(k - 1) * gg + b * gd + a] = WAB(k)[(g0 + b) * d + g0 + a];
-      if ((st = eigseries(ctx, gd, Kp - 1, sM, tol, ord0 + 1, smu, sz, ss, szo))) goto done;
-      for (size_t i = 0; i < gd; i++) {
-        size_t a = g0 + i;
-        mu[a * nk] = mean[sg[g0]];
-        for (int k = 1; k <= Kp; k++) mu[a * nk + (size_t)k] = smu[i * sk + (size_t)(k - 1)];
-        split[a] = ss[i];
-        zord[a] = szo[i];
-        /* u_k = sum_j OM[k-j][:, g0..g1) phi_j */
-        for (int k = 0; z && k <= szo[i]; k++) {
-          dc *u = UU + (size_t)k * dd + a * d;
-          for (size_t b = 0; b < gd; b++) u[g0 + b] += sz[(i * sk + (size_t)k) * gd + b]; /* OM(0) phi_k */
-          for (int j = 0; j < k; j++) {
-            const dc *phi = sz + (i * sk + (size_t)j) * gd, *O = OMB(k - j);
-            for (size_t b = 0; b < gd; b++) {
-              dc p = phi[b];
-              if (p == 0) continue;
-              const dc *col = O + (g0 + b) * d;
-              for (size_t r = 0; r < d; r++) u[r] += col[r] * p;
-            }
+      g0 = g1;
+      continue;
+    }
+    size_t gg = gd * gd, sk = (size_t)Kp;
+    sM = lvsi_malloc(ctx, sk * gg * sizeof *sM);
+    smu = lvsi_malloc(ctx, gd * sk * sizeof *smu);
+    sz = has_z ? lvsi_malloc(ctx, gd * sk * gd * sizeof *sz) : NULL;
+    ss = lvsi_malloc(ctx, gd * sizeof *ss);
+    szo = lvsi_malloc(ctx, gd * sizeof *szo);
+    if (!sM || !smu || (has_z && !sz) || !ss || !szo) {
+      st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+      break;
+    }
+    for (int k = 1; k <= Kp; k++)
+      for (size_t b = 0; b < gd; b++)
+        for (size_t a = 0; a < gd; a++) sM[(size_t)(k - 1) * gg + b * gd + a] = WAB(e, k)[(g0 + b) * d + g0 + a];
+    if ((st = eigseries(ctx, gd, Kp - 1, sM, tol, ord0 + 1, smu, sz, ss, szo))) break;
+    for (size_t i = 0; i < gd; i++) {
+      size_t a = g0 + i;
+      mu[a * nk] = e->mean[sg[g0]];
+      for (int k = 1; k <= Kp; k++) mu[a * nk + (size_t)k] = smu[i * sk + (size_t)(k - 1)];
+      split[a] = ss[i];
+      zord[a] = szo[i];
+      /* u_k = sum_j OM[k-j][:, g0..g1) phi_j */
+      for (int k = 0; has_z && k <= szo[i]; k++) {
+        dc *u = e->UU + (size_t)k * dd + a * d;
+        for (size_t b = 0; b < gd; b++) u[g0 + b] += sz[(i * sk + (size_t)k) * gd + b]; /* OM(0) phi_k */
+        for (int j = 0; j < k; j++) {
+          const dc *phi = sz + (i * sk + (size_t)j) * gd, *O = OMB(e, k - j);
+          for (size_t b = 0; b < gd; b++) {
+            dc p = phi[b];
+            if (p == 0) continue;
+            const dc *col = O + (g0 + b) * d;
+            for (size_t r = 0; r < d; r++) u[r] += col[r] * p;
           }
         }
       }
-      lvsi_free(ctx, sM), lvsi_free(ctx, smu), lvsi_free(ctx, sz), lvsi_free(ctx, ss), lvsi_free(ctx, szo);
-      sM = NULL, smu = NULL, sz = NULL, ss = NULL, szo = NULL;
     }
+    lvsi_free(ctx, sM), lvsi_free(ctx, smu), lvsi_free(ctx, sz), lvsi_free(ctx, ss), lvsi_free(ctx, szo);
+    sM = NULL, smu = NULL, sz = NULL, ss = NULL, szo = NULL;
     g0 = g1;
   }
-#undef RB
-#undef OMB
-#undef WAB
-  /* z_k = C u_k */
-  for (int k = 0; z && k <= Kp; k++) {
-    if ((st = gemm(ctx, real, 0, d, d, d, 1.0, c, d, UU + (size_t)k * dd, d, 0.0, T, d))) goto done;
-    for (size_t i = 0; i < d; i++) memcpy(z + (i * nk + (size_t)k) * d, T + i * d, d * sizeof(dc));
-  }
-done:
-  lvsi_free(ctx, c), lvsi_free(ctx, m), lvsi_free(ctx, rc), lvsi_free(ctx, R), lvsi_free(ctx, T);
-  lvsi_free(ctx, OM), lvsi_free(ctx, WA), lvsi_free(ctx, UU), lvsi_free(ctx, sg), lvsi_free(ctx, mean);
   lvsi_free(ctx, sM), lvsi_free(ctx, smu), lvsi_free(ctx, sz), lvsi_free(ctx, ss), lvsi_free(ctx, szo);
   return st;
 }
+
+static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, int ord0, double *mu, dc *z,
+                     int *split, int *zord) {
+  /* z == NULL: eigenvalues only (no eigenvector series) */
+  eswork e;
+  memset(&e, 0, sizeof e);
+  e.ctx = ctx;
+  e.d = d;
+  e.dd = d * d;
+  e.nk = (size_t)Kp + 1;
+  e.Kp = Kp;
+  e.M = M;
+  int st = es_alloc(&e, z != NULL);
+  if (!st) st = es_m0(&e);
+  if (!st) st = es_rotate(&e);
+  if (st) goto done;
+  es_subgroups(&e, tol);
+  size_t nk = e.nk;
+  if (Kp == 0 || e.eonly) { /* eonly: higher orders all vanish, nothing splits later */
+    for (size_t i = 0; i < d; i++) {
+      int alone = (i == 0 || e.sg[i - 1] != e.sg[i]) && (i + 1 == d || e.sg[i + 1] != e.sg[i]);
+      mu[i * nk] = alone ? e.m[i] : e.mean[e.sg[i]];
+      for (size_t k = 1; k < nk; k++) mu[i * nk + k] = 0.0;
+      split[i] = alone ? ord0 : -1;
+      zord[i] = 0;
+      if (z)
+        for (size_t l = 0; l < d; l++) z[i * d + l] = e.c[i * d + l];
+    }
+    goto done;
+  }
+  if ((st = es_bloch(&e)) || (st = es_recurse(&e, tol, ord0, mu, z != NULL, split, zord))) goto done;
+  /* z_k = C u_k */
+  for (int k = 0; z && k <= Kp; k++) {
+    if ((st = gemm(ctx, e.real, 0, d, d, d, 1.0, e.c, d, e.UU + (size_t)k * e.dd, d, 0.0, e.T, d))) goto done;
+    for (size_t i = 0; i < d; i++) memcpy(z + (i * nk + (size_t)k) * d, e.T + i * d, d * sizeof(dc));
+  }
+done:
+  es_free(&e);
+  return st;
+}
+#undef RB
+#undef OMB
+#undef WAB
 
 /* ---- a few levels of a dense real H0 without diagonalizing it ---------- */
 /* Method (METHODS.md sec. 1 (b); Dalgarno & Lewis, Proc. R. Soc. A 233, 70
