@@ -337,9 +337,12 @@ function M.help(name)
 end
 
 -- the printed report of `levelshift NAME name=value ...`
--- above this many states the report skips the dense exact diagonalization
--- unless show_exact=true (the series itself stays cheap)
+-- above this many states the report skips the exact diagonalization
+-- unless show_exact=true (the series itself stays cheap); a sparse H0 + V
+-- goes to the Krylov path, which takes the lowest levels of far larger
+-- models in well under a second
 local EXACT_LIMIT = 2048
+local EXACT_LIMIT_SPARSE = 1 << 18
 
 local function report(m, show_levels, show_order, show_exact)
   local ls = get_ls()
@@ -357,7 +360,9 @@ local function report(m, show_levels, show_order, show_exact)
   end
   local n = m.H0:dim()
   local count = math.min(show_levels, n)
-  if show_exact == nil then show_exact = n <= EXACT_LIMIT end
+  if show_exact == nil then
+    show_exact = n <= EXACT_LIMIT or (n <= EXACT_LIMIT_SPARSE and (m.H0 + m.V):storage() == "sparse")
+  end
   w(string.format("H = H0 + V on %d states%s\n", n, m.units and (", energies in " .. m.units) or ""))
   local E
   if show_exact then E = ls.eigen(m.H0 + m.V, { count = count, vectors = false }) end

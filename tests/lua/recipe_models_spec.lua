@@ -270,8 +270,8 @@ describe("recipe exchange_pair and spin_chain", function()
   end)
 
   it("limits the chain size with a clear message", function()
-    assert.error_matches(function() ls.recipe("spin_chain", { sites = 8, spin = 1.5 }) end,
-      "recipe 'spin_chain': (2 spin + 1)^sites = 4^8 = 65536 states is above the limit of 4096", 1, true)
+    assert.error_matches(function() ls.recipe("spin_chain", { sites = 10, spin = 1.5 }) end,
+      "recipe 'spin_chain': (2 spin + 1)^sites = 4^10 = 1048576 states is above the limit of 262144", 1, true)
     assert.error_matches(function() ls.recipe("spin_chain", { sites = 2, boundary = "periodic" }) end,
       "a periodic chain needs at least 3 sites", 1, true)
   end)
