@@ -1210,6 +1210,51 @@ void lvsi_note_defect(double d, size_t i, size_t j, double *worst, size_t *wi, s
   }
 }
 
+/* |A_ij - conj(A_ji)| of stored entry k = (i, j) against its partner t
+ * (SIZE_MAX: none), noted when it beats *worst. Complex: the squared
+ * modulus screens the entry and hypot (exact, no overflow) runs only for a
+ * candidate, so a Hermitian op costs no hypot per entry. */
+static void note_pair(const lvs_matrix *a, size_t k, size_t t, size_t i, size_t j, double *worst,
+                      size_t *wi, size_t *wj) {
+  if (!a->cplx) {
+    lvsi_note_defect(fabs(a->a[k] - (t == SIZE_MAX ? 0.0 : a->a[t])), i, j, worst, wi, wj);
+    return;
+  }
+  double re = a->a[2 * k] - (t == SIZE_MAX ? 0.0 : a->a[2 * t]);
+  double im = a->a[2 * k + 1] + (t == SIZE_MAX ? 0.0 : a->a[2 * t + 1]);
+  double d2 = re * re + im * im;
+  if (d2 > *worst * *worst || !isfinite(d2))
+    lvsi_note_defect(hypot(re, im), i, j, worst, wi, wj);
+}
+
+/* A plain sparse op, O(nnz log nnz). Pass 0: each lower entry (i > j)
+ * against its stored partner (binary search in column i) and each
+ * diagonal entry against itself (2|Im A_ii|, NaN as NaN); when every stored upper
+ * entry was somebody's partner that covers all pairs (a pair's difference
+ * is symmetric), else pass 1 scans the off-diagonal entries again and finds
+ * the worst unpaired one too. A pair is reported at its lower entry. */
+static double sparse_defect(const lvs_matrix *a, size_t *wi, size_t *wj) {
+  double worst = 0.0;
+  size_t upper = 0, paired = 0;
+  for (int pass = 0; pass < 2 && !(pass == 1 && paired >= upper); pass++)
+    for (size_t j = 0; j < a->cols; j++)
+      for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
+        size_t i = a->ri[k];
+        if (pass == 0) {
+          upper += i < j;
+          if (i < j) continue;
+        }
+        if (i == j) { /* itself: 2|Im A_ii|, or NaN */
+          if (pass == 0) note_pair(a, k, k, i, j, &worst, wi, wj);
+          continue;
+        }
+        size_t t = sp_find(a, j, i);
+        paired += pass == 0 && t != SIZE_MAX;
+        note_pair(a, k, t, i, j, &worst, wi, wj);
+      }
+  return worst;
+}
+
 double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) {
   double worst = 0.0;
   size_t wi = 0, wj = 0;
@@ -1219,31 +1264,12 @@ double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) 
     if (pj) *pj = 0;
     return INFINITY;
   }
-  if (a->sparse && !a->vis && !a->cplx) { /* real: no complex arithmetic */
-    /* pass 0: each lower entry (i > j) against its stored partner; when
-     * every stored upper entry was somebody's partner that covers all pairs
-     * (a pair's difference is symmetric), else pass 1 scans every entry and
-     * finds the worst unpaired one too */
-    size_t upper = 0, paired = 0;
-    for (int pass = 0; pass < 2 && !(pass == 1 && paired >= upper); pass++)
-      for (size_t j = 0; j < a->cols; j++)
-        for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
-          size_t i = a->ri[k];
-          if (pass == 0) {
-            upper += i < j;
-            if (i <= j) continue;
-          }
-          size_t t = sp_find(a, j, i);
-          paired += t != SIZE_MAX;
-          lvsi_note_defect(fabs(a->a[k] - (t == SIZE_MAX ? 0.0 : a->a[t])), i, j, &worst, &wi, &wj);
-        }
-  } else if (a->sparse && !a->vis) {
-    for (size_t j = 0; j < a->cols; j++)
-      for (size_t k = a->cp[j]; k < a->cp[j + 1]; k++) {
-        size_t i = a->ri[k];
-        lvsi_note_defect(cabs(sval(a, k) - conj(lvsi_mat_at(a, j, i))), i, j, &worst, &wi, &wj);
-      }
-  } else {
+  lvs_matrix *v = NULL;
+  if (a->sparse && a->vis && lvs_matrix_visible(a, 0, &v)) lvs_clear_error(a->ctx); /* v NULL: loop below */
+  if (a->sparse && (v || !a->vis)) { /* padded: its visible plain copy */
+    worst = sparse_defect(v ? v : a, &wi, &wj);
+    lvs_matrix_free(v);
+  } else { /* dense (O(n^2) storage anyway), or no memory for the copy */
     for (size_t j = 0; j < n; j++)
       for (size_t i = 0; i <= j; i++) {
         double d = cabs(lvsi_mat_at(a, vmap(a, i), vmap(a, j)) -

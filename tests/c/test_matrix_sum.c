@@ -1,5 +1,6 @@
 /* test_matrix_sum.c -- lvs_matrix_sum (the one-pass sum) against closed forms
- * and the pairwise lvs_matrix_add, its error codes. */
+ * and the pairwise lvs_matrix_add, its error codes; lvs_matrix_hermitian_defect
+ * on padded and complex sparse ops with known defects and positions. */
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -135,6 +136,63 @@ int main(void) {
     lvs_matrix_free(x); lvs_matrix_free(x2); lvs_matrix_free(num); lvs_matrix_free(plain);
     lvs_matrix_free(dense); lvs_matrix_free(wrong);
     lvs_basis_free(o); lvs_basis_free(o2);
+  }
+
+  /* Hermitian defect of a padded x (6 states) with two entries spoiled:
+   * (1, 3) = 0.75 has no partner -> 0.75 there; (4, 3) = x_34 + 1 ->
+   * defect 1 at (4, 3), the larger. x_34 = sqrt(4/2) (common practice,
+   * x = (a + a^+)/sqrt 2). */
+  {
+    lvs_basis *o;
+    lvs_matrix *x;
+    size_t i, j;
+    lvs_basis_oscillator(ctx, 6, LVS_DEFAULT_PAD, &o);
+    lvs_basis_op(o, 0, "x", &x);
+    CHECK(lvs_matrix_hermitian_defect(x, &i, &j) == 0.0, "x is Hermitian");
+    lvs_matrix_set(x, 1, 3, 0.75, 0);
+    double d = lvs_matrix_hermitian_defect(x, &i, &j);
+    CHECK(fabs(d - 0.75) < 1e-15 && i == 1 && j == 3, "unpaired: %g at (%zu, %zu)", d, i, j);
+    lvs_matrix_set(x, 4, 3, sqrt(2.0) + 1.0, 0);
+    d = lvs_matrix_hermitian_defect(x, &i, &j);
+    CHECK(fabs(d - 1.0) < 1e-14 && i == 4 && j == 3, "paired: %g at (%zu, %zu)", d, i, j);
+    /* x N: defect x_{m,m+1} |(m+1) - m| = sqrt((m+1)/2), largest inside
+     * the block at m = 4: sqrt(5/2) at (5, 4); the stored pair (5, 6)
+     * (sqrt 3) lies beyond the visible block and must not count */
+    lvs_matrix *x0, *num, *xn;
+    lvs_basis_op(o, 0, "x", &x0);
+    lvs_basis_op(o, 0, "number", &num);
+    CHECK(lvs_matrix_mul(x0, num, &xn) == LVS_OK, "x N: %s", lvs_errmsg(ctx));
+    d = lvs_matrix_hermitian_defect(xn, &i, &j);
+    CHECK(fabs(d - sqrt(2.5)) < 1e-14 && i == 5 && j == 4, "x N: %g at (%zu, %zu)", d, i, j);
+    lvs_matrix_free(x0); lvs_matrix_free(num); lvs_matrix_free(xn);
+    lvs_matrix_free(x);
+    lvs_basis_free(o);
+  }
+
+  /* complex sparse: Sy of spin 1 (Hermitian), then A_00 = 0.4i (defect
+   * 2 * 0.4 = 0.8 at (0, 0)), then A_21 = conj(A_12) + 0.6 + 0.8i (defect
+   * |0.6 + 0.8i| = 1 at (2, 1)); NaN counts as infinite */
+  {
+    lvs_basis *s;
+    lvs_matrix *sy, *nan;
+    size_t i, j;
+    lvs_basis_spin(ctx, 2, &s);
+    lvs_basis_op(s, 0, "Sy", &sy);
+    CHECK(lvs_matrix_hermitian_defect(sy, &i, &j) == 0.0, "Sy is Hermitian");
+    lvs_matrix_set(sy, 0, 0, 0.0, 0.4);
+    double d = lvs_matrix_hermitian_defect(sy, &i, &j);
+    CHECK(fabs(d - 0.8) < 1e-15 && i == 0 && j == 0, "diagonal: %g at (%zu, %zu)", d, i, j);
+    double re, im;
+    lvs_matrix_get(sy, 1, 2, &re, &im);
+    lvs_matrix_set(sy, 2, 1, re + 0.6, -im + 0.8);
+    d = lvs_matrix_hermitian_defect(sy, &i, &j);
+    CHECK(fabs(d - 1.0) < 1e-15 && i == 2 && j == 1, "pair: %g at (%zu, %zu)", d, i, j);
+    double z[2] = {NAN, 0};
+    lvs_matrix_scale(sy, z, &nan);
+    CHECK(isinf(lvs_matrix_hermitian_defect(nan, &i, &j)), "NaN is infinite");
+    lvs_matrix_free(nan);
+    lvs_matrix_free(sy);
+    lvs_basis_free(s);
   }
 
   lvs_ctx_free(ctx);
