@@ -424,7 +424,8 @@ int lvs_basis_op(const lvs_basis *b, size_t site, const char *name, lvs_matrix *
             c->cp[col] = nnz;
             for (size_t k = op->cp[j]; k < op->cp[j + 1]; k++, nnz++) {
               c->ri[nnz] = (l * fm + op->ri[k]) * right + r;
-              memcpy(c->a + w * nnz, op->a + w * k, w * sizeof(double));
+              c->a[w * nnz] = op->a[w * k];
+              if (w == 2) c->a[2 * nnz + 1] = op->a[2 * k + 1];
             }
           }
       c->cp[mm] = c->nnz = nnz;

