@@ -612,17 +612,11 @@ static int sum_plan_make(lvs_ctx *ctx, size_t count, const double (*coef)[2],
  * the column lengths (off[c + 1] - off[c]: entries of column j0 + c over
  * all terms), then each term's entries appended to their column's segment
  * of e (so a segment is the terms' sorted runs one after another), then
- * each segment sorted by row (insertion sort costs the entries out of
- * place; long segments qsort). vals = 0 gathers rows only. */
+ * each segment sorted by row (sort_segment). vals = 0 gathers rows only. */
 typedef struct {
   size_t row;
   double re, im;
 } sum_ent;
-
-static int cmp_ent(const void *x, const void *y) {
-  size_t a = ((const sum_ent *)x)->row, b = ((const sum_ent *)y)->row;
-  return a < b ? -1 : a > b;
-}
 
 /* entries of term k in stored column j: [*lo, *hi), rows through *map when
  * set (an embedded plain term); the identity (NULL term) has one */
@@ -661,11 +655,8 @@ static size_t sum_chunk_sizes(const sum_plan *p, size_t j0, size_t j1, size_t *o
   return off[w];
 }
 
-static void sort_segment(sum_ent *e, size_t cnt) {
-  if (cnt > 64) {
-    qsort(e, cnt, sizeof *e, cmp_ent);
-    return;
-  }
+/* insertion sort (work: the entries out of place) */
+static void insertion_sort(sum_ent *e, size_t cnt) {
   for (size_t s = 1; s < cnt; s++) {
     sum_ent v = e[s];
     size_t t = s;
@@ -677,10 +668,63 @@ static void sort_segment(sum_ent *e, size_t cnt) {
   }
 }
 
+/* merge sorted e[0, m) and e[m, cnt) through tmp (stable) */
+static void merge_two(sum_ent *e, size_t m, size_t cnt, sum_ent *tmp) {
+  size_t p = 0, q = m, o = 0;
+  while (p < m && q < cnt) tmp[o++] = e[q].row < e[p].row ? e[q++] : e[p++];
+  while (p < m) tmp[o++] = e[p++];
+  while (q < cnt) tmp[o++] = e[q++];
+  memcpy(e, tmp, cnt * sizeof *e);
+}
+
+/* natural merge sort: adjacent runs merged pairwise, pass after pass
+ * (O(cnt log runs), stable) */
+static void natural_sort(sum_ent *e, size_t cnt, sum_ent *tmp) {
+  for (;;) {
+    size_t i = 0, runs = 0;
+    while (i < cnt) {
+      size_t m = i + 1;
+      while (m < cnt && e[m - 1].row <= e[m].row) m++;
+      if (i == 0 && m == cnt) return; /* one run: sorted */
+      size_t h = m;
+      if (h < cnt)
+        for (h++; h < cnt && e[h - 1].row <= e[h].row; h++) {}
+      size_t p = i, q = m, o = i; /* [i, m) and [m, h) into tmp */
+      while (p < m && q < h) tmp[o++] = e[q].row < e[p].row ? e[q++] : e[p++];
+      while (p < m) tmp[o++] = e[p++];
+      while (q < h) tmp[o++] = e[q++];
+      runs++;
+      i = h;
+    }
+    memcpy(e, tmp, cnt * sizeof *e);
+    if (runs == 1) return;
+  }
+}
+
+/* Sort a column segment by row. It is the terms' sorted runs one after
+ * another, typically a long one (the running total) and short ones (new
+ * terms): the first run is set aside, the rest sorted (insertion sort when
+ * short, else natural_sort) and the two merged once, so the long run is
+ * copied once, not once per merge pass; O(c log runs), stable (equal rows
+ * keep the terms' order). qsort here cost 90 ns an entry on the 120-entry
+ * columns of an all-to-all spin sum. tmp holds cnt entries. */
+static void sort_segment(sum_ent *e, size_t cnt, sum_ent *tmp) {
+  if (cnt <= 32) {
+    insertion_sort(e, cnt);
+    return;
+  }
+  size_t m = 1;
+  while (m < cnt && e[m - 1].row <= e[m].row) m++;
+  if (m == cnt) return;
+  if (cnt - m <= 32) insertion_sort(e + m, cnt - m);
+  else natural_sort(e + m, cnt - m, tmp);
+  if (e[m - 1].row > e[m].row) merge_two(e, m, cnt, tmp);
+}
+
 /* fills e for columns j0..j1-1 (off from sum_chunk_sizes; pos: scratch of
  * j1 - j0 cursors) and sorts each segment */
 static void sum_chunk_gather(const sum_plan *p, size_t j0, size_t j1, const size_t *off,
-                             size_t *pos, sum_ent *e, int vals) {
+                             size_t *pos, sum_ent *e, sum_ent *tmp, int vals) {
   size_t w = j1 - j0;
   memcpy(pos, off, w * sizeof *pos);
   for (size_t k = 0; k < p->count; k++) {
@@ -704,7 +748,7 @@ static void sum_chunk_gather(const sum_plan *p, size_t j0, size_t j1, const size
       }
     }
   }
-  for (size_t c = 0; c < w; c++) sort_segment(e + off[c], off[c + 1] - off[c]);
+  for (size_t c = 0; c < w; c++) sort_segment(e + off[c], off[c + 1] - off[c], tmp);
 }
 
 static int sum_sparse(lvs_ctx *ctx, const sum_plan *p, lvs_matrix **out) {
@@ -720,7 +764,7 @@ static int sum_sparse(lvs_ctx *ctx, const sum_plan *p, lvs_matrix **out) {
   if (w > cols) w = cols;
   size_t *off = lvsi_malloc(ctx, (w + 1) * sizeof *off);
   size_t *pos = lvsi_malloc(ctx, w * sizeof *pos);
-  sum_ent *e = NULL;
+  sum_ent *e = NULL, *tmp = NULL;
   if (!off || !pos) goto nomem;
   /* sizes: the largest chunk sizes the buffer */
   size_t longest = 1;
@@ -728,7 +772,8 @@ static int sum_sparse(lvs_ctx *ctx, const sum_plan *p, lvs_matrix **out) {
     size_t len = sum_chunk_sizes(p, j0, j0 + w < cols ? j0 + w : cols, off);
     if (len > longest) longest = len;
   }
-  if (!(e = lvsi_malloc(ctx, longest * sizeof *e))) goto nomem;
+  if (!(e = lvsi_malloc(ctx, longest * sizeof *e)) || !(tmp = lvsi_malloc(ctx, longest * sizeof *tmp)))
+    goto nomem;
   /* count: distinct rows, an exact capacity (an upper bound instead raised
    * the peak RSS at L = 20 from 1.14 to 1.45 GB: freed, resident heap
    * blocks went to the unused tail) */
@@ -736,7 +781,7 @@ static int sum_sparse(lvs_ctx *ctx, const sum_plan *p, lvs_matrix **out) {
   for (size_t j0 = 0; j0 < cols; j0 += w) {
     size_t j1 = j0 + w < cols ? j0 + w : cols;
     sum_chunk_sizes(p, j0, j1, off);
-    sum_chunk_gather(p, j0, j1, off, pos, e, 0);
+    sum_chunk_gather(p, j0, j1, off, pos, e, tmp, 0);
     for (size_t cc = 0; cc < j1 - j0; cc++)
       for (size_t s = off[cc]; s < off[cc + 1]; s++) total += s == off[cc] || e[s].row != e[s - 1].row;
   }
@@ -746,7 +791,7 @@ static int sum_sparse(lvs_ctx *ctx, const sum_plan *p, lvs_matrix **out) {
   for (size_t j0 = 0; j0 < cols; j0 += w) {
     size_t j1 = j0 + w < cols ? j0 + w : cols;
     sum_chunk_sizes(p, j0, j1, off);
-    sum_chunk_gather(p, j0, j1, off, pos, e, 1);
+    sum_chunk_gather(p, j0, j1, off, pos, e, tmp, 1);
     for (size_t cc = 0; cc < j1 - j0; cc++) {
       c->cp[j0 + cc] = nnz;
       for (size_t s = off[cc]; s < off[cc + 1];) {
@@ -775,6 +820,7 @@ done:
   lvsi_free(ctx, off);
   lvsi_free(ctx, pos);
   lvsi_free(ctx, e);
+  lvsi_free(ctx, tmp);
   if (st) {
     lvs_matrix_free(c);
     return st;
