@@ -110,6 +110,20 @@ LVS_API int lvs_matrix_copy(const lvs_matrix *a, lvs_matrix **out);
 LVS_API int lvs_matrix_add(const double alpha[2], const lvs_matrix *a,
                            const double beta[2], const lvs_matrix *b,
                            lvs_matrix **out);
+/* C = sum_k coef[k] * terms[k] in one pass (a long sum costs one merge, not
+ * one copy of the running total per term). coef: count (re, im) pairs, or
+ * NULL for all ones. terms[k] == NULL stands for the identity (on the
+ * result's storage space; the terms must then be square). At least one term
+ * must be an op. Same rules as lvs_matrix_add: the terms must have one
+ * visible size; padded terms must come from one basis and a plain term of
+ * the visible size is embedded in it; the result is complex when a term or
+ * a coefficient is, dense when a term is dense or the merged sparse result
+ * is full enough, and keeps the smallest slack and the largest band. The
+ * terms are only read; *out is a new op (NULL on failure). Returns LVS_OK,
+ * LVS_EINVAL (count 0, no op), LVS_EDIM (sizes, bases, identity of a
+ * non-square op), LVS_ENOMEM or LVS_ECAP. */
+LVS_API int lvs_matrix_sum(lvs_ctx *ctx, size_t count, const double (*coef)[2],
+                           const lvs_matrix *const *terms, lvs_matrix **out);
 /* C = A*B (exact inside the visible block for padded operators). */
 LVS_API int lvs_matrix_mul(const lvs_matrix *a, const lvs_matrix *b,
                            lvs_matrix **out);

@@ -422,6 +422,47 @@ static int l_zeros(lua_State *L) {
   return 1;
 }
 
+/* ls._sum_terms(list): the sum of a sequence of ops and scalars (a scalar
+ * means scalar times the identity) in one pass (lvs_matrix_sum); ls.sum
+ * hands it batches of its terms. */
+static int l_sum_terms(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  luaL_checktype(L, 1, LUA_TTABLE);
+  lua_Integer n = (lua_Integer)lua_rawlen(L, 1);
+  luaL_argcheck(L, n > 0, 1, "needs at least one term");
+  luaL_argcheck(L, (size_t)n <= ((size_t)-1) / (sizeof(lvs_matrix *) + 2 * sizeof(double)), 1,
+                "too many terms");
+  /* scratch in userdata: nothing leaks when a check below raises */
+  const lvs_matrix **terms = lua_newuserdatauv(L, (size_t)n * sizeof *terms, 0);
+  double (*coef)[2] = lua_newuserdatauv(L, (size_t)n * sizeof *coef, 0);
+  for (lua_Integer k = 1; k <= n; k++) {
+    lua_rawgeti(L, 1, k);
+    double z[2];
+    if (lvsL_toscalar(L, -1, z)) {
+      if (!isfinite(z[0]) || !isfinite(z[1])) {
+        lua_pushfstring(L, "term %d is NaN or infinite", (int)k);
+        return luaL_argerror(L, 1, lua_tostring(L, -1));
+      }
+      terms[k - 1] = NULL;
+      coef[k - 1][0] = z[0];
+      coef[k - 1][1] = z[1];
+    } else {
+      lvs_matrix **p = luaL_testudata(L, -1, LVS_MATRIX_MT);
+      if (!p || !*p) {
+        lua_pushfstring(L, "term %d is %s", (int)k, p ? "a closed matrix" : "not a matrix or a number");
+        return luaL_argerror(L, 1, lua_tostring(L, -1));
+      }
+      terms[k - 1] = *p;
+      coef[k - 1][0] = 1.0;
+      coef[k - 1][1] = 0.0;
+    }
+    lua_pop(L, 1);
+  }
+  lvs_matrix **out = lvsL_newmatrix(L);
+  lvsL_check(L, ctx, lvs_matrix_sum(ctx, (size_t)n, (const double (*)[2])coef, terms, out), "sum");
+  return 1;
+}
+
 static int c_tostring(lua_State *L) {
   double *z = luaL_checkudata(L, 1, LVS_COMPLEX_MT);
   if (z[1] == 0.0)
@@ -479,7 +520,7 @@ void lvsL_open_matrix(lua_State *L, int ctxidx) {
   lua_pop(L, 1);
 
   static const luaL_Reg fns[] = {{"matrix", l_matrix}, {"zeros", l_zeros}, {"complex", l_complex},
-                                 {NULL, NULL}};
+                                 {"_sum_terms", l_sum_terms}, {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);
   lvsL_pushcomplex(L, 0.0, 1.0);
   lua_setfield(L, -2, "I");

@@ -416,18 +416,19 @@ int lvs_basis_op(const lvs_basis *b, size_t site, const char *name, lvs_matrix *
     /* I_left (x) op (x) I_right, built directly in CSC */
     size_t fm = f->m, mm = b->m;
     st = lvsi_mat_alloc(ctx, mm, mm, op->cplx, 1, left * right * (op->nnz ? op->nnz : 1), &c);
-    if (!st) {
-      size_t col = 0;
+    if (!st) { /* the capacity is exact: entries written in place */
+      size_t col = 0, nnz = 0, w = op->cplx ? 2 : 1;
       for (size_t l = 0; l < left; l++)
         for (size_t j = 0; j < fm; j++)
           for (size_t r = 0; r < right; r++, col++) {
-            c->cp[col] = c->nnz;
-            for (size_t k = op->cp[j]; k < op->cp[j + 1] && !st; k++) {
-              double complex v = op->cplx ? CMPLX(op->a[2 * k], op->a[2 * k + 1]) : op->a[k];
-              st = lvsi_csc_push(c, (l * fm + op->ri[k]) * right + r, v);
+            c->cp[col] = nnz;
+            for (size_t k = op->cp[j]; k < op->cp[j + 1]; k++, nnz++) {
+              c->ri[nnz] = (l * fm + op->ri[k]) * right + r;
+              c->a[w * nnz] = op->a[w * k];
+              if (w == 2) c->a[2 * nnz + 1] = op->a[2 * k + 1];
             }
           }
-      c->cp[mm] = c->nnz;
+      c->cp[mm] = c->nnz = nnz;
     }
     lvs_matrix_free(op);
     (void)idl; (void)idr; (void)t;

@@ -425,26 +425,23 @@ static void sturm(size_t n, const double *d, const double *e2, double pivmin, co
   for (int k = 0; k < LANES; k++) cnt[k] = (size_t)c[k];
 }
 
-/* Eigenpair number `level` (0-based) of a symmetric tridiagonal matrix (hb:
- * lower band storage, ld 2): multisection with Sturm counts until the
- * eigenvalue is alone in [a, b], then Rayleigh-quotient iteration with
- * twisted solves, accepted only when the quotient lands in [a, b] (to a few
- * rounding units of the spectral scale).
- * Source: common practice (Parlett, The Symmetric Eigenvalue Problem,
- * 1980, ch. 4-5, mem). Fails with LVS_EINVAL when the level cannot be
- * separated from a neighbour within 1e-10 of the spectral scale. */
-static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level, double *E,
-                         double *vec) {
-  int st = LVS_OK;
-  double *d = lvsi_malloc(ctx, n * sizeof(double));
-  double *e2 = lvsi_malloc(ctx, n * sizeof(double));
-  double *e = lvsi_malloc(ctx, n * sizeof(double));
-  double *dl = lvsi_malloc(ctx, n * sizeof(double));
-  double *dd = lvsi_malloc(ctx, n * sizeof(double));
-  if (!d || !e2 || !e || !dl || !dd) {
-    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory finding the unperturbed level");
-    goto done;
-  }
+/* State of tridiag_range's search: the matrix (d diagonal, e
+ * off-diagonal, e2 its squares), the twisted factors' workspace (dl, dd),
+ * the spectral scale and pivot floor, and the isolating interval [a, b]
+ * with its Sturm counts ca <= level < cb (cb: at most). */
+typedef struct {
+  size_t n, level;
+  double *d, *e, *e2, *dl, *dd;
+  double scale, pivmin;
+  double a, b;
+  size_t ca, cb;
+} tri_search;
+
+/* Phase 1: copy the band out of hb and bound the spectrum (Gershgorin,
+ * and for the lowest level a Rayleigh quotient from above). */
+static void tri_bounds(tri_search *w, const double *hb) {
+  size_t n = w->n;
+  double *d = w->d, *e = w->e, *e2 = w->e2;
   double lo = INFINITY, hi = -INFINITY, emax = 0.0;
   for (size_t i = 0; i < n; i++) {
     d[i] = hb[2 * i];
@@ -459,9 +456,11 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
   }
   double scale = MAXD(fabs(lo), fabs(hi));
   if (scale == 0.0) scale = 1.0;
-  double pivmin = 2.2250738585072014e-308 * MAXD(1.0, emax * emax);
-  double a = lo - 1e-12 * scale, bb = hi + 1e-12 * scale;
-  if (level == 0 && n > 1) {
+  w->scale = scale;
+  w->pivmin = 2.2250738585072014e-308 * MAXD(1.0, emax * emax);
+  w->a = lo - 1e-12 * scale;
+  w->b = hi + 1e-12 * scale;
+  if (w->level == 0 && n > 1) {
     /* the Rayleigh quotient of any vector bounds the lowest eigenvalue from
      * above (common practice): the constant and the alternating vector
      * give (sum d +- 2 sum e) / n, the smaller (sum d - 2 |sum e|) / n; for
@@ -471,150 +470,193 @@ static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level,
     for (size_t i = 0; i < n; i++) sd += d[i];
     for (size_t i = 0; i + 1 < n; i++) se += e[i];
     double rq = (sd - 2 * fabs(se)) / (double)n + 1e-12 * scale;
-    if (rq < bb && rq > a) bb = rq;
+    if (rq < w->b && rq > w->a) w->b = rq;
   }
-  size_t ca = 0, cb = n; /* Sturm counts at a and bb: ca <= level < cb (cb: at most) */
+  w->ca = 0;
+  w->cb = n;
+}
+
+/* Phase 2: multisection with Sturm counts until eigenvalue `level` is
+ * alone in [a, b], then `extra` more passes (each brings the starting shift
+ * 81 times closer for less than a Rayleigh-quotient step). LVS_EINVAL when
+ * the interval shrinks to 1e-10 of the scale with the level not alone. */
+static int tri_isolate(lvs_ctx *ctx, tri_search *w, int extra) {
+  size_t level = w->level;
   double x[LANES];
   size_t cnt[LANES];
-  /* two passes past isolation: each costs less than a Rayleigh-quotient
-   * step and brings the starting shift 81 times closer */
-  int extra = 2, retries = 0, comp_found = 0;
-  for (;;) {
-    /* narrow [a, bb] until eigenvalue `level` is alone in it (then `extra`
-     * more passes) */
-    while (!(ca == level && cb == level + 1) || extra > 0) {
-      if (ca == level && cb == level + 1) extra--;
-      for (int k = 0; k < LANES; k++) x[k] = a + (bb - a) * (double)(k + 1) / (LANES + 1);
-      sturm(n, d, e2, pivmin, x, cnt);
+  while (!(w->ca == level && w->cb == level + 1) || extra > 0) {
+    if (w->ca == level && w->cb == level + 1) extra--;
+    for (int k = 0; k < LANES; k++) x[k] = w->a + (w->b - w->a) * (double)(k + 1) / (LANES + 1);
+    sturm(w->n, w->d, w->e2, w->pivmin, x, cnt);
 
-      double na = a, nb = bb;
-      size_t nca = ca, ncb = cb;
-      for (int k = LANES - 1; k >= 0; k--)
-        if (cnt[k] > level) {
-          nb = x[k];
-          ncb = cnt[k];
-        }
-      for (int k = 0; k < LANES; k++)
-        if (cnt[k] <= level) {
-          na = x[k];
-          nca = cnt[k];
-        }
-      a = na;
-      bb = nb;
-      ca = nca;
-      cb = ncb;
-      if (bb - a < 1e-10 * scale && !(ca == level && cb == level + 1)) {
-        st = lvsi_fail(ctx, LVS_EINVAL,
+    double na = w->a, nb = w->b;
+    size_t nca = w->ca, ncb = w->cb;
+    for (int k = LANES - 1; k >= 0; k--)
+      if (cnt[k] > level) {
+        nb = x[k];
+        ncb = cnt[k];
+      }
+    for (int k = 0; k < LANES; k++)
+      if (cnt[k] <= level) {
+        na = x[k];
+        nca = cnt[k];
+      }
+    w->a = na;
+    w->b = nb;
+    w->ca = nca;
+    w->cb = ncb;
+    if (w->b - w->a < 1e-10 * w->scale && !(w->ca == level && w->cb == level + 1))
+      return lvsi_fail(ctx, LVS_EINVAL,
                        "level %zu is degenerate (%zu eigenvalues within %.3g of %.12g); the "
                        "linear-solve series needs a non-degenerate level (use ls.perturb)",
-                       level + 1, cb - ca, bb - a, 0.5 * (a + bb));
-        goto done;
+                       level + 1, w->cb - w->ca, w->b - w->a, 0.5 * (w->a + w->b));
+    if (w->b - w->a < 1e-15 * w->scale) break;
+  }
+  return LVS_OK;
+}
+
+/* Phase 3: when H0 splits (zero off-diagonals), the diagonal block
+ * [*s0, *s1) whose Sturm counts at a and b differ holds the eigenvector. */
+static void tri_block(const tri_search *w, size_t *s0, size_t *s1) {
+  const double *d = w->d, *e2 = w->e2;
+  size_t n = w->n, start = 0;
+  for (size_t i = 0; i < n; i++) {
+    if (i + 1 < n && e2[i] != 0.0) continue;
+    /* block [start, i] */
+    if (start > 0 || i + 1 < n) {
+      double qa = 1.0, qb = 1.0;
+      size_t na = 0, nb = 0;
+      for (size_t j = start; j <= i; j++) {
+        double ej = j > start ? e2[j - 1] : 0.0;
+        qa = (d[j] - w->a) - (j > start ? ej / qa : 0.0);
+        if (fabs(qa) < w->pivmin) qa = -w->pivmin;
+        qb = (d[j] - w->b) - (j > start ? ej / qb : 0.0);
+        if (fabs(qb) < w->pivmin) qb = -w->pivmin;
+        na += qa < 0;
+        nb += qb < 0;
       }
-      if (bb - a < 1e-15 * scale) break;
+      if (nb > na) {
+        *s0 = start;
+        *s1 = i + 1;
+      }
     }
-    /* the eigenvector lives in one diagonal block (a run of nonzero
-     * off-diagonals) when H0 splits: find it by Sturm counts per block */
+    start = i + 1;
+  }
+}
+
+/* Phase 4: Rayleigh-quotient iteration with twisted solves on rows
+ * [s0, s1), from the middle of [a, b]; vec (n entries) is zeroed outside
+ * the block. Returns 1 with *rho when it converged to a quotient inside
+ * [a, b] (to a few rounding units of the scale), else 0. */
+static int tri_rqi(tri_search *w, size_t s0, size_t s1, double *vec, double *rho_out) {
+  double *dd = w->dd, *dl = w->dl;
+  double a = w->a, bb = w->b, scale = w->scale;
+  size_t m = s1 - s0;
+  double *vs = vec + s0;
+  const double *ds = w->d + s0, *es = w->e + s0;
+  double sigma = 0.5 * (a + bb);
+  memset(vec, 0, w->n * sizeof(double));
+  for (size_t i = 0; i < m; i++) vs[i] = 1.0 + 1e-3 * (double)((s0 + i) % 7);
+  double rho = sigma, rprev = INFINITY;
+  const double eps = 2.220446049250313e-16, tiny = eps * scale, tol = 4 * eps * scale;
+  int polish = 0, ok = 0;
+  for (int it = 0; it < 10; it++) {
+    /* no pivoting: inverse iteration tolerates the element growth
+     * (source: common practice, cf. LAPACK dlar1v) */
+    size_t zero = 0;
+    twisted_factor(m, ds, es, 1, sigma, dd, dl, &zero);
+    /* a zero pivot (or the overflow after one): the shift is exactly an
+     * eigenvalue of a leading or trailing block; move it by the rounding
+     * scale (harmless for inverse iteration) */
+    for (int nudge = 1; zero && nudge <= 8; nudge++)
+      twisted_factor(m, ds, es, 1, sigma + nudge * tiny, dd, dl, &zero);
+    twisted_subst(m, dd, dl, vs);
+    /* y = vs: rho = y^T T y / y^T y and the residual |T x - rho x| of
+     * x = y / |y| (T y recomputed in the second pass, not stored), which
+     * also normalizes vs; four partial sums per reduction */
+    double yy[4] = {0, 0, 0, 0}, yty[4] = {0, 0, 0, 0}, rr[4] = {0, 0, 0, 0};
+    for (size_t i = 0; i < m; i++) {
+      double tv = ds[i] * vs[i];
+      if (i > 0) tv += es[i - 1] * vs[i - 1];
+      if (i + 1 < m) tv += es[i] * vs[i + 1];
+      yy[i & 3] += vs[i] * vs[i];
+      yty[i & 3] += vs[i] * tv;
+    }
+    double ny2 = (yy[0] + yy[1]) + (yy[2] + yy[3]);
+    if (!(ny2 > 0) || !isfinite(ny2)) break; /* narrow more, retry */
+    rho = ((yty[0] + yty[1]) + (yty[2] + yty[3])) / ny2;
+    double inv = 1.0 / sqrt(ny2), prev = 0.0;
+    for (size_t i = 0; i < m; i++) {
+      double yi = vs[i];
+      double tv = ds[i] * yi + (i > 0 ? es[i - 1] * prev : 0.0) + (i + 1 < m ? es[i] * vs[i + 1] : 0.0);
+      double ri = tv - rho * yi;
+      rr[i & 3] += ri * ri;
+      vs[i] = yi * inv;
+      prev = yi;
+    }
+    double r2 = ((rr[0] + rr[1]) + (rr[2] + rr[3])) * inv * inv;
+    double r = sqrt(r2);
+    int inside = rho > a - tol && rho < bb + tol; /* else another level: narrow more, retry */
+    /* converged: at the rounding floor now, or one more step after the
+     * residual stops falling */
+    if (polish || r <= eps * scale) {
+      ok = inside;
+      break;
+    }
+    if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-12 * scale)) polish = 1;
+    rprev = r;
+    /* outside the isolating interval, keep the shift (inverse iteration) */
+    if (rho > a && rho < bb) sigma = rho;
+  }
+  *rho_out = rho;
+  return ok;
+}
+
+/* Eigenpair number `level` (0-based) of a symmetric tridiagonal matrix (hb:
+ * lower band storage, ld 2): multisection with Sturm counts until the
+ * eigenvalue is alone in [a, b], then Rayleigh-quotient iteration with
+ * twisted solves, accepted only when the quotient lands in [a, b] (to a few
+ * rounding units of the spectral scale); a rejected iteration narrows the
+ * interval by two more multisections and retries (at most 20 times). The
+ * phases: tri_bounds, tri_isolate, tri_block (first round only; retries
+ * iterate on all rows), tri_rqi.
+ * Source: common practice (Parlett, The Symmetric Eigenvalue Problem,
+ * 1980, ch. 4-5, mem). Fails with LVS_EINVAL when the level cannot be
+ * separated from a neighbour within 1e-10 of the spectral scale. */
+static int tridiag_range(lvs_ctx *ctx, const double *hb, size_t n, size_t level, double *E,
+                         double *vec) {
+  int st = LVS_OK;
+  tri_search w = {.n = n, .level = level};
+  w.d = lvsi_malloc(ctx, n * sizeof(double));
+  w.e2 = lvsi_malloc(ctx, n * sizeof(double));
+  w.e = lvsi_malloc(ctx, n * sizeof(double));
+  w.dl = lvsi_malloc(ctx, n * sizeof(double));
+  w.dd = lvsi_malloc(ctx, n * sizeof(double));
+  if (!w.d || !w.e2 || !w.e || !w.dl || !w.dd) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory finding the unperturbed level");
+    goto done;
+  }
+  tri_bounds(&w, hb);
+  for (int round = 0;; round++) {
+    if ((st = tri_isolate(ctx, &w, 2))) goto done;
     size_t s0 = 0, s1 = n;
-    if (!comp_found) {
-      size_t start = 0;
-      for (size_t i = 0; i < n; i++) {
-        if (i + 1 < n && e2[i] != 0.0) continue;
-        /* block [start, i] */
-        if (start > 0 || i + 1 < n) {
-          double qa = 1.0, qb = 1.0;
-          size_t na = 0, nb = 0;
-          for (size_t j = start; j <= i; j++) {
-            double ej = j > start ? e2[j - 1] : 0.0;
-            qa = (d[j] - a) - (j > start ? ej / qa : 0.0);
-            if (fabs(qa) < pivmin) qa = -pivmin;
-            qb = (d[j] - bb) - (j > start ? ej / qb : 0.0);
-            if (fabs(qb) < pivmin) qb = -pivmin;
-            na += qa < 0;
-            nb += qb < 0;
-          }
-          if (nb > na) {
-            s0 = start;
-            s1 = i + 1;
-          }
-        }
-        start = i + 1;
-      }
-      comp_found = 1;
-    }
-    /* Rayleigh-quotient iteration from the middle of [a, bb] */
-    size_t m = s1 - s0;
-    double *vs = vec + s0;
-    const double *ds = d + s0, *es = e + s0;
-    double sigma = 0.5 * (a + bb);
-    memset(vec, 0, n * sizeof(double));
-    for (size_t i = 0; i < m; i++) vs[i] = 1.0 + 1e-3 * (double)((s0 + i) % 7);
-    double rho = sigma, rprev = INFINITY;
-    const double eps = 2.220446049250313e-16, tiny = eps * scale, tol = 4 * eps * scale;
-    int polish = 0, ok = 0;
-    for (int it = 0; it < 10; it++) {
-      /* no pivoting: inverse iteration tolerates the element growth
-       * (source: common practice, cf. LAPACK dlar1v) */
-      size_t zero = 0;
-      twisted_factor(m, ds, es, 1, sigma, dd, dl, &zero);
-      /* a zero pivot (or the overflow after one): the shift is exactly an
-       * eigenvalue of a leading or trailing block; move it by the rounding
-       * scale (harmless for inverse iteration) */
-      for (int nudge = 1; zero && nudge <= 8; nudge++)
-        twisted_factor(m, ds, es, 1, sigma + nudge * tiny, dd, dl, &zero);
-      twisted_subst(m, dd, dl, vs);
-      /* y = vs: rho = y^T T y / y^T y and the residual |T x - rho x| of
-       * x = y / |y| (T y recomputed in the second pass, not stored), which
-       * also normalizes vs; four partial sums per reduction */
-      double yy[4] = {0, 0, 0, 0}, yty[4] = {0, 0, 0, 0}, rr[4] = {0, 0, 0, 0};
-      for (size_t i = 0; i < m; i++) {
-        double tv = ds[i] * vs[i];
-        if (i > 0) tv += es[i - 1] * vs[i - 1];
-        if (i + 1 < m) tv += es[i] * vs[i + 1];
-        yy[i & 3] += vs[i] * vs[i];
-        yty[i & 3] += vs[i] * tv;
-      }
-      double ny2 = (yy[0] + yy[1]) + (yy[2] + yy[3]);
-      if (!(ny2 > 0) || !isfinite(ny2)) break; /* narrow more, retry */
-      rho = ((yty[0] + yty[1]) + (yty[2] + yty[3])) / ny2;
-      double inv = 1.0 / sqrt(ny2), prev = 0.0;
-      for (size_t i = 0; i < m; i++) {
-        double yi = vs[i];
-        double tv = ds[i] * yi + (i > 0 ? es[i - 1] * prev : 0.0) + (i + 1 < m ? es[i] * vs[i + 1] : 0.0);
-        double ri = tv - rho * yi;
-        rr[i & 3] += ri * ri;
-        vs[i] = yi * inv;
-        prev = yi;
-      }
-      double r2 = ((rr[0] + rr[1]) + (rr[2] + rr[3])) * inv * inv;
-      double r = sqrt(r2);
-      int inside = rho > a - tol && rho < bb + tol; /* else another level: narrow more, retry */
-      /* converged: at the rounding floor now, or one more step after the
-       * residual stops falling */
-      if (polish || r <= eps * scale) {
-        ok = inside;
-        break;
-      }
-      if (r <= 64 * eps * scale || (it >= 2 && r > 0.5 * rprev && r <= 1e-12 * scale)) polish = 1;
-      rprev = r;
-      /* outside the isolating interval, keep the shift (inverse iteration) */
-      if (rho > a && rho < bb) sigma = rho;
-    }
-    if (ok) {
+    if (round == 0) tri_block(&w, &s0, &s1);
+    double rho;
+    if (tri_rqi(&w, s0, s1, vec, &rho)) {
       *E = rho;
       break;
     }
-    if (++retries > 20) {
+    if (round + 1 > 20) {
       st = lvsi_fail(ctx, LVS_ENOCONV, "level %zu: eigenvector iteration did not converge", level + 1);
       goto done;
     }
-    extra = 2; /* narrow [a, bb] by two more multisections, then retry */
   }
 done:
-  lvsi_free(ctx, d);
-  lvsi_free(ctx, e2);
-  lvsi_free(ctx, e);
-  lvsi_free(ctx, dl);
-  lvsi_free(ctx, dd);
+  lvsi_free(ctx, w.d);
+  lvsi_free(ctx, w.e2);
+  lvsi_free(ctx, w.e);
+  lvsi_free(ctx, w.dl);
+  lvsi_free(ctx, w.dd);
   return st;
 }
 

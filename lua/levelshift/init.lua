@@ -10,7 +10,27 @@ ls._VERSION = "levelshift " .. core.version()
 local matrix_methods = core._matrix_methods
 local basis_methods = core._basis_methods
 
+local sum_terms = core._sum_terms
+local complex_mt = getmetatable(core.I)
+local function is_op(x) -- a levelshift.matrix (open or closed)
+  local mt = type(x) == "userdata" and getmetatable(x)
+  return mt and mt.__index == matrix_methods
+end
+
+-- acc + term as a pairwise sum, or the error of ls.sum naming term i (level:
+-- that of ls.sum's caller, seen from add_term)
+local function add_term(acc, term, i, level)
+  local ok, r = pcall(function() return acc + term end)
+  if not ok then error("sum: cannot add term " .. i .. " (" .. tostring(r):gsub("^[^\n]-:%d+: ", "") .. ")", level) end
+  return r
+end
+
 --- ls.sum(first, last, f): the sum of f(i) for i = first..last (ops or numbers).
+-- Once the total is an op, ops and scalars are collected and merged in one
+-- pass (core._sum_terms: one merge instead of a copy of the total per term);
+-- a batch is merged when its terms hold as many entries as the total, so
+-- memory stays near terms + result. A batch that fails is redone pairwise,
+-- which gives the same error as adding its terms one by one.
 function ls.sum(first, last, f)
   if math.type(first) ~= "integer" then error("bad argument #1 to 'sum' (integer expected)", 2) end
   if math.type(last) ~= "integer" then error("bad argument #2 to 'sum' (integer expected)", 2) end
@@ -19,18 +39,53 @@ function ls.sum(first, last, f)
     error("bad argument #2 to 'sum' (the range " .. first .. ".." .. last .. " has more than 2^31 terms)", 2)
   end
   local acc
+  -- batch[1] is acc, batch[k] the term f(at[k]); held: entries of the terms
+  -- (a scalar counts as the identity), budget: entries of acc
+  local batch, at, nb, held, budget, dim = {}, {}, 0, 0, 0, 0
+  local function merge()
+    if nb == 0 then return end
+    local ok, r = pcall(sum_terms, batch)
+    if ok then
+      acc = r
+    else
+      for k = 2, nb + 1 do acc = add_term(acc, batch[k], at[k], 4) end
+    end
+    batch, at, nb, held = {}, {}, 0, 0
+    local _, cnt = acc:storage()
+    budget = cnt
+  end
   for i = first, last do
     local term = f(i)
     if term ~= nil then
       if acc == nil then
         acc = term
+      elseif is_op(acc) and (is_op(term) or math.type(term) or getmetatable(term) == complex_mt) then
+        if nb == 0 then
+          batch[1] = acc
+          if budget == 0 then
+            local ok, _, cnt = pcall(acc.storage, acc)
+            budget = ok and cnt or 0
+            ok, dim = pcall(acc.dim, acc)
+            if not ok then dim = 0 end
+          end
+        end
+        nb = nb + 1
+        batch[nb + 1], at[nb + 1] = term, i
+        if is_op(term) then
+          local ok, _, cnt = pcall(term.storage, term)
+          held = held + (ok and cnt or 0)
+        else
+          held = held + dim
+        end
+        if held >= budget then merge() end
       else
-        local ok, r = pcall(function() return acc + term end)
-        if not ok then error("sum: cannot add term " .. i .. " (" .. tostring(r):gsub("^[^\n]-:%d+: ", "") .. ")", 2) end
-        acc = r
+        merge()
+        acc = add_term(acc, term, i, 3)
+        budget = 0
       end
     end
   end
+  merge()
   if acc == nil then error("sum: empty range " .. first .. ".." .. last .. " (no terms)", 2) end
   return acc
 end

@@ -36,6 +36,18 @@ describe("matrix", function()
     assert.are.equal(-1, z.re)
   end)
 
+  it("checks a padded 50000-state x for Hermiticity on its stored entries", function()
+    local x = ls.oscillator(50000).x
+    local ok, d = x:is_hermitian(0)
+    assert.is_true(ok); assert.are.equal(0, d)
+    -- <0|x|1> = 1/sqrt(2) (common practice, x = (a + a^+)/sqrt 2): spoil
+    -- its partner by 0.375 and add an unpaired 0.25 far off the band
+    x:set(2, 1, 1 / math.sqrt(2) + 0.375)
+    x:set(7, 40000, 0.25)
+    ok, d = x:is_hermitian()
+    assert.is_false(ok); assert.near(0.375, d, 1e-15)
+  end)
+
   it("sets elements and grows complex on demand", function()
     local m = ls.zeros(3)
     m:set(2, 3, 1.25, -0.5)
