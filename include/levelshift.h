@@ -228,16 +228,17 @@ LVS_API int lvs_eigen_sectors(const lvs_matrix *h, const size_t *comp, size_t co
  * checked against the dense cap before any work. Errors: LVS_ENOCONV (not
  * converged: names tol, restarts, ncv), LVS_EINVAL (near outside the
  * Gershgorin range of the op, or on a level: H - near singular),
- * LVS_ENOTHERM, LVS_ECAP. opts may be NULL (all defaults). */
+ * LVS_ENOTHERM, LVS_ECAP. opts may be NULL (all defaults). ARPACK is not
+ * reentrant: Krylov solves from several threads take turns (one lock). */
 typedef enum { LVS_EIGEN_AUTO = 0, LVS_EIGEN_DENSE = 1, LVS_EIGEN_KRYLOV = 2 } lvs_eigen_method;
 #define LVS_KRYLOV_MIN_DIM 200
 typedef struct {
   int method;          /* lvs_eigen_method */
   int has_near;        /* nonzero: levels nearest `near` */
   double near;
-  double tol;          /* ARPACK's relative residual tolerance; 0 = machine precision */
+  double tol;          /* ARPACK's relative residual tolerance; 0 = machine epsilon 2^-52 */
   size_t maxiter;      /* ARPACK restarts; 0 = max(1000, 10 n) */
-  size_t ncv;          /* Lanczos/Arnoldi basis size; 0 = max(2 count + 1, 28) */
+  size_t ncv;          /* Lanczos/Arnoldi basis size; 0 = max(2 count + 1, 20) */
   const double *start; /* start vector (n values, 2n complex interleaved) or NULL:
                           a fixed pseudo-random one; used for a single sector only */
 } lvs_eigen_opts;

@@ -93,7 +93,7 @@ static int l_eigen(lua_State *L) {
     }
     lua_pop(L, 1);
     eo.tol = lvsL_optfield_num(L, 2, "tol", 0.0, "eigen", 2);
-    if (!(eo.tol >= 0.0 && eo.tol < 1.0)) return luaL_argerror(L, 2, "option 'tol' must be from 0 (machine precision) to below 1");
+    if (!(eo.tol >= 0.0 && eo.tol < 1.0)) return luaL_argerror(L, 2, "option 'tol' must be from 0 (machine epsilon) to below 1");
     lua_Integer mi = lvsL_optfield_int(L, 2, "maxiter", 0, "eigen", 2);
     if (mi < 0 || mi > 2147483647) return luaL_argerror(L, 2, "option 'maxiter' must be a positive integer");
     eo.maxiter = (size_t)mi;
