@@ -1209,9 +1209,40 @@ static int add_series(lvs_sweep *s, const lvs_sweep_spec *spec) {
   return st;
 }
 
-int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
-  if (out) *out = NULL;
-  if (!ctx || !out) return LVS_EINVAL;
+/* Everything one lvs_sweep_new call holds while it runs; the phases below
+ * fill it in order and job_free releases it (NULL members are fine). */
+typedef struct {
+  lvs_ctx *ctx;
+  const lvs_sweep_spec *spec;
+  size_t n, count, steps, npts;
+  int cplx, nthreads;
+  lvs_sweep *s;
+  model md;
+  /* model: dense visible blocks, band storage, symmetry sectors */
+  double *h0a, *va, *bandst, *secband;
+  size_t *seccomp, *secoff, *secidx, nsec;
+  bandmod *secs;
+  /* journal and the workers' shared output */
+  journal jn;
+  shared_out so;
+  locked_alloc la;
+  unsigned char *rec;
+  /* points of a block and the tracking state */
+  size_t blk;
+  double *hbuf, *wblk, *work_d;
+  double complex *vblk, *prev, *tmp;
+  size_t *pi, *perm, *iw, *todo;
+  char *cw;
+  ranked *srt;
+  size_t ccap;
+  double escale, degen_tol;
+  int blas_threads;
+} sweep_job;
+
+static int job_nomem(sweep_job *jb) { return lvsi_fail(jb->ctx, LVS_ENOMEM, "sweep: out of memory"); }
+
+/* phase 1: the spec, checked before anything is allocated */
+static int spec_check(lvs_ctx *ctx, const lvs_sweep_spec *spec) {
   if (!spec || !spec->h0 || !spec->v)
     return lvsi_fail(ctx, LVS_EINVAL, spec && spec->family ? "sweep of a family needs H(from) and H(to)"
                                                            : "sweep needs H0 and V");
@@ -1243,427 +1274,503 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     return lvsi_fail(ctx, LVS_ERANGE, "shard must be from 1 to %zu, got %zu", spec->shards, spec->shard);
   if ((spec->shards || spec->merge_only) && (!spec->journal || !*spec->journal))
     return lvsi_fail(ctx, LVS_EINVAL, "shards and merges need an output path (the journal base)");
+  return lvsi_dense_ok(ctx, spec->count, spec->steps + 1, sizeof(double), "sweep (energies)");
+}
 
-  size_t count = spec->count, steps = spec->steps, npts = steps + 1;
-  int cplx = lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v);
-  if ((st = lvsi_dense_ok(ctx, count, npts, sizeof(double), "sweep (energies)"))) return st;
-
-  lvs_sweep *s = NULL;
+/* phase 2a: dense copies of the visible blocks, both of the common kind,
+ * and (real models) the components of the union sparsity of H0 and V */
+static int model_dense(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  size_t n = jb->n;
+  int cplx = jb->cplx, st;
   lvs_matrix *dh = NULL, *dv = NULL;
-  double *h0a = NULL, *va = NULL, *wblk = NULL, *work_d = NULL, *bandst = NULL, *hbuf = NULL;
-  size_t *seccomp = NULL, *secoff = NULL, *secidx = NULL, nsec = 0;
-  bandmod *secs = NULL;
-  double *secband = NULL;
-  double complex *vblk = NULL, *prev = NULL, *tmp = NULL;
-  size_t *pi = NULL, *perm = NULL, *iw = NULL, *todo = NULL;
-  char *cw = NULL;
-  ranked *srt = NULL;
-  unsigned char *rec = NULL;
-  size_t ccap = 0;
-  locked_alloc la;
-  la.f = ctx->alloc;
-  la.ud = ctx->ud;
-  pthread_mutex_init(&la.mu, NULL);
-  journal jn;
-  memset(&jn, 0, sizeof jn);
-  jn.fd = -1;
-  shared_out so;
-  memset(&so, 0, sizeof so);
-  pthread_mutex_init(&so.mu, NULL);
-  int blas_threads = 0;
-
-  /* dense copies of the visible blocks, both of the common kind */
-  {
-    if ((st = lvs_matrix_visible(h0, 1, &dh))) goto fail;
-    if ((st = lvs_matrix_visible(v, 1, &dv))) goto fail;
-    size_t len = n * n * (cplx ? 2 : 1);
-    h0a = lvsi_malloc(ctx, len * sizeof(double));
-    va = lvsi_malloc(ctx, len * sizeof(double));
-    if (!h0a || !va) goto nomem;
-    for (size_t j = 0; j < n; j++)
-      for (size_t i = 0; i < n; i++) {
-        double re, im;
-        size_t at = j * n + i;
-        lvs_matrix_get(dh, i, j, &re, &im);
-        if (cplx) { h0a[2 * at] = re; h0a[2 * at + 1] = im; } else h0a[at] = re;
-        lvs_matrix_get(dv, i, j, &re, &im);
-        if (cplx) { va[2 * at] = re; va[2 * at + 1] = im; } else va[at] = re;
-      }
-    /* symmetry sectors: components of the union sparsity of H0 and V */
-    if (!cplx && n >= 16 && !spec->family) {
-      seccomp = lvsi_malloc(ctx, n * sizeof(size_t));
-      if (!seccomp) goto nomem;
-      if ((st = lvsi_components(dh, dv, seccomp, &nsec))) goto fail;
-    }
-    lvs_matrix_free(dh);
-    lvs_matrix_free(dv);
-    dh = dv = NULL;
+  if ((st = lvs_matrix_visible(jb->spec->h0, 1, &dh)) || (st = lvs_matrix_visible(jb->spec->v, 1, &dv))) goto out;
+  size_t len = n * n * (cplx ? 2 : 1);
+  jb->h0a = lvsi_malloc(ctx, len * sizeof(double));
+  jb->va = lvsi_malloc(ctx, len * sizeof(double));
+  if (!jb->h0a || !jb->va) {
+    st = job_nomem(jb);
+    goto out;
   }
-  model md = {n, count, cplx, h0a, va, -1, NULL, NULL, spec->family, spec->family_ud, 0, NULL, NULL, NULL};
-  if (!cplx && n >= 16 && !spec->family) {
-    long k1 = bandwidth(h0a, n), k2 = bandwidth(va, n);
-    long kd = k1 > k2 ? k1 : k2;
-    if (kd >= 1 && 4 * (size_t)kd <= n) {
-      size_t ld = (size_t)kd + 1;
-      bandst = lvsi_calloc(ctx, 2 * ld * n, sizeof(double));
-      if (!bandst) goto nomem;
-      for (size_t j = 0; j < n; j++)
-        for (size_t r = 0; r < ld && j + r < n; r++) {
-          bandst[j * ld + r] = h0a[j * n + j + r];
-          bandst[ld * n + j * ld + r] = va[j * n + j + r];
-        }
-      md.kd = kd;
-      md.hb0 = bandst;
-      md.vb = bandst + ld * n;
-    }
-  }
-  if (md.kd >= 0 && nsec >= 2) {
-    /* per sector: its states ascending, its half-bandwidth in that order
-     * (never above the full one), its band storage */
-    secoff = lvsi_calloc(ctx, nsec + 1 + 2 * n, sizeof(size_t));
-    secs = lvsi_calloc(ctx, nsec, sizeof *secs);
-    if (!secoff || !secs) goto nomem;
-    secidx = secoff + nsec + 1;
-    size_t *pos = secidx + n;
-    for (size_t i = 0; i < n; i++) secoff[seccomp[i] + 1]++;
-    for (size_t c = 0; c < nsec; c++) secoff[c + 1] += secoff[c];
-    for (size_t c = 0; c < nsec; c++) secs[c].n = 0;
+  for (size_t j = 0; j < n; j++)
     for (size_t i = 0; i < n; i++) {
-      size_t c = seccomp[i];
-      pos[i] = secs[c].n++;
-      secidx[secoff[c] + pos[i]] = i;
+      double re, im;
+      size_t at = j * n + i;
+      lvs_matrix_get(dh, i, j, &re, &im);
+      if (cplx) { jb->h0a[2 * at] = re; jb->h0a[2 * at + 1] = im; } else jb->h0a[at] = re;
+      lvs_matrix_get(dv, i, j, &re, &im);
+      if (cplx) { jb->va[2 * at] = re; jb->va[2 * at + 1] = im; } else jb->va[at] = re;
     }
-    for (size_t j = 0; j < n; j++)
-      for (size_t i = j + 1; i < n && i <= j + (size_t)md.kd; i++)
-        if (h0a[j * n + i] != 0 || va[j * n + i] != 0) {
-          size_t c = seccomp[i], d = pos[i] - pos[j];
-          if (d > secs[c].kd) secs[c].kd = d;
-        }
-    size_t tot = 0;
-    for (size_t c = 0; c < nsec; c++) {
-      if (secs[c].kd < 1) secs[c].kd = 1;
-      tot += 2 * (secs[c].kd + 1) * secs[c].n;
-    }
-    secband = lvsi_calloc(ctx, tot, sizeof(double));
-    if (!secband) goto nomem;
-    double *at = secband;
-    for (size_t c = 0; c < nsec; c++) {
-      size_t ld = secs[c].kd + 1, nc = secs[c].n;
-      const size_t *idx = secidx + secoff[c];
-      for (size_t b = 0; b < nc; b++)
-        for (size_t r = 0; r < ld && b + r < nc; r++) {
-          size_t gi = idx[b + r], gj = idx[b];
-          at[b * ld + r] = h0a[gj * n + gi];
-          at[ld * nc + b * ld + r] = va[gj * n + gi];
-        }
-      secs[c].hb0 = at;
-      secs[c].vb = at + ld * nc;
-      at += 2 * ld * nc;
-    }
-    md.nsec = nsec;
-    md.secoff = secoff;
-    md.secidx = secidx;
-    md.sec = secs;
+  if (!cplx && n >= 16 && !jb->spec->family) {
+    jb->seccomp = lvsi_malloc(ctx, n * sizeof(size_t));
+    if (!jb->seccomp) st = job_nomem(jb);
+    else st = lvsi_components(dh, dv, jb->seccomp, &jb->nsec);
   }
+out:
+  lvs_matrix_free(dh);
+  lvs_matrix_free(dv);
+  return st;
+}
 
-  s = lvsi_calloc(ctx, 1, sizeof *s);
-  if (!s) goto nomem;
-  s->ctx = ctx;
-  s->n = n;
-  s->count = count;
-  s->npts = npts;
-  s->from = spec->from;
-  s->to = spec->to;
+/* phase 2b: the band path when H0 and V are real and banded (4 kd <= n) */
+static int model_band(sweep_job *jb) {
+  size_t n = jb->n;
+  if (jb->cplx || n < 16 || jb->spec->family) return LVS_OK;
+  long k1 = bandwidth(jb->h0a, n), k2 = bandwidth(jb->va, n);
+  long kd = k1 > k2 ? k1 : k2;
+  if (!(kd >= 1 && 4 * (size_t)kd <= n)) return LVS_OK;
+  size_t ld = (size_t)kd + 1;
+  jb->bandst = lvsi_calloc(jb->ctx, 2 * ld * n, sizeof(double));
+  if (!jb->bandst) return job_nomem(jb);
+  for (size_t j = 0; j < n; j++)
+    for (size_t r = 0; r < ld && j + r < n; r++) {
+      jb->bandst[j * ld + r] = jb->h0a[j * n + j + r];
+      jb->bandst[ld * n + j * ld + r] = jb->va[j * n + j + r];
+    }
+  jb->md.kd = kd;
+  jb->md.hb0 = jb->bandst;
+  jb->md.vb = jb->bandst + ld * n;
+  return LVS_OK;
+}
+
+/* phase 2c: per symmetry sector (band path, >= 2 sectors): its states
+ * ascending, its half-bandwidth in that order (never above the full one),
+ * its band storage */
+static int model_sectors(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  size_t n = jb->n, nsec = jb->nsec;
+  const size_t *seccomp = jb->seccomp;
+  const double *h0a = jb->h0a, *va = jb->va;
+  if (jb->md.kd < 0 || nsec < 2) return LVS_OK;
+  size_t *secoff = jb->secoff = lvsi_calloc(ctx, nsec + 1 + 2 * n, sizeof(size_t));
+  bandmod *secs = jb->secs = lvsi_calloc(ctx, nsec, sizeof *secs);
+  if (!secoff || !secs) return job_nomem(jb);
+  size_t *secidx = jb->secidx = secoff + nsec + 1;
+  size_t *pos = secidx + n;
+  for (size_t i = 0; i < n; i++) secoff[seccomp[i] + 1]++;
+  for (size_t c = 0; c < nsec; c++) secoff[c + 1] += secoff[c];
+  for (size_t c = 0; c < nsec; c++) secs[c].n = 0;
+  for (size_t i = 0; i < n; i++) {
+    size_t c = seccomp[i];
+    pos[i] = secs[c].n++;
+    secidx[secoff[c] + pos[i]] = i;
+  }
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = j + 1; i < n && i <= j + (size_t)jb->md.kd; i++)
+      if (h0a[j * n + i] != 0 || va[j * n + i] != 0) {
+        size_t c = seccomp[i], d = pos[i] - pos[j];
+        if (d > secs[c].kd) secs[c].kd = d;
+      }
+  size_t tot = 0;
+  for (size_t c = 0; c < nsec; c++) {
+    if (secs[c].kd < 1) secs[c].kd = 1;
+    tot += 2 * (secs[c].kd + 1) * secs[c].n;
+  }
+  double *at = jb->secband = lvsi_calloc(ctx, tot, sizeof(double));
+  if (!at) return job_nomem(jb);
+  for (size_t c = 0; c < nsec; c++) {
+    size_t ld = secs[c].kd + 1, nc = secs[c].n;
+    const size_t *idx = secidx + secoff[c];
+    for (size_t b = 0; b < nc; b++)
+      for (size_t r = 0; r < ld && b + r < nc; r++) {
+        size_t gi = idx[b + r], gj = idx[b];
+        at[b * ld + r] = h0a[gj * n + gi];
+        at[ld * nc + b * ld + r] = va[gj * n + gi];
+      }
+    secs[c].hb0 = at;
+    secs[c].vb = at + ld * nc;
+    at += 2 * ld * nc;
+  }
+  jb->md.nsec = nsec;
+  jb->md.secoff = secoff;
+  jb->md.secidx = secidx;
+  jb->md.sec = secs;
+  return LVS_OK;
+}
+
+/* phase 2: the model each point is solved on */
+static int model_setup(sweep_job *jb) {
+  const lvs_sweep_spec *spec = jb->spec;
+  int st;
+  if ((st = model_dense(jb))) return st;
+  jb->md = (model){jb->n, jb->count, jb->cplx, jb->h0a, jb->va, -1, NULL, NULL, spec->family, spec->family_ud,
+                   0, NULL, NULL, NULL};
+  if ((st = model_band(jb))) return st;
+  return model_sectors(jb);
+}
+
+/* phase 3: the result object, energies NaN until tracked */
+static int result_new(sweep_job *jb) {
+  lvs_sweep *s = jb->s = lvsi_calloc(jb->ctx, 1, sizeof *s);
+  if (!s) return job_nomem(jb);
+  s->ctx = jb->ctx;
+  s->n = jb->n;
+  s->count = jb->count;
+  s->npts = jb->npts;
+  s->from = jb->spec->from;
+  s->to = jb->spec->to;
   s->min_overlap = 1.0;
-  s->e = lvsi_malloc(ctx, count * npts * sizeof(double));
-  if (!s->e) goto nomem;
-  for (size_t q = 0; q < count * npts; q++) s->e[q] = NAN;
+  s->e = lvsi_malloc(jb->ctx, jb->count * jb->npts * sizeof(double));
+  if (!s->e) return job_nomem(jb);
+  for (size_t q = 0; q < jb->count * jb->npts; q++) s->e[q] = NAN;
+  return LVS_OK;
+}
 
-  /* journal: own file plus (whole runs) the part files of shards */
+/* is point k this process's to compute (all of them unless a shard) */
+static int point_mine(const lvs_sweep_spec *spec, size_t k) {
+  return !spec->shards || k % spec->shards == spec->shard - 1;
+}
+
+/* phase 4: the journal (own file plus, for whole runs, the part files of
+ * shards), what it already holds, and the merge's completeness check */
+static int journal_setup(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  const lvs_sweep_spec *spec = jb->spec;
+  journal *jn = &jb->jn;
+  shared_out *so = &jb->so;
+  size_t n = jb->n, count = jb->count, npts = jb->npts;
+  int st;
   if (spec->journal && *spec->journal) {
-    jn.n = n;
-    jn.count = count;
-    jn.npts = npts;
-    jn.cplx = cplx;
+    jn->n = n;
+    jn->count = count;
+    jn->npts = npts;
+    jn->cplx = jb->cplx;
     uint64_t h = FNV0;
-    size_t len = n * n * (cplx ? 2 : 1);
-    uint64_t hdr[4] = {n, count, steps, (uint64_t)cplx};
+    size_t len = n * n * (jb->cplx ? 2 : 1);
+    uint64_t hdr[4] = {n, count, jb->steps, (uint64_t)jb->cplx};
     h = fnv(h, hdr, sizeof hdr);
     h = fnv(h, &spec->from, sizeof(double));
     h = fnv(h, &spec->to, sizeof(double));
-    h = fnv(h, h0a, len * sizeof(double));
-    h = fnv(h, va, len * sizeof(double));
-    jn.hash = h;
-    jn.recsize = 8 * (2 + count + n * count * (cplx ? 2 : 1));
-    if ((st = journal_open(ctx, &jn, spec->journal, spec->shard, spec->shards, spec->merge_only))) goto fail;
-    so.j = &jn;
+    h = fnv(h, jb->h0a, len * sizeof(double));
+    h = fnv(h, jb->va, len * sizeof(double));
+    jn->hash = h;
+    jn->recsize = 8 * (2 + count + n * count * (jb->cplx ? 2 : 1));
+    if ((st = journal_open(ctx, jn, spec->journal, spec->shard, spec->shards, spec->merge_only))) return st;
+    so->j = jn;
     /* remember the files to remove after the final write */
-    s->used = lvsi_calloc(ctx, (size_t)jn.nfiles + 1, sizeof(char *));
-    if (!s->used) goto nomem;
-    for (int i = 0; i < jn.nfiles; i++)
-      if (!(s->used[i] = dupstr(ctx, jn.names[i]))) goto nomem;
-    rec = lvsi_malloc(ctx, jn.recsize);
-    if (!rec) goto nomem;
+    jb->s->used = lvsi_calloc(ctx, (size_t)jn->nfiles + 1, sizeof(char *));
+    if (!jb->s->used) return job_nomem(jb);
+    for (int i = 0; i < jn->nfiles; i++)
+      if (!(jb->s->used[i] = dupstr(ctx, jn->names[i]))) return job_nomem(jb);
+    jb->rec = lvsi_malloc(ctx, jn->recsize);
+    if (!jb->rec) return job_nomem(jb);
   }
-  so.progress = spec->progress;
-  so.progress_ud = spec->progress_ud;
+  so->progress = spec->progress;
+  so->progress_ud = spec->progress_ud;
   for (size_t k = 0; k < npts; k++) {
-    int mine = !spec->shards || k % spec->shards == spec->shard - 1;
-    if (!mine) continue;
-    so.total++;
-    if (so.j && jn.rec_file[k] >= 0) so.done++;
+    if (!point_mine(spec, k)) continue;
+    so->total++;
+    if (so->j && jn->rec_file[k] >= 0) so->done++;
   }
-  if (spec->merge_only && so.done < so.total) {
+  if (spec->merge_only && so->done < so->total) {
     for (size_t k = 0; k < npts; k++)
-      if (jn.rec_file[k] < 0) {
-        st = lvsi_fail(ctx, LVS_EINVAL,
-                       "merge: %zu of %zu points are in no part file (first: point %zu, p = %.17g); "
-                       "run the missing shards first",
-                       so.total - so.done, so.total, k + 1, grid_p(spec->from, spec->to, steps, k));
-        goto fail;
-      }
+      if (jn->rec_file[k] < 0)
+        return lvsi_fail(ctx, LVS_EINVAL,
+                         "merge: %zu of %zu points are in no part file (first: point %zu, p = %.17g); "
+                         "run the missing shards first",
+                         so->total - so->done, so->total, k + 1, grid_p(spec->from, spec->to, jb->steps, k));
   }
-  if (so.progress) so.progress(so.progress_ud, so.done, so.total);
+  if (so->progress) so->progress(so->progress_ud, so->done, so->total);
+  return LVS_OK;
+}
 
-  /* block size: about 4 MB of vectors (reused, so few fresh pages), at
-   * least one point per thread */
+/* energy scale for tolerances: largest |entry| of H at both ends */
+static double energy_scale(const sweep_job *jb) {
+  const lvs_sweep_spec *spec = jb->spec;
+  double escale = 0;
+  size_t len = jb->n * jb->n * (jb->cplx ? 2 : 1);
+  for (size_t i = 0; i < len; i++) {
+    double a1 = fabs(jb->h0a[i] + spec->from * jb->va[i]), a2 = fabs(jb->h0a[i] + spec->to * jb->va[i]);
+    if (spec->family) { a1 = fabs(jb->h0a[i]); a2 = fabs(jb->va[i]); } /* H(from), H(to) */
+    if (a1 > escale) escale = a1;
+    if (a2 > escale) escale = a2;
+  }
+  return escale == 0 ? 1 : escale;
+}
+
+/* phase 5: block size (about 4 MB of vectors, reused, so few fresh pages;
+ * at least one point per thread) and the buffers of points and tracking */
+static int points_alloc(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  size_t n = jb->n, count = jb->count, nthreads = (size_t)jb->nthreads;
+  int cplx = jb->cplx, st;
   size_t per = n * count * sizeof(double complex);
   size_t blk = (size_t)(4u << 20) / (per ? per : 1);
-  if (blk < (size_t)nthreads) blk = (size_t)nthreads;
-  if (spec->family) { /* H(p_k) of a block held densely: about 64 MB */
+  if (blk < nthreads) blk = nthreads;
+  if (jb->spec->family) { /* H(p_k) of a block held densely: about 64 MB */
     size_t hb = (size_t)(64u << 20) / (n * n * sizeof(double) * (cplx ? 2 : 1));
-    if (hb < (size_t)nthreads) hb = (size_t)nthreads;
+    if (hb < nthreads) hb = nthreads;
     if (blk > hb) blk = hb;
   }
-  if (blk > npts) blk = npts;
-  if ((st = lvsi_dense_ok(ctx, blk, n * count, sizeof(double complex), "sweep (vectors of a block)")))
-    goto fail;
-  if (spec->family) {
-    if ((st = lvsi_dense_ok(ctx, blk, n * n * (cplx ? 2 : 1), sizeof(double), "sweep (H(p) of a block)"))) goto fail;
-    hbuf = lvsi_malloc(ctx, blk * n * n * (cplx ? 2 : 1) * sizeof(double));
-    if (!hbuf) goto nomem;
+  if (blk > jb->npts) blk = jb->npts;
+  jb->blk = blk;
+  if ((st = lvsi_dense_ok(ctx, blk, n * count, sizeof(double complex), "sweep (vectors of a block)"))) return st;
+  if (jb->spec->family) {
+    if ((st = lvsi_dense_ok(ctx, blk, n * n * (cplx ? 2 : 1), sizeof(double), "sweep (H(p) of a block)"))) return st;
+    if (!(jb->hbuf = lvsi_malloc(ctx, blk * n * n * (cplx ? 2 : 1) * sizeof(double)))) return job_nomem(jb);
   }
-  wblk = lvsi_malloc(ctx, blk * count * sizeof(double));
-  vblk = lvsi_malloc(ctx, blk * n * count * sizeof(double complex));
-  prev = lvsi_malloc(ctx, n * count * sizeof(double complex));
-  tmp = lvsi_malloc(ctx, n * count * sizeof(double complex));
-  work_d = lvsi_malloc(ctx, (count * count + 3 * (count + 1) + count) * sizeof(double));
-  pi = lvsi_malloc(ctx, count * sizeof(size_t));
-  perm = lvsi_malloc(ctx, count * sizeof(size_t));
-  iw = lvsi_malloc(ctx, 2 * (count + 1) * sizeof(size_t));
-  todo = lvsi_malloc(ctx, blk * sizeof(size_t));
-  cw = lvsi_malloc(ctx, count + 1);
-  if (!wblk || !vblk || !prev || !tmp || !work_d || !pi || !perm || !iw || !todo || !cw) goto nomem;
-  double *cost = work_d, *hu = cost + count * count, *hv = hu + count + 1, *hmin = hv + count + 1,
+  jb->wblk = lvsi_malloc(ctx, blk * count * sizeof(double));
+  jb->vblk = lvsi_malloc(ctx, blk * n * count * sizeof(double complex));
+  jb->prev = lvsi_malloc(ctx, n * count * sizeof(double complex));
+  jb->tmp = lvsi_malloc(ctx, n * count * sizeof(double complex));
+  jb->work_d = lvsi_malloc(ctx, (count * count + 3 * (count + 1) + count) * sizeof(double));
+  jb->pi = lvsi_malloc(ctx, count * sizeof(size_t));
+  jb->perm = lvsi_malloc(ctx, count * sizeof(size_t));
+  jb->iw = lvsi_malloc(ctx, 2 * (count + 1) * sizeof(size_t));
+  jb->todo = lvsi_malloc(ctx, blk * sizeof(size_t));
+  jb->cw = lvsi_malloc(ctx, count + 1);
+  if (!jb->wblk || !jb->vblk || !jb->prev || !jb->tmp || !jb->work_d || !jb->pi || !jb->perm || !jb->iw ||
+      !jb->todo || !jb->cw)
+    return job_nomem(jb);
+  jb->escale = energy_scale(jb);
+  jb->degen_tol = 1e-10 * jb->escale;
+  return LVS_OK;
+}
+
+/* phase 6b: sequential tracking through the block [k0, k1) */
+static void track_block(sweep_job *jb, size_t k0, size_t k1) {
+  size_t n = jb->n, count = jb->count, npts = jb->npts;
+  lvs_sweep *s = jb->s;
+  size_t *perm = jb->perm, *pi = jb->pi;
+  double complex *prev = jb->prev;
+  double *cost = jb->work_d, *hu = cost + count * count, *hv = hu + count + 1, *hmin = hv + count + 1,
          *norm2 = hmin + count + 1;
-
-  /* energy scale for tolerances: largest |entry| of H at both ends */
-  double escale = 0;
-  {
-    size_t len = n * n * (cplx ? 2 : 1);
-    for (size_t i = 0; i < len; i++) {
-      double a1 = fabs(h0a[i] + spec->from * va[i]), a2 = fabs(h0a[i] + spec->to * va[i]);
-      if (spec->family) { a1 = fabs(h0a[i]); a2 = fabs(va[i]); } /* H(from), H(to) */
-      if (a1 > escale) escale = a1;
-      if (a2 > escale) escale = a2;
+  for (size_t k = k0; k < k1; k++) {
+    double *w = jb->wblk + (k - k0) * count;
+    double complex *u = jb->vblk + (k - k0) * n * count;
+    if (k == 0) {
+      for (size_t a = 0; a < count; a++) perm[a] = a;
+    } else {
+      fix_degenerate(n, count, w, u, prev, jb->degen_tol, jb->tmp, norm2, jb->cw);
+      for (size_t i = 0; i < count; i++)
+        for (size_t j = 0; j < count; j++) cost[i * count + j] = -cabs(dotc(prev + i * n, u + j * n, n));
+      hungarian(count, cost, pi, hu, hv, hmin, jb->iw, jb->iw + count + 1, jb->cw);
+      /* pi maps previous column i to current column pi[i]; tracked level
+       * a sat in previous column perm[a] */
+      for (size_t a = 0; a < count; a++) {
+        size_t i = perm[a], j = pi[i];
+        double ov = -cost[i * count + j];
+        if (ov < s->min_overlap) s->min_overlap = ov;
+        perm[a] = j;
+      }
+      /* phase fix of the current vectors against their predecessors */
+      for (size_t i = 0; i < count; i++) {
+        size_t j = pi[i];
+        double complex o = dotc(prev + i * n, u + j * n, n);
+        double ao = cabs(o);
+        if (ao > 0) {
+          double complex f = conj(o) / ao;
+          for (size_t r = 0; r < n; r++) u[j * n + r] *= f;
+        }
+      }
     }
-    if (escale == 0) escale = 1;
+    for (size_t a = 0; a < count; a++) s->e[a * npts + k] = w[perm[a]];
+    memcpy(prev, u, n * count * sizeof *prev);
   }
-  double degen_tol = 1e-10 * escale;
+}
 
+/* phase 6a: the points of block [k0, k1) from the journal or computed */
+static int block_points(sweep_job *jb, size_t k0, size_t k1) {
+  lvs_ctx *ctx = jb->ctx;
+  const lvs_sweep_spec *spec = jb->spec;
+  size_t n = jb->n, count = jb->count, ntodo = 0;
+  int st;
+  for (size_t k = k0; k < k1; k++) {
+    if (!point_mine(spec, k)) continue;
+    if (jb->so.j && jb->jn.rec_file[k] >= 0) {
+      if (spec->shards) continue; /* a shard only adds to its part */
+      if ((st = load_record(ctx, &jb->jn, k, jb->wblk + (k - k0) * count, jb->vblk + (k - k0) * n * count, jb->rec)))
+        return st;
+    } else {
+      jb->todo[ntodo++] = k;
+    }
+  }
+  size_t hlen = n * n * (jb->cplx ? 2 : 1);
+  if (jb->md.family)
+    for (size_t t = 0; t < ntodo; t++)
+      if ((st = family_at(ctx, &jb->md, grid_p(spec->from, spec->to, jb->steps, jb->todo[t]),
+                          jb->hbuf + (jb->todo[t] - k0) * hlen)))
+        return st;
+  worker tmpl = {&jb->md, spec->from, spec->to, jb->steps, k0, jb->todo, ntodo, jb->md.family ? jb->hbuf : NULL,
+                 hlen, jb->wblk, jb->vblk, 0, 1, &jb->la, ctx->dense_cap, &jb->so, LVS_OK, {0}};
+  return run_workers(ctx, &tmpl, jb->nthreads);
+}
+
+/* phase 6: every point, block by block, each block tracked after it is
+ * complete (a shard only computes its points into its part file) */
+static int points_run(sweep_job *jb) {
+  int st = LVS_OK;
   /* one BLAS thread always: no oversubscription, and OpenBLAS's own
    * threading would make the rounding depend on the thread count */
-  blas_threads = lvsi_blas_threads(); /* OpenBLAS thread control: lazyla.c */
-  if (blas_threads > 0) {
+  jb->blas_threads = lvsi_blas_threads(); /* OpenBLAS thread control: lazyla.c */
+  if (jb->blas_threads > 0) {
     lvsi_set_blas_threads(1);
     /* OpenBLAS's idle pool threads spin (sched_yield) for about 2^28 cycles
      * after start-up or their last job, taking a core from the workers (25%
      * of a 2-core sweep, measured with perf); stopping the pool lets the
      * workers have the cores. OpenBLAS starts it again on its next threaded
      * call (its fork handler uses the same entry). */
-    if (nthreads > 1 && blas_threads > 1) lvsi_blas_pool_stop();
+    if (jb->nthreads > 1 && jb->blas_threads > 1) lvsi_blas_pool_stop();
   }
-  for (size_t k0 = 0; k0 < npts; k0 += blk) {
-    size_t k1 = k0 + blk < npts ? k0 + blk : npts;
-    size_t ntodo = 0;
-    for (size_t k = k0; k < k1; k++) {
-      int mine = !spec->shards || k % spec->shards == spec->shard - 1;
-      if (!mine) continue;
-      if (so.j && jn.rec_file[k] >= 0) {
-        if (spec->shards) continue; /* a shard only adds to its part */
-        if ((st = load_record(ctx, &jn, k, wblk + (k - k0) * count, vblk + (k - k0) * n * count, rec)))
-          goto fail;
-      } else {
-        todo[ntodo++] = k;
-      }
-    }
-    size_t hlen = n * n * (cplx ? 2 : 1);
-    if (md.family)
-      for (size_t t = 0; t < ntodo; t++)
-        if ((st = family_at(ctx, &md, grid_p(spec->from, spec->to, steps, todo[t]), hbuf + (todo[t] - k0) * hlen)))
-          goto fail;
-    worker tmpl = {&md, spec->from, spec->to, steps, k0, todo, ntodo, md.family ? hbuf : NULL, hlen, wblk, vblk,
-                   0, 1, &la, ctx->dense_cap, &so, LVS_OK, {0}};
-    if ((st = run_workers(ctx, &tmpl, nthreads))) goto fail;
-    if (spec->shards) continue;
-    /* sequential tracking through the block */
-    for (size_t k = k0; k < k1; k++) {
-      double *w = wblk + (k - k0) * count;
-      double complex *u = vblk + (k - k0) * n * count;
-      if (k == 0) {
-        for (size_t a = 0; a < count; a++) perm[a] = a;
-      } else {
-        fix_degenerate(n, count, w, u, prev, degen_tol, tmp, norm2, cw);
-        for (size_t i = 0; i < count; i++)
-          for (size_t j = 0; j < count; j++) cost[i * count + j] = -cabs(dotc(prev + i * n, u + j * n, n));
-        hungarian(count, cost, pi, hu, hv, hmin, iw, iw + count + 1, cw);
-        /* pi maps previous column i to current column pi[i]; tracked level
-         * a sat in previous column perm[a] */
-        for (size_t a = 0; a < count; a++) {
-          size_t i = perm[a], j = pi[i];
-          double ov = -cost[i * count + j];
-          if (ov < s->min_overlap) s->min_overlap = ov;
-          perm[a] = j;
+  for (size_t k0 = 0; k0 < jb->npts && !st; k0 += jb->blk) {
+    size_t k1 = k0 + jb->blk < jb->npts ? k0 + jb->blk : jb->npts;
+    st = block_points(jb, k0, k1);
+    if (!st && !jb->spec->shards) track_block(jb, k0, k1);
+  }
+  if (jb->blas_threads > 0) {
+    lvsi_set_blas_threads(jb->blas_threads);
+    jb->blas_threads = 0;
+  }
+  return st;
+}
+
+/* phase 7: levels exactly degenerate at `from` come out of LAPACK in no
+ * particular order: number them by their energies at the next grid point,
+ * so that "level a is the a-th lowest at from" also holds just after from */
+static void number_degenerate_start(sweep_job *jb) {
+  size_t count = jb->count, npts = jb->npts;
+  double *e = jb->s->e;
+  if (npts < 2) return;
+  for (size_t a = 0; a < count;) {
+    size_t b = a + 1;
+    while (b < count && fabs(e[b * npts] - e[a * npts]) <= jb->degen_tol) b++;
+    for (size_t i = a + 1; i < b; i++) /* insertion sort of rows a..b-1 by e at k = 1 */
+      for (size_t j = i; j > a && e[j * npts + 1] < e[(j - 1) * npts + 1]; j--)
+        for (size_t k = 0; k < npts; k++) {
+          double t = e[j * npts + k];
+          e[j * npts + k] = e[(j - 1) * npts + k];
+          e[(j - 1) * npts + k] = t;
         }
-        /* phase fix of the current vectors against their predecessors */
-        for (size_t i = 0; i < count; i++) {
-          size_t j = pi[i];
-          double complex o = dotc(prev + i * n, u + j * n, n);
-          double ao = cabs(o);
-          if (ao > 0) {
-            double complex f = conj(o) / ao;
-            for (size_t r = 0; r < n; r++) u[j * n + r] *= f;
-          }
-        }
-      }
-      for (size_t a = 0; a < count; a++) s->e[a * npts + k] = w[perm[a]];
-      memcpy(prev, u, n * count * sizeof *prev);
+    a = b;
+  }
+}
+
+/* golden-section search for the smallest gap between ranks r and r+1 of
+ * H(p) on [p_{k-1}, p_{k+1}], starting from the grid's (p_k, g_k) */
+static int refine_gap(sweep_job *jb, size_t k, size_t r, double gk, double *best_p, double *best_g) {
+  lvs_ctx *ctx = jb->ctx;
+  const model *md = &jb->md;
+  double *wg = jb->work_d + jb->count * jb->count; /* count + 1 >= r + 2 values */
+  const double gr = (sqrt(5.0) - 1) / 2;
+  double a = grid_p(jb->s->from, jb->s->to, jb->steps, k - 1), b = grid_p(jb->s->from, jb->s->to, jb->steps, k + 1);
+  double bp = grid_p(jb->s->from, jb->s->to, jb->steps, k), bg = gk;
+  double x1 = b - gr * (b - a), x2 = a + gr * (b - a), f1, f2;
+  int st;
+  lvs_clear_error(ctx);
+  if ((st = gap_at(ctx, md, x1, r, wg, &f1)) || (st = gap_at(ctx, md, x2, r, wg, &f2))) return st;
+  for (int it = 0; it < 200 && fabs(b - a) > 1e-15 * (fabs(a) + fabs(b)) + 1e-300; it++) {
+    if (f1 <= f2) {
+      b = x2; x2 = x1; f2 = f1;
+      x1 = b - gr * (b - a);
+      if ((st = gap_at(ctx, md, x1, r, wg, &f1))) return st;
+    } else {
+      a = x1; x1 = x2; f1 = f2;
+      x2 = a + gr * (b - a);
+      if ((st = gap_at(ctx, md, x2, r, wg, &f2))) return st;
     }
   }
-  if (blas_threads > 0) {
-    lvsi_set_blas_threads(blas_threads);
-    blas_threads = 0;
+  if (f1 < bg) { bg = f1; bp = x1; }
+  if (f2 < bg) { bg = f2; bp = x2; }
+  *best_p = bp;
+  *best_g = bg < 0 ? 0 : bg;
+  return LVS_OK;
+}
+
+/* phase 8: crossings, the local minima of adjacent gaps over the grid,
+ * refined; rank r at point k is the tracked level with the r-th smallest
+ * energy there (ties by level number), from sorted copies of points k-1,
+ * k, k+1 */
+static int find_crossings(sweep_job *jb) {
+  lvs_sweep *s = jb->s;
+  size_t count = jb->count, npts = jb->npts;
+  if (npts < 3 || count < 2) return LVS_OK;
+  ranked *srt = jb->srt = lvsi_malloc(jb->ctx, 3 * count * sizeof *srt);
+  if (!srt) return job_nomem(jb);
+  double scale = 0;
+  for (size_t q = 0; q < count * npts; q++)
+    if (fabs(s->e[q]) > scale) scale = fabs(s->e[q]);
+  if (scale == 0) scale = jb->escale;
+  double dtol = 1e-12 * scale, ctol = 1e-9 * scale;
+  int st;
+  for (size_t k = 1; k + 1 < npts; k++) {
+    for (int d = 0; d < 3; d++) {
+      ranked *S = srt + (size_t)d * count;
+      for (size_t a = 0; a < count; a++) {
+        S[a].e = s->e[a * npts + k - 1 + (size_t)d];
+        S[a].a = a;
+      }
+      qsort(S, count, sizeof *S, cmp_ranked);
+    }
+    for (size_t r = 0; r + 1 < count; r++) {
+      double g[3];
+      for (int d = 0; d < 3; d++) g[d] = srt[(size_t)d * count + r + 1].e - srt[(size_t)d * count + r].e;
+      if (!(g[1] < g[0] - dtol && g[1] <= g[2] + dtol)) continue;
+      lvs_sweep_crossing c;
+      if ((st = refine_gap(jb, k, r, g[1], &c.at, &c.gap))) return st;
+      size_t i = srt[count + r].a, j = srt[count + r + 1].a;
+      c.i = i < j ? i : j;
+      c.j = i < j ? j : i;
+      c.avoided = c.gap > ctol;
+      if ((st = add_crossing(s, &jb->ccap, &c))) return st;
+    }
   }
+  if (s->ncross > 1) qsort(s->cross, s->ncross, sizeof *s->cross, cmp_cross);
+  return LVS_OK;
+}
+
+static void job_free(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  if (jb->blas_threads > 0) lvsi_set_blas_threads(jb->blas_threads);
+  journal_close(ctx, &jb->jn);
+  void *bufs[] = {jb->h0a, jb->va, jb->bandst, jb->seccomp, jb->secoff, jb->secs, jb->secband, jb->hbuf,
+                  jb->wblk, jb->vblk, jb->prev, jb->tmp, jb->work_d, jb->pi, jb->perm, jb->iw,
+                  jb->todo, jb->cw, jb->srt, jb->rec};
+  for (size_t i = 0; i < sizeof bufs / sizeof bufs[0]; i++) lvsi_free(ctx, bufs[i]);
+  pthread_mutex_destroy(&jb->la.mu);
+  pthread_mutex_destroy(&jb->so.mu);
+}
+
+/* The phases in order: spec checks, model setup, result, journal
+ * open/resume, points computed and tracked block by block, numbering at
+ * `from`, crossings, series. A shard stops after its points. */
+int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
+  if (out) *out = NULL;
+  if (!ctx || !out) return LVS_EINVAL;
+  int st = spec_check(ctx, spec);
+  if (st) return st;
+  sweep_job jb;
+  memset(&jb, 0, sizeof jb);
+  jb.ctx = ctx;
+  jb.spec = spec;
+  jb.n = lvs_matrix_rows(spec->h0);
+  jb.count = spec->count;
+  jb.steps = spec->steps;
+  jb.npts = spec->steps + 1;
+  jb.cplx = lvs_matrix_is_complex(spec->h0) || lvs_matrix_is_complex(spec->v);
+  jb.nthreads = spec->threads ? spec->threads : 2;
+  jb.la.f = ctx->alloc;
+  jb.la.ud = ctx->ud;
+  pthread_mutex_init(&jb.la.mu, NULL);
+  jb.jn.fd = -1;
+  pthread_mutex_init(&jb.so.mu, NULL);
+  if ((st = model_setup(&jb)) || (st = result_new(&jb)) || (st = journal_setup(&jb)) || (st = points_alloc(&jb)) ||
+      (st = points_run(&jb)))
+    goto fail;
   if (spec->shards) {
-    s->partial = 1;
-    s->done = so.done;
-    goto finish;
+    jb.s->partial = 1;
+    jb.s->done = jb.so.done;
+  } else {
+    number_degenerate_start(&jb);
+    if ((st = find_crossings(&jb))) goto fail;
+    if (spec->series_order > 0 && (st = add_series(jb.s, spec))) goto fail;
   }
-
-  /* Levels exactly degenerate at `from` come out of LAPACK in no particular
-   * order: number them by their energies at the next grid point, so that
-   * "level a is the a-th lowest at from" also holds just after from. */
-  if (npts >= 2) {
-    for (size_t a = 0; a < count;) {
-      size_t b = a + 1;
-      while (b < count && fabs(s->e[b * npts] - s->e[a * npts]) <= degen_tol) b++;
-      for (size_t i = a + 1; i < b; i++) /* insertion sort of rows a..b-1 by e at k = 1 */
-        for (size_t j = i; j > a && s->e[j * npts + 1] < s->e[(j - 1) * npts + 1]; j--)
-          for (size_t k = 0; k < npts; k++) {
-            double t = s->e[j * npts + k];
-            s->e[j * npts + k] = s->e[(j - 1) * npts + k];
-            s->e[(j - 1) * npts + k] = t;
-          }
-      a = b;
-    }
-  }
-
-  /* crossings: local minima of adjacent gaps over the grid, refined */
-  if (npts >= 3 && count >= 2) {
-    /* rank r at point k is the tracked level with the r-th smallest energy
-     * there (ties by level number); sorted copies of points k-1, k, k+1 */
-    srt = lvsi_malloc(ctx, 3 * count * sizeof *srt);
-    if (!srt) goto nomem;
-    double scale = 0;
-    for (size_t q = 0; q < count * npts; q++)
-      if (fabs(s->e[q]) > scale) scale = fabs(s->e[q]);
-    if (scale == 0) scale = escale;
-    double dtol = 1e-12 * scale, ctol = 1e-9 * scale;
-    double *wg = hu; /* count + 1 >= r + 2 values */
-    const double gr = (sqrt(5.0) - 1) / 2;
-    for (size_t k = 1; k + 1 < npts; k++) {
-      for (int d = 0; d < 3; d++) {
-        ranked *S = srt + (size_t)d * count;
-        for (size_t a = 0; a < count; a++) {
-          S[a].e = s->e[a * npts + k - 1 + (size_t)d];
-          S[a].a = a;
-        }
-        qsort(S, count, sizeof *S, cmp_ranked);
-      }
-      for (size_t r = 0; r + 1 < count; r++) {
-        double g[3];
-        for (int d = 0; d < 3; d++) g[d] = srt[(size_t)d * count + r + 1].e - srt[(size_t)d * count + r].e;
-        if (!(g[1] < g[0] - dtol && g[1] <= g[2] + dtol)) continue;
-        /* golden-section search on [p_{k-1}, p_{k+1}] */
-        double a = grid_p(s->from, s->to, steps, k - 1), b = grid_p(s->from, s->to, steps, k + 1);
-        double best_p = grid_p(s->from, s->to, steps, k), best_g = g[1];
-        double x1 = b - gr * (b - a), x2 = a + gr * (b - a), f1, f2;
-        lvs_clear_error(ctx);
-        if ((st = gap_at(ctx, &md, x1, r, wg, &f1)) || (st = gap_at(ctx, &md, x2, r, wg, &f2))) goto fail;
-        for (int it = 0; it < 200 && fabs(b - a) > 1e-15 * (fabs(a) + fabs(b)) + 1e-300; it++) {
-          if (f1 <= f2) {
-            b = x2; x2 = x1; f2 = f1;
-            x1 = b - gr * (b - a);
-            if ((st = gap_at(ctx, &md, x1, r, wg, &f1))) goto fail;
-          } else {
-            a = x1; x1 = x2; f1 = f2;
-            x2 = a + gr * (b - a);
-            if ((st = gap_at(ctx, &md, x2, r, wg, &f2))) goto fail;
-          }
-        }
-        if (f1 < best_g) { best_g = f1; best_p = x1; }
-        if (f2 < best_g) { best_g = f2; best_p = x2; }
-        if (best_g < 0) best_g = 0;
-        lvs_sweep_crossing c;
-        c.at = best_p;
-        c.gap = best_g;
-        size_t i = srt[count + r].a, j = srt[count + r + 1].a;
-        c.i = i < j ? i : j;
-        c.j = i < j ? j : i;
-        c.avoided = best_g > ctol;
-        if ((st = add_crossing(s, &ccap, &c))) goto fail;
-      }
-    }
-    if (s->ncross > 1) qsort(s->cross, s->ncross, sizeof *s->cross, cmp_cross);
-  }
-  if (spec->series_order > 0 && (st = add_series(s, spec))) goto fail;
-
-finish:
-  *out = s;
-  s = NULL;
-  st = LVS_OK;
-  goto done;
-nomem:
-  st = lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory");
+  *out = jb.s;
+  jb.s = NULL;
+  job_free(&jb);
+  return LVS_OK;
 fail:
-  lvs_sweep_free(s);
-done:
-  if (blas_threads > 0) lvsi_set_blas_threads(blas_threads);
-  journal_close(ctx, &jn);
-  lvs_matrix_free(dh);
-  lvs_matrix_free(dv);
-  lvsi_free(ctx, h0a);
-  lvsi_free(ctx, va);
-  lvsi_free(ctx, bandst);
-  lvsi_free(ctx, seccomp);
-  lvsi_free(ctx, secoff);
-  lvsi_free(ctx, secs);
-  lvsi_free(ctx, secband);
-  lvsi_free(ctx, hbuf);
-  lvsi_free(ctx, wblk);
-  lvsi_free(ctx, vblk);
-  lvsi_free(ctx, prev);
-  lvsi_free(ctx, tmp);
-  lvsi_free(ctx, work_d);
-  lvsi_free(ctx, pi);
-  lvsi_free(ctx, perm);
-  lvsi_free(ctx, iw);
-  lvsi_free(ctx, todo);
-  lvsi_free(ctx, cw);
-  lvsi_free(ctx, srt);
-  lvsi_free(ctx, rec);
-  pthread_mutex_destroy(&la.mu);
-  pthread_mutex_destroy(&so.mu);
+  lvs_sweep_free(jb.s);
+  job_free(&jb);
   return st;
 }
 
