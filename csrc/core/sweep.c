@@ -26,7 +26,25 @@
  * is our own (sturm_lowest: all midpoints counted in one pass, to 1e-10 of
  * the 1-norm, then Rayleigh-Ritz), since dstebz's one-shift-at-a-time
  * Sturm counts wait on each division (46% of the bench sweep, perf).
- * Everything else goes through lvs_eigen (dsyevr / zheevr).
+ * Everything else goes through lvs_eigen (dsyevr / zheevr), except:
+ *
+ * Krylov path. A sparse model above LVS_KRYLOV_MIN_DIM states with 8 count
+ * <= n that the band path does not take (the rule: lvs_sweep_method in
+ * levelshift.h; method = LVS_SWEEP_KRYLOV forces it) is never copied
+ * densely: H0 and V are merged once into one CSC pattern with both value
+ * arrays, each point refills a worker-owned CSC H(p) with one multiply-add
+ * per entry and calls lvs_eigen_ex (sectors split per point, so p = 0 gets
+ * the sectors of H0 alone; ARPACK's Lanczos per large sector, residual
+ * tolerance SWEEP_KRYLOV_TOL). Warm starts: the points are cut into runs of
+ * LVS_SWEEP_KRYLOV_RUN consecutive grid points (a function of the grid
+ * only); a worker takes a whole run and starts each point but the run's
+ * first from the sum of the previous point's raw vectors plus a little of
+ * a fixed noise vector (krylov_start), so the numbers do not depend on the
+ * thread count, and shards take whole runs. ARPACK is not reentrant, so
+ * the solves take turns under one lock (arpack_mu): the threads overlap
+ * only the work around them. Crossings on this path are refined by Brent's
+ * method on the exact H(p), each solve started from the one before, and
+ * stop once the gap is a true crossing's (brent_gap).
  *
  * Symmetry sectors. When the band path applies and the union sparsity of
  * H0 and V falls apart into >= 2 connected components (lvsi_components;
@@ -77,9 +95,11 @@
  * journal, so a resumed or merged run gives the same bytes as one run.
  *   base.part            journal of a whole run (resumed by the same call)
  *   base.part.K-of-N     part file of shard K (1-based) of N: the points
- *                        k with k mod N = K - 1 (round-robin: balanced)
+ *                        k with k mod N = K - 1 (round-robin: balanced; on
+ *                        the Krylov path the runs r with r mod N = K - 1)
  * File: 48-byte header (magic "LVSWJ01\n", then n, count, points, complex
- * flag, a 64-bit FNV-1a hash of H0, V, from, to, steps and count), then
+ * flag, a 64-bit FNV-1a hash of H0, V, from, to, steps and count, and of
+ * the path when it is not the one AUTO takes), then
  * fixed-size records: k, count energies, the n x count vectors (real parts
  * only for a real model), and an FNV-1a check of the record. A record torn
  * by a kill fails its length or check and is cut off before appending. A
@@ -114,6 +134,16 @@
 
 #define SWEEP_MAX_STEPS 1000000
 #define SWEEP_MAX_THREADS 64
+/* Krylov path: ARPACK's relative residual tolerance per point (energies to
+ * within tol |E|, and to ~ (tol |E|)^2 / gap away from near-degeneracy), and
+ * where the golden-section search stops, relative to |to - from| (with
+ * energies good to tol |E|, a quadratic gap minimum cannot be located more
+ * finely than ~ sqrt(tol |E| / g'') anyway) */
+#define SWEEP_KRYLOV_TOL 1e-12
+#define SWEEP_KRYLOV_PTOL 1e-8
+/* Krylov path: weight of the fixed noise vector in a warm start (relative
+ * to the start's norm; 1e-3 cost 7% more time, 1e-6 a little less) */
+#define SWEEP_KRYLOV_NOISE 1e-4
 
 
 struct lvs_sweep {
@@ -130,6 +160,7 @@ struct lvs_sweep {
   size_t done;       /* points on disk for a shard */
   char **used;       /* journal files used (to remove), NULL-terminated */
   char *pname, *punit, *eunit;
+  int method;        /* the path taken: LVS_SWEEP_DENSE, _BAND or _KRYLOV */
 };
 
 /* ---- allocator shared by worker threads ---------------------------------- */
@@ -161,6 +192,14 @@ typedef struct {
   size_t nsec;
   const size_t *secoff, *secidx;
   const struct bandmod *sec;
+  /* Krylov path (krylov != 0; h0, v and kd unused): the union pattern of
+   * H0 and V in CSC (kcp, kri; knnz entries) with the values of each on
+   * it (ka0, ka1; complex interleaved when cplx); krylov = 1 passes
+   * LVS_EIGEN_AUTO per point, 2 LVS_EIGEN_KRYLOV (method forced) */
+  int krylov;
+  size_t knnz;
+  const size_t *kcp, *kri;
+  const double *ka0, *ka1;
 } model;
 
 /* a real banded matrix family H0 + p V in lower band storage (kd+1) x n */
@@ -180,6 +219,8 @@ typedef struct {
   lapack_int *ibuf;
   size_t *piv;
   double *rr; /* Rayleigh-Ritz: n x count + count x count */
+  lvs_matrix *kh; /* Krylov path: H(p) on the union pattern, refilled per point */
+  double *kstart; /* Krylov path: the start vector (2n) */
 } band_scratch;
 
 static size_t band_need(size_t n, size_t kd) { return 2 * (kd + 1) * n + 2 * n + 4 * n + (3 * kd + 1) * n + 2 * n; }
@@ -200,6 +241,10 @@ static void band_scratch_free(lvs_ctx *tctx, band_scratch *bs) {
   lvsi_free(tctx, bs->ibuf);
   lvsi_free(tctx, bs->piv);
   lvsi_free(tctx, bs->rr);
+  lvs_matrix_free(bs->kh);
+  lvsi_free(tctx, bs->kstart);
+  bs->kh = NULL;
+  bs->kstart = NULL;
   bs->rr = NULL;
   bs->buf = NULL;
   bs->ibuf = NULL;
@@ -537,12 +582,114 @@ out:
   return st;
 }
 
-/* lowest m energies of H(p) (and vectors as complex n x m when vec != NULL) */
-static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, double *w,
-                          double complex *vec, band_scratch *bs, const double *hfull) {
+/* ---- the Krylov path ------------------------------------------------------
+ * H(p) = H0 + p V is refilled per point into a worker-owned CSC matrix on
+ * the union pattern of H0 and V (one fused multiply-add per stored entry:
+ * no dense copy, no pattern merge per point; exact zeros at p = 0 are
+ * skipped by lvsi_components, so p = 0 keeps the sectors of H0 alone) and
+ * solved by lvs_eigen_ex (sectors split, ARPACK per large sector). */
+
+/* ARPACK keeps the state of its reverse-communication loop in Fortran SAVE
+ * variables (dsaupd/dsaup2/dsaitr ...), so two runs at once in one process
+ * corrupt each other (seen here as "corrupted size" aborts and runs ending
+ * after a few restarts with info 1). The Krylov path's solves therefore
+ * take turns: this lock is process-wide because that state is. */
+static pthread_mutex_t arpack_mu = PTHREAD_MUTEX_INITIALIZER;
+
+/* fixed pseudo-random entry i in [-0.5, 0.5) (splitmix64 of the index):
+ * no structure, so every eigenvector of H(p) has a part in it */
+static double noise_at(size_t i) {
+  uint64_t z = 0x73776565ULL + 0x9e3779b97f4a7c15ULL * (uint64_t)(i + 1);
+  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+  z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+  z ^= z >> 31;
+  return (double)(z >> 11) * 0x1.0p-53 - 0.5;
+}
+
+/* H(p) into bs->kh (made on first use, pattern copied once) */
+static int krylov_form(lvs_ctx *tctx, const model *md, double p, band_scratch *bs) {
+  size_t n = md->n, nnz = md->knnz, len = nnz * (md->cplx ? 2 : 1);
+  if (!bs->kh) {
+    int st = lvsi_mat_alloc(tctx, n, n, md->cplx, 1, nnz, &bs->kh);
+    if (st) return st;
+    memcpy(bs->kh->cp, md->kcp, (n + 1) * sizeof(size_t));
+    memcpy(bs->kh->ri, md->kri, nnz * sizeof(size_t));
+    bs->kh->nnz = nnz;
+    if (!(bs->kstart = lvsi_malloc(tctx, 2 * n * sizeof(double))))
+      return lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
+  }
+  double *a = bs->kh->a;
+  for (size_t q = 0; q < len; q++) a[q] = md->ka0[q] + p * md->ka1[q];
+  return LVS_OK;
+}
+
+/* Warm start from the previous point's raw vectors (m columns): their sum
+ * (every tracked level's direction in one vector; ARPACK takes one; on the
+ * 200-point L = 14 Heisenberg sweep the points took 8.7 s so, 11.7 s from
+ * the lowest vector alone, 12.5 s cold), plus SWEEP_KRYLOV_NOISE of its
+ * norm along the fixed noise vector, so that a level of a
+ * symmetry the sparsity does not show (absent from the previous vectors)
+ * still has a part in the start and can enter the window from above. Real
+ * entries only when H(p) is real (lvs_eigen_ex then runs the real Lanczos). */
+static void krylov_start(const model *md, const double complex *warm, size_t m, int real_op, double *x) {
+  size_t n = md->n, el = real_op ? 1 : 2;
+  double nrm = 0, nn = 0;
+  for (size_t i = 0; i < n; i++) {
+    double complex t = 0;
+    for (size_t j = 0; j < m; j++) t += warm[j * n + i];
+    x[el * i] = creal(t);
+    if (el == 2) x[el * i + 1] = cimag(t);
+    nrm += creal(t) * creal(t) + cimag(t) * cimag(t);
+  }
+  for (size_t i = 0; i < n * el; i++) nn += noise_at(i) * noise_at(i);
+  double f = SWEEP_KRYLOV_NOISE * sqrt(nrm / (nn > 0 ? nn : 1));
+  for (size_t i = 0; i < n * el; i++) x[i] += f * noise_at(i);
+}
+
+/* lowest m pairs of H(p) on the Krylov path; warm: m vectors of a nearby
+ * p (the previous point) or NULL (ARPACK's fixed start) */
+static int solve_krylov(lvs_ctx *tctx, const model *md, double p, size_t m, double *w, double complex *vec,
+                        band_scratch *bs, const double complex *warm) {
   size_t n = md->n;
+  band_scratch own = {0};
+  if (!bs) bs = &own;
+  lvs_matrix *u = NULL;
+  int st = krylov_form(tctx, md, p, bs);
+  if (!st) {
+    int real_op = !md->cplx;
+    if (!real_op) {
+      real_op = 1;
+      for (size_t q = 0; q < md->knnz && real_op; q++) real_op = bs->kh->a[2 * q + 1] == 0.0;
+    }
+    lvs_eigen_opts eo = {md->krylov == 2 ? LVS_EIGEN_KRYLOV : LVS_EIGEN_AUTO, 0, 0.0, SWEEP_KRYLOV_TOL, 0, 0, NULL};
+    if (warm) {
+      krylov_start(md, warm, m, real_op, bs->kstart);
+      eo.start = bs->kstart;
+    }
+    pthread_mutex_lock(&arpack_mu);
+    st = lvs_eigen_ex(bs->kh, NULL, m, vec != NULL, &eo, w, vec ? &u : NULL);
+    pthread_mutex_unlock(&arpack_mu);
+  }
+  if (!st && vec) {
+    const double *a = u->a;
+    if (u->cplx)
+      for (size_t q = 0; q < n * m; q++) vec[q] = a[2 * q] + I * a[2 * q + 1];
+    else
+      for (size_t q = 0; q < n * m; q++) vec[q] = a[q];
+  }
+  lvs_matrix_free(u);
+  band_scratch_free(tctx, &own);
+  return st;
+}
+
+/* lowest m energies of H(p) (and vectors as complex n x m when vec != NULL);
+ * warm: the previous point's vectors for the Krylov path, or NULL */
+static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, double *w,
+                          double complex *vec, band_scratch *bs, const double *hfull, const double complex *warm) {
+  size_t n = md->n;
+  if (md->krylov) return solve_krylov(tctx, md, p, m, w, vec, bs, warm);
   if (md->kd >= 0 && !hfull) {
-    band_scratch own = {NULL, NULL, NULL, NULL};
+    band_scratch own = {0};
     if (!bs) bs = &own;
     int st = band_scratch_get(tctx, md, bs);
     double *rv = NULL;
@@ -584,7 +731,7 @@ static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, do
 }
 
 static int solve_point(lvs_ctx *tctx, const model *md, double p, size_t m, double *w, double complex *vec) {
-  return solve_point_bs(tctx, md, p, m, w, vec, NULL, NULL);
+  return solve_point_bs(tctx, md, p, m, w, vec, NULL, NULL, NULL);
 }
 
 /* ---- journal ------------------------------------------------------------- */
@@ -835,6 +982,7 @@ typedef struct {
   void *progress_ud;
   int io_err;
   char io_msg[300];
+  size_t next;          /* Krylov path: next entry of todo to hand out (under mu) */
 } shared_out;
 
 typedef struct {
@@ -856,9 +1004,71 @@ typedef struct {
   char msg[512];
 } worker;
 
+/* point k by worker wk: solve, journal, progress; nonzero to stop */
+static int work_point(worker *wk, lvs_ctx *tctx, band_scratch *bs, unsigned char *rec, size_t k) {
+  const model *md = wk->md;
+  shared_out *so = wk->so;
+  double p = grid_p(wk->from, wk->to, wk->steps, k);
+  double *w = wk->w + (k - wk->k0) * md->count;
+  double complex *u = wk->vec + (k - wk->k0) * md->n * md->count;
+  /* Krylov path: inside a run, the previous point (computed just before by
+   * this worker, or read from the journal) is the warm start */
+  const double complex *warm = md->krylov && k % LVS_SWEEP_KRYLOV_RUN ? u - md->n * md->count : NULL;
+  int st = solve_point_bs(tctx, md, p, md->count, w, u, bs, wk->hmat ? wk->hmat + (k - wk->k0) * wk->hlen : NULL,
+                          warm);
+  if (st) {
+    wk->st = st;
+    snprintf(wk->msg, sizeof wk->msg, "at p = %.17g: %s", p, lvs_errmsg(tctx));
+    return 1;
+  }
+  if (rec) pack_record(so->j, k, w, u, rec);
+  pthread_mutex_lock(&so->mu);
+  if (rec && !so->io_err) {
+    journal *j = so->j;
+    if (write_full(j->fd, rec, j->recsize, j->end) != 0 || fdatasync(j->fd) != 0) {
+      so->io_err = 1;
+      snprintf(so->io_msg, sizeof so->io_msg, "cannot write journal '%s': %s", j->own, strerror(errno));
+    } else {
+      j->end += (off_t)j->recsize;
+    }
+  }
+  so->done++;
+  if (so->progress) so->progress(so->progress_ud, so->done, so->total);
+  int bad = so->io_err;
+  pthread_mutex_unlock(&so->mu);
+  return bad;
+}
+
+/* Krylov path: the todo points of one whole run at a time (taken in turn
+ * by whichever worker is free), in ascending order, so each point but a
+ * run's first starts from its predecessor; the runs are fixed by the grid
+ * (LVS_SWEEP_KRYLOV_RUN points), so the numbers do not depend on the
+ * thread count or on which worker takes a run */
+static void work_runs(worker *wk, lvs_ctx *tctx, band_scratch *bs, unsigned char *rec) {
+  shared_out *so = wk->so;
+  for (;;) {
+    pthread_mutex_lock(&so->mu);
+    size_t t0 = so->next, t1 = t0;
+    if (t0 < wk->ntodo) {
+      size_t run = wk->todo[t0] / LVS_SWEEP_KRYLOV_RUN;
+      while (t1 < wk->ntodo && wk->todo[t1] / LVS_SWEEP_KRYLOV_RUN == run) t1++;
+    }
+    so->next = t1;
+    int bad = so->io_err;
+    pthread_mutex_unlock(&so->mu);
+    if (t0 == t1 || bad) return;
+    for (size_t t = t0; t < t1; t++)
+      if (work_point(wk, tctx, bs, rec, wk->todo[t])) {
+        pthread_mutex_lock(&so->mu);
+        so->next = wk->ntodo; /* the others stop at their next run */
+        pthread_mutex_unlock(&so->mu);
+        return;
+      }
+  }
+}
+
 static void *work(void *arg) {
   worker *wk = arg;
-  const model *md = wk->md;
   wk->st = LVS_OK;
   lvs_ctx *tctx = lvs_ctx_new(locked_alloc_fn, wk->la);
   if (!tctx) {
@@ -868,7 +1078,7 @@ static void *work(void *arg) {
   }
   lvs_ctx_set_dense_cap(tctx, wk->dense_cap);
   shared_out *so = wk->so;
-  band_scratch bs = {NULL, NULL, NULL, NULL};
+  band_scratch bs = {0};
   unsigned char *rec = NULL;
   if (so->j) {
     rec = lvsi_malloc(tctx, so->j->recsize);
@@ -879,35 +1089,11 @@ static void *work(void *arg) {
       return NULL;
     }
   }
-  for (size_t t = (size_t)wk->tid; t < wk->ntodo; t += (size_t)wk->nthreads) {
-    size_t k = wk->todo[t];
-    double p = grid_p(wk->from, wk->to, wk->steps, k);
-    double *w = wk->w + (k - wk->k0) * md->count;
-    double complex *u = wk->vec + (k - wk->k0) * md->n * md->count;
-    int st = solve_point_bs(tctx, md, p, md->count, w, u, &bs,
-                            wk->hmat ? wk->hmat + (k - wk->k0) * wk->hlen : NULL);
-    if (st) {
-      wk->st = st;
-      snprintf(wk->msg, sizeof wk->msg, "at p = %.17g: %s", p, lvs_errmsg(tctx));
-      break;
-    }
-    if (rec) pack_record(so->j, k, w, u, rec);
-    pthread_mutex_lock(&so->mu);
-    if (rec && !so->io_err) {
-      journal *j = so->j;
-      if (write_full(j->fd, rec, j->recsize, j->end) != 0 || fdatasync(j->fd) != 0) {
-        so->io_err = 1;
-        snprintf(so->io_msg, sizeof so->io_msg, "cannot write journal '%s': %s", j->own, strerror(errno));
-      } else {
-        j->end += (off_t)j->recsize;
-      }
-    }
-    so->done++;
-    if (so->progress) so->progress(so->progress_ud, so->done, so->total);
-    int bad = so->io_err;
-    pthread_mutex_unlock(&so->mu);
-    if (bad) break;
-  }
+  if (wk->md->krylov)
+    work_runs(wk, tctx, &bs, rec);
+  else
+    for (size_t t = (size_t)wk->tid; t < wk->ntodo; t += (size_t)wk->nthreads)
+      if (work_point(wk, tctx, &bs, rec, wk->todo[t])) break;
   lvsi_free(tctx, rec);
   band_scratch_free(tctx, &bs);
   lvs_ctx_free(tctx);
@@ -921,6 +1107,7 @@ static int run_workers(lvs_ctx *ctx, worker *tmpl, int nthreads) {
   int nt = nthreads;
   if ((size_t)nt > tmpl->ntodo) nt = (int)tmpl->ntodo;
   if (nt < 1) return LVS_OK;
+  tmpl->so->next = 0;
   for (int t = 0; t < nt; t++) {
     wk[t] = *tmpl;
     wk[t].tid = t;
@@ -1082,14 +1269,33 @@ static int family_at(lvs_ctx *ctx, const model *md, double p, double *out) {
   return LVS_OK;
 }
 
-static int gap_at(lvs_ctx *ctx, const model *md, double p, size_t r, double *w, double *g) {
+/* Krylov path: the golden-section search's solves, each started from the
+ * vectors of the one before (points closer and closer together); vc and
+ * vp hold n x (r + 2) values each, *first says none is there yet */
+typedef struct {
+  band_scratch bs;
+  double complex *vc, *vp;
+  int first;
+} gap_warm;
+
+static int gap_at(lvs_ctx *ctx, const model *md, double p, size_t r, double *w, double *g, gap_warm *gw) {
   int st;
+  if (gw) {
+    st = solve_krylov(ctx, md, p, r + 2, w, gw->vc, &gw->bs, gw->first ? NULL : gw->vp);
+    if (st) return st;
+    double complex *t = gw->vc;
+    gw->vc = gw->vp;
+    gw->vp = t;
+    gw->first = 0;
+    *g = w[r + 1] - w[r];
+    return LVS_OK;
+  }
   if (md->family) {
     size_t len = md->n * md->n * (md->cplx ? 2 : 1);
     double *hf = lvsi_malloc(ctx, len * sizeof(double));
     if (!hf) return lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory");
     st = family_at(ctx, md, p, hf);
-    if (!st) st = solve_point_bs(ctx, md, p, r + 2, w, NULL, NULL, hf);
+    if (!st) st = solve_point_bs(ctx, md, p, r + 2, w, NULL, NULL, hf, NULL);
     lvsi_free(ctx, hf);
   } else {
     st = solve_point(ctx, md, p, r + 2, w, NULL);
@@ -1222,6 +1428,10 @@ typedef struct {
   double *h0a, *va, *bandst, *secband;
   size_t *seccomp, *secoff, *secidx, nsec;
   bandmod *secs;
+  int path, auto_path; /* SWEEP_PATH_*: the one taken, the one AUTO takes */
+  lvs_matrix *ph0, *pv; /* plain visible copies (deciding AUTO; the Krylov path) */
+  size_t *kcp, *kri;    /* Krylov path: union pattern and values (model.k*) */
+  double *ka;
   /* journal and the workers' shared output */
   journal jn;
   shared_out so;
@@ -1238,6 +1448,8 @@ typedef struct {
   double escale, degen_tol;
   int blas_threads;
 } sweep_job;
+
+enum { SWEEP_PATH_DENSE, SWEEP_PATH_BAND, SWEEP_PATH_KRYLOV };
 
 static int job_nomem(sweep_job *jb) { return lvsi_fail(jb->ctx, LVS_ENOMEM, "sweep: out of memory"); }
 
@@ -1274,6 +1486,14 @@ static int spec_check(lvs_ctx *ctx, const lvs_sweep_spec *spec) {
     return lvsi_fail(ctx, LVS_ERANGE, "shard must be from 1 to %zu, got %zu", spec->shards, spec->shard);
   if ((spec->shards || spec->merge_only) && (!spec->journal || !*spec->journal))
     return lvsi_fail(ctx, LVS_EINVAL, "shards and merges need an output path (the journal base)");
+  if (spec->method < LVS_SWEEP_AUTO || spec->method > LVS_SWEEP_KRYLOV)
+    return lvsi_fail(ctx, LVS_EINVAL, "sweep: unknown method %d", spec->method);
+  const char *mname = spec->method == LVS_SWEEP_BAND ? "band" : "krylov";
+  if (spec->family && (spec->method == LVS_SWEEP_BAND || spec->method == LVS_SWEEP_KRYLOV))
+    return lvsi_fail(ctx, LVS_EINVAL, "method '%s' needs H0 and V (not a family given as a function)", mname);
+  if (spec->method == LVS_SWEEP_BAND && (lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v) || n < 16))
+    return lvsi_fail(ctx, LVS_EINVAL, "method 'band' needs a real H0 and V of at least 16 states (got %zu, %s)", n,
+                     lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v) ? "complex" : "real");
   return lvsi_dense_ok(ctx, spec->count, spec->steps + 1, sizeof(double), "sweep (energies)");
 }
 
@@ -1318,7 +1538,8 @@ static int model_band(sweep_job *jb) {
   if (jb->cplx || n < 16 || jb->spec->family) return LVS_OK;
   long k1 = bandwidth(jb->h0a, n), k2 = bandwidth(jb->va, n);
   long kd = k1 > k2 ? k1 : k2;
-  if (!(kd >= 1 && 4 * (size_t)kd <= n)) return LVS_OK;
+  if (jb->spec->method == LVS_SWEEP_BAND && kd < 1) kd = 1; /* forced: a diagonal model too */
+  if (!(kd >= 1 && (4 * (size_t)kd <= n || jb->spec->method == LVS_SWEEP_BAND))) return LVS_OK;
   size_t ld = (size_t)kd + 1;
   jb->bandst = lvsi_calloc(jb->ctx, 2 * ld * n, sizeof(double));
   if (!jb->bandst) return job_nomem(jb);
@@ -1388,13 +1609,127 @@ static int model_sectors(sweep_job *jb) {
   return LVS_OK;
 }
 
+/* the entries of column j of a plain matrix in ascending rows: a sparse
+ * column as stored, a dense one's nonzeros */
+typedef struct {
+  const lvs_matrix *m;
+  size_t j, k, end;
+} colcur;
+
+static void cur_skip(colcur *c) {
+  const lvs_matrix *m = c->m;
+  if (m->sparse) return;
+  size_t w = m->cplx ? 2 : 1, at = c->j * m->rows;
+  while (c->k < c->end && m->a[w * (at + c->k)] == 0.0 && (w == 1 || m->a[w * (at + c->k) + 1] == 0.0)) c->k++;
+}
+
+static void cur_start(colcur *c, const lvs_matrix *m, size_t j) {
+  c->m = m;
+  c->j = j;
+  c->k = m->sparse ? m->cp[j] : 0;
+  c->end = m->sparse ? m->cp[j + 1] : m->rows;
+  cur_skip(c);
+}
+
+static size_t cur_row(const colcur *c) {
+  if (c->k >= c->end) return SIZE_MAX;
+  return c->m->sparse ? c->m->ri[c->k] : c->k;
+}
+
+/* value of the current entry (re, im) and advance */
+static void cur_take(colcur *c, double *re, double *im) {
+  const lvs_matrix *m = c->m;
+  size_t w = m->cplx ? 2 : 1, at = m->sparse ? c->k : c->j * m->rows + c->k;
+  *re = m->a[w * at];
+  *im = w == 2 ? m->a[w * at + 1] : 0.0;
+  c->k++;
+  cur_skip(c);
+}
+
+/* phase 2d: the Krylov path's model, the union pattern of the plain
+ * copies of H0 and V with each one's values on it (two passes: count,
+ * fill); no dense copy of anything n x n */
+static int model_krylov(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  size_t n = jb->n, w = jb->cplx ? 2 : 1, nnz = 0;
+  colcur a, b;
+  for (int pass = 0; pass < 2; pass++) {
+    if (pass) {
+      jb->kcp = lvsi_malloc(ctx, (n + 1) * sizeof(size_t));
+      jb->kri = lvsi_malloc(ctx, (nnz ? nnz : 1) * sizeof(size_t));
+      jb->ka = lvsi_malloc(ctx, 2 * (nnz ? nnz : 1) * w * sizeof(double));
+      if (!jb->kcp || !jb->kri || !jb->ka) return job_nomem(jb);
+    }
+    size_t q = 0;
+    double *a0 = jb->ka, *a1 = jb->ka ? jb->ka + nnz * w : NULL;
+    for (size_t j = 0; j < n; j++) {
+      if (pass) jb->kcp[j] = q;
+      cur_start(&a, jb->ph0, j);
+      cur_start(&b, jb->pv, j);
+      for (;;) {
+        size_t ia = cur_row(&a), ib = cur_row(&b), i = ia < ib ? ia : ib;
+        if (i == SIZE_MAX) break;
+        double r0 = 0, i0 = 0, r1 = 0, i1 = 0;
+        if (ia == i) cur_take(&a, &r0, &i0);
+        if (ib == i) cur_take(&b, &r1, &i1);
+        if (r0 == 0 && i0 == 0 && r1 == 0 && i1 == 0) continue; /* stored zeros */
+        if (pass) {
+          jb->kri[q] = i;
+          a0[w * q] = r0;
+          a1[w * q] = r1;
+          if (w == 2) { a0[w * q + 1] = i0; a1[w * q + 1] = i1; }
+        }
+        q++;
+      }
+    }
+    if (pass) jb->kcp[n] = q;
+    nnz = q;
+  }
+  jb->md.krylov = jb->spec->method == LVS_SWEEP_KRYLOV ? 2 : 1;
+  jb->md.knnz = nnz;
+  jb->md.kcp = jb->kcp;
+  jb->md.kri = jb->kri;
+  jb->md.ka0 = jb->ka;
+  jb->md.ka1 = jb->ka + nnz * w;
+  return LVS_OK;
+}
+
+/* phase 2e: the path (the rule is in levelshift.h at lvs_sweep_method):
+ * AUTO looks at the storage, size and true bandwidth of plain copies of H0
+ * and V (O(nnz) for sparse ones), never at a dense copy */
+static int model_choose(sweep_job *jb) {
+  const lvs_sweep_spec *spec = jb->spec;
+  size_t n = jb->n;
+  int st;
+  jb->auto_path = SWEEP_PATH_DENSE;
+  if (!spec->family) {
+    if ((st = lvs_matrix_visible(spec->h0, 0, &jb->ph0)) || (st = lvs_matrix_visible(spec->v, 0, &jb->pv))) return st;
+    long k1 = lvsi_mat_bandwidth(jb->ph0), k2 = lvsi_mat_bandwidth(jb->pv), kd = k1 > k2 ? k1 : k2;
+    int band_ok = !jb->cplx && n >= 16 && kd >= 1 && 4 * (size_t)kd <= n;
+    int sparse = lvs_matrix_is_sparse(jb->ph0) && lvs_matrix_is_sparse(jb->pv);
+    if (band_ok) jb->auto_path = SWEEP_PATH_BAND;
+    else if (sparse && n > LVS_KRYLOV_MIN_DIM && 8 * jb->count <= n) jb->auto_path = SWEEP_PATH_KRYLOV;
+  }
+  static const int forced[] = {-1, SWEEP_PATH_DENSE, SWEEP_PATH_BAND, SWEEP_PATH_KRYLOV};
+  jb->path = spec->method == LVS_SWEEP_AUTO ? jb->auto_path : forced[spec->method];
+  return LVS_OK;
+}
+
 /* phase 2: the model each point is solved on */
 static int model_setup(sweep_job *jb) {
   const lvs_sweep_spec *spec = jb->spec;
   int st;
+  if ((st = model_choose(jb))) return st;
+  jb->md = (model){jb->n, jb->count, jb->cplx, NULL, NULL, -1, NULL, NULL, spec->family, spec->family_ud,
+                   0, NULL, NULL, NULL, 0, 0, NULL, NULL, NULL, NULL};
+  if (jb->path == SWEEP_PATH_KRYLOV) return model_krylov(jb);
+  lvs_matrix_free(jb->ph0);
+  lvs_matrix_free(jb->pv);
+  jb->ph0 = jb->pv = NULL;
   if ((st = model_dense(jb))) return st;
-  jb->md = (model){jb->n, jb->count, jb->cplx, jb->h0a, jb->va, -1, NULL, NULL, spec->family, spec->family_ud,
-                   0, NULL, NULL, NULL};
+  jb->md.h0 = jb->h0a;
+  jb->md.v = jb->va;
+  if (jb->path == SWEEP_PATH_DENSE) return LVS_OK;
   if ((st = model_band(jb))) return st;
   return model_sectors(jb);
 }
@@ -1410,15 +1745,46 @@ static int result_new(sweep_job *jb) {
   s->from = jb->spec->from;
   s->to = jb->spec->to;
   s->min_overlap = 1.0;
+  s->method = jb->md.krylov ? LVS_SWEEP_KRYLOV : jb->md.kd >= 0 ? LVS_SWEEP_BAND : LVS_SWEEP_DENSE;
   s->e = lvsi_malloc(jb->ctx, jb->count * jb->npts * sizeof(double));
   if (!s->e) return job_nomem(jb);
   for (size_t q = 0; q < jb->count * jb->npts; q++) s->e[q] = NAN;
   return LVS_OK;
 }
 
-/* is point k this process's to compute (all of them unless a shard) */
-static int point_mine(const lvs_sweep_spec *spec, size_t k) {
-  return !spec->shards || k % spec->shards == spec->shard - 1;
+/* is point k this process's to compute (all of them unless a shard):
+ * round-robin by point, on the Krylov path by run (warm starts) */
+static int point_mine(const sweep_job *jb, size_t k) {
+  const lvs_sweep_spec *spec = jb->spec;
+  if (!spec->shards) return 1;
+  size_t unit = jb->md.krylov ? k / LVS_SWEEP_KRYLOV_RUN : k;
+  return unit % spec->shards == spec->shard - 1;
+}
+
+/* the journal's fingerprint of the sweep: sizes, grid, the model's
+ * entries and, when it is not AUTO's, the path (its numbers differ) */
+static uint64_t model_hash(const sweep_job *jb) {
+  const lvs_sweep_spec *spec = jb->spec;
+  size_t n = jb->n, w = jb->cplx ? 2 : 1;
+  uint64_t h = FNV0;
+  uint64_t hdr[4] = {n, jb->count, jb->steps, (uint64_t)jb->cplx};
+  h = fnv(h, hdr, sizeof hdr);
+  h = fnv(h, &spec->from, sizeof(double));
+  h = fnv(h, &spec->to, sizeof(double));
+  if (jb->md.krylov) {
+    uint64_t tag[2] = {0x6b72796c6f76ULL, (uint64_t)jb->md.krylov}; /* "krylov", forced or not */
+    h = fnv(h, tag, sizeof tag);
+    h = fnv(h, jb->kcp, (n + 1) * sizeof(size_t));
+    h = fnv(h, jb->kri, jb->md.knnz * sizeof(size_t));
+    return fnv(h, jb->ka, 2 * jb->md.knnz * w * sizeof(double));
+  }
+  h = fnv(h, jb->h0a, n * n * w * sizeof(double));
+  h = fnv(h, jb->va, n * n * w * sizeof(double));
+  if (jb->path != jb->auto_path) {
+    uint64_t tag = 0x70617468ULL + (uint64_t)jb->path;
+    h = fnv(h, &tag, sizeof tag);
+  }
+  return h;
 }
 
 /* phase 4: the journal (own file plus, for whole runs, the part files of
@@ -1435,15 +1801,7 @@ static int journal_setup(sweep_job *jb) {
     jn->count = count;
     jn->npts = npts;
     jn->cplx = jb->cplx;
-    uint64_t h = FNV0;
-    size_t len = n * n * (jb->cplx ? 2 : 1);
-    uint64_t hdr[4] = {n, count, jb->steps, (uint64_t)jb->cplx};
-    h = fnv(h, hdr, sizeof hdr);
-    h = fnv(h, &spec->from, sizeof(double));
-    h = fnv(h, &spec->to, sizeof(double));
-    h = fnv(h, jb->h0a, len * sizeof(double));
-    h = fnv(h, jb->va, len * sizeof(double));
-    jn->hash = h;
+    jn->hash = model_hash(jb);
     jn->recsize = 8 * (2 + count + n * count * (jb->cplx ? 2 : 1));
     if ((st = journal_open(ctx, jn, spec->journal, spec->shard, spec->shards, spec->merge_only))) return st;
     so->j = jn;
@@ -1458,7 +1816,7 @@ static int journal_setup(sweep_job *jb) {
   so->progress = spec->progress;
   so->progress_ud = spec->progress_ud;
   for (size_t k = 0; k < npts; k++) {
-    if (!point_mine(spec, k)) continue;
+    if (!point_mine(jb, k)) continue;
     so->total++;
     if (so->j && jn->rec_file[k] >= 0) so->done++;
   }
@@ -1478,10 +1836,11 @@ static int journal_setup(sweep_job *jb) {
 static double energy_scale(const sweep_job *jb) {
   const lvs_sweep_spec *spec = jb->spec;
   double escale = 0;
-  size_t len = jb->n * jb->n * (jb->cplx ? 2 : 1);
+  const double *h0 = jb->md.krylov ? jb->md.ka0 : jb->h0a, *v = jb->md.krylov ? jb->md.ka1 : jb->va;
+  size_t len = (jb->md.krylov ? jb->md.knnz : jb->n * jb->n) * (jb->cplx ? 2 : 1); /* zeros add nothing */
   for (size_t i = 0; i < len; i++) {
-    double a1 = fabs(jb->h0a[i] + spec->from * jb->va[i]), a2 = fabs(jb->h0a[i] + spec->to * jb->va[i]);
-    if (spec->family) { a1 = fabs(jb->h0a[i]); a2 = fabs(jb->va[i]); } /* H(from), H(to) */
+    double a1 = fabs(h0[i] + spec->from * v[i]), a2 = fabs(h0[i] + spec->to * v[i]);
+    if (spec->family) { a1 = fabs(h0[i]); a2 = fabs(v[i]); } /* H(from), H(to) */
     if (a1 > escale) escale = a1;
     if (a2 > escale) escale = a2;
   }
@@ -1501,6 +1860,10 @@ static int points_alloc(sweep_job *jb) {
     size_t hb = (size_t)(64u << 20) / (n * n * sizeof(double) * (cplx ? 2 : 1));
     if (hb < nthreads) hb = nthreads;
     if (blk > hb) blk = hb;
+  }
+  if (jb->md.krylov) { /* whole runs, at least one per thread */
+    size_t runs = blk / LVS_SWEEP_KRYLOV_RUN;
+    blk = LVS_SWEEP_KRYLOV_RUN * (runs > nthreads ? runs : nthreads);
   }
   if (blk > jb->npts) blk = jb->npts;
   jb->blk = blk;
@@ -1576,9 +1939,10 @@ static int block_points(sweep_job *jb, size_t k0, size_t k1) {
   size_t n = jb->n, count = jb->count, ntodo = 0;
   int st;
   for (size_t k = k0; k < k1; k++) {
-    if (!point_mine(spec, k)) continue;
+    if (!point_mine(jb, k)) continue;
     if (jb->so.j && jb->jn.rec_file[k] >= 0) {
-      if (spec->shards) continue; /* a shard only adds to its part */
+      if (spec->shards && !jb->md.krylov) continue; /* a shard only adds to its part */
+      /* (on the Krylov path a resumed shard reads it: the next point starts from it) */
       if ((st = load_record(ctx, &jb->jn, k, jb->wblk + (k - k0) * count, jb->vblk + (k - k0) * n * count, jb->rec)))
         return st;
     } else {
@@ -1645,9 +2009,74 @@ static void number_degenerate_start(sweep_job *jb) {
   }
 }
 
+/* Krylov path: Brent's minimization (parabolic interpolation safeguarded by
+ * golden-section steps; R. P. Brent, Algorithms for Minimization without
+ * Derivatives, 1973, ch. 5, procedure localmin) of the gap on [a, b] from
+ * the grid's (x, fx), to SWEEP_KRYLOV_PTOL |to - from|: a smooth minimum in
+ * a handful of solves instead of golden section's ~30, each solve being a
+ * Lanczos run. It stops once a gap is at or below ctol (a true crossing is
+ * then established): closer to the crossing the two levels agree to
+ * rounding, and a single-vector Lanczos run can return such a pair once
+ * (when a symmetry the sparsity does not show separates them). */
+static int brent_gap(sweep_job *jb, size_t r, double a, double b, double x, const double *g3, double ctol,
+                     gap_warm *gw, double *best_p, double *best_g) {
+  lvs_ctx *ctx = jb->ctx;
+  double *wg = jb->work_d + jb->count * jb->count, fx = g3[1];
+  const double c = (3 - sqrt(5.0)) / 2, eps = 1e-12;
+  /* a true crossing is a V, |slope| |p - p_c|, with the slope of the grid's
+   * gaps: locate it to a tenth of ctol / slope, so that its gap falls below
+   * ctol (and the search stops there) */
+  double h = 0.5 * (b - a), slope = fmax(fabs(g3[0] - g3[1]), fabs(g3[2] - g3[1])) / h;
+  double tabs = SWEEP_KRYLOV_PTOL * fabs(jb->s->to - jb->s->from);
+  if (slope > 0 && 0.1 * ctol / slope < tabs) tabs = 0.1 * ctol / slope;
+  double v = x, w = x, fv = fx, fw = fx, d = 0, e = 0;
+  int st = LVS_OK;
+  for (int it = 0; it < 100 && fx > ctol; it++) {
+    double m = 0.5 * (a + b), tol1 = eps * fabs(x) + tabs / 3, t2 = 2 * tol1;
+    if (fabs(x - m) <= t2 - 0.5 * (b - a)) break;
+    double pp = 0, q = 0, rr = 0;
+    if (fabs(e) > tol1) { /* parabola through (v, fv), (w, fw), (x, fx) */
+      rr = (x - w) * (fx - fv);
+      q = (x - v) * (fx - fw);
+      pp = (x - v) * q - (x - w) * rr;
+      q = 2 * (q - rr);
+      if (q > 0) pp = -pp;
+      else q = -q;
+      rr = e;
+      e = d;
+    }
+    if (fabs(pp) < fabs(0.5 * q * rr) && pp > q * (a - x) && pp < q * (b - x)) {
+      d = pp / q;
+      double u = x + d;
+      if (u - a < t2 || b - u < t2) d = x < m ? tol1 : -tol1;
+    } else {
+      e = (x < m ? b : a) - x;
+      d = c * e;
+    }
+    double u = x + (fabs(d) >= tol1 ? d : (d > 0 ? tol1 : -tol1)), fu;
+    if ((st = gap_at(ctx, &jb->md, u, r, wg, &fu, gw))) return st;
+    if (fu <= fx) {
+      if (u < x) b = x;
+      else a = x;
+      v = w; fv = fw; w = x; fw = fx; x = u; fx = fu;
+    } else {
+      if (u < x) a = u;
+      else b = u;
+      if (fu <= fw || w == x) { v = w; fv = fw; w = u; fw = fu; }
+      else if (fu <= fv || v == x || v == w) { v = u; fv = fu; }
+    }
+  }
+  *best_p = x;
+  *best_g = fx < 0 ? 0 : fx;
+  return st;
+}
+
 /* golden-section search for the smallest gap between ranks r and r+1 of
- * H(p) on [p_{k-1}, p_{k+1}], starting from the grid's (p_k, g_k) */
-static int refine_gap(sweep_job *jb, size_t k, size_t r, double gk, double *best_p, double *best_g) {
+ * H(p) on [p_{k-1}, p_{k+1}], starting from the grid's (p_k, g_k) (the
+ * Krylov path: brent_gap) */
+static int refine_gap(sweep_job *jb, size_t k, size_t r, const double *g3, double ctol, double *best_p,
+                      double *best_g) {
+  double gk = g3[1];
   lvs_ctx *ctx = jb->ctx;
   const model *md = &jb->md;
   double *wg = jb->work_d + jb->count * jb->count; /* count + 1 >= r + 2 values */
@@ -1656,24 +2085,39 @@ static int refine_gap(sweep_job *jb, size_t k, size_t r, double gk, double *best
   double bp = grid_p(jb->s->from, jb->s->to, jb->steps, k), bg = gk;
   double x1 = b - gr * (b - a), x2 = a + gr * (b - a), f1, f2;
   int st;
+  gap_warm gwb = {{0}, NULL, NULL, 1}, *gw = NULL;
+  if (md->krylov) {
+    gw = &gwb;
+    gw->vc = lvsi_malloc(ctx, 2 * jb->n * (r + 2) * sizeof(double complex));
+    if (!gw->vc) return job_nomem(jb);
+    gw->vp = gw->vc + jb->n * (r + 2);
+  }
+  double complex *vbuf = gwb.vc;
   lvs_clear_error(ctx);
-  if ((st = gap_at(ctx, md, x1, r, wg, &f1)) || (st = gap_at(ctx, md, x2, r, wg, &f2))) return st;
+  if (md->krylov) {
+    st = brent_gap(jb, r, a, b, bp, g3, ctol, gw, best_p, best_g);
+    goto out;
+  }
+  if ((st = gap_at(ctx, md, x1, r, wg, &f1, gw)) || (st = gap_at(ctx, md, x2, r, wg, &f2, gw))) goto out;
   for (int it = 0; it < 200 && fabs(b - a) > 1e-15 * (fabs(a) + fabs(b)) + 1e-300; it++) {
     if (f1 <= f2) {
       b = x2; x2 = x1; f2 = f1;
       x1 = b - gr * (b - a);
-      if ((st = gap_at(ctx, md, x1, r, wg, &f1))) return st;
+      if ((st = gap_at(ctx, md, x1, r, wg, &f1, gw))) goto out;
     } else {
       a = x1; x1 = x2; f1 = f2;
       x2 = a + gr * (b - a);
-      if ((st = gap_at(ctx, md, x2, r, wg, &f2))) return st;
+      if ((st = gap_at(ctx, md, x2, r, wg, &f2, gw))) goto out;
     }
   }
   if (f1 < bg) { bg = f1; bp = x1; }
   if (f2 < bg) { bg = f2; bp = x2; }
   *best_p = bp;
   *best_g = bg < 0 ? 0 : bg;
-  return LVS_OK;
+out:
+  band_scratch_free(ctx, &gwb.bs);
+  lvsi_free(ctx, vbuf);
+  return st;
 }
 
 /* phase 8: crossings, the local minima of adjacent gaps over the grid,
@@ -1706,7 +2150,7 @@ static int find_crossings(sweep_job *jb) {
       for (int d = 0; d < 3; d++) g[d] = srt[(size_t)d * count + r + 1].e - srt[(size_t)d * count + r].e;
       if (!(g[1] < g[0] - dtol && g[1] <= g[2] + dtol)) continue;
       lvs_sweep_crossing c;
-      if ((st = refine_gap(jb, k, r, g[1], &c.at, &c.gap))) return st;
+      if ((st = refine_gap(jb, k, r, g, ctol, &c.at, &c.gap))) return st;
       size_t i = srt[count + r].a, j = srt[count + r + 1].a;
       c.i = i < j ? i : j;
       c.j = i < j ? j : i;
@@ -1722,7 +2166,9 @@ static void job_free(sweep_job *jb) {
   lvs_ctx *ctx = jb->ctx;
   if (jb->blas_threads > 0) lvsi_set_blas_threads(jb->blas_threads);
   journal_close(ctx, &jb->jn);
-  void *bufs[] = {jb->h0a, jb->va, jb->bandst, jb->seccomp, jb->secoff, jb->secs, jb->secband, jb->hbuf,
+  lvs_matrix_free(jb->ph0);
+  lvs_matrix_free(jb->pv);
+  void *bufs[] = {jb->kcp, jb->kri, jb->ka, jb->h0a, jb->va, jb->bandst, jb->seccomp, jb->secoff, jb->secs, jb->secband, jb->hbuf,
                   jb->wblk, jb->vblk, jb->prev, jb->tmp, jb->work_d, jb->pi, jb->perm, jb->iw,
                   jb->todo, jb->cw, jb->srt, jb->rec};
   for (size_t i = 0; i < sizeof bufs / sizeof bufs[0]; i++) lvsi_free(ctx, bufs[i]);
@@ -1791,6 +2237,7 @@ const lvs_sweep_crossing *lvs_sweep_crossing_at(const lvs_sweep *s, size_t k) {
   return k < s->ncross ? &s->cross[k] : NULL;
 }
 double lvs_sweep_min_overlap(const lvs_sweep *s) { return s->min_overlap; }
+int lvs_sweep_path(const lvs_sweep *s) { return s->method; }
 int lvs_sweep_is_partial(const lvs_sweep *s, size_t *done) {
   if (done) *done = s->done;
   return s->partial;
