@@ -2018,10 +2018,10 @@ static void number_degenerate_start(sweep_job *jb) {
  * then established): closer to the crossing the two levels agree to
  * rounding, and a single-vector Lanczos run can return such a pair once
  * (when a symmetry the sparsity does not show separates them). */
-static int brent_gap(sweep_job *jb, size_t r, double a, double b, double x, const double *g3, double ctol,
-                     gap_warm *gw, double *best_p, double *best_g) {
+static int brent_gap(sweep_job *jb, size_t r, double a, double b, double x, double fx, const double *g3,
+                     double ctol, gap_warm *gw, double *best_p, double *best_g) {
   lvs_ctx *ctx = jb->ctx;
-  double *wg = jb->work_d + jb->count * jb->count, fx = g3[1];
+  double *wg = jb->work_d + jb->count * jb->count;
   const double c = (3 - sqrt(5.0)) / 2, eps = 1e-12;
   /* a true crossing is a V, |slope| |p - p_c|, with the slope of the grid's
    * gaps: locate it to a tenth of ctol / slope, so that its gap falls below
@@ -2071,9 +2071,49 @@ static int brent_gap(sweep_job *jb, size_t r, double a, double b, double x, cons
   return st;
 }
 
+/* dE/dp = <u|V|u> for a normalized eigenvector u of H(p) (Hellmann-Feynman;
+ * R. P. Feynman, Phys. Rev. 56, 340 (1939)), V on the union pattern */
+static double hf_slope(const model *md, const double complex *u) {
+  double acc = 0;
+  for (size_t j = 0; j < md->n; j++)
+    for (size_t q = md->kcp[j]; q < md->kcp[j + 1]; q++) {
+      double complex v = md->cplx ? md->ka1[2 * q] + I * md->ka1[2 * q + 1] : md->ka1[q];
+      acc += creal(conj(u[md->kri[q]]) * v * u[j]);
+    }
+  return acc;
+}
+
+/* Krylov path, before Brent: at a true crossing the gap is a V, |d(p)|
+ * with d smooth, so Newton's step x - g/g' (g' = difference of the two
+ * levels' Hellmann-Feynman slopes) lands on it to second order. From the
+ * grid point x = p_k: at most three steps, each kept only inside (a, b) and
+ * while it at least halves the gap (an avoided crossing fails that at
+ * once). *x, *fx: the best point so far (for brent_gap to go on from). */
+static int newton_gap(sweep_job *jb, size_t r, double a, double b, double ctol, gap_warm *gw, double *x, double *fx) {
+  lvs_ctx *ctx = jb->ctx;
+  const model *md = &jb->md;
+  double *wg = jb->work_d + jb->count * jb->count, xc = *x, g;
+  int st = gap_at(ctx, md, xc, r, wg, &g, gw);
+  if (st) return st;
+  *fx = g;
+  for (int it = 0; it < 3 && g > ctol; it++) {
+    const double complex *u = gw->vp; /* the vectors just computed */
+    double gp = hf_slope(md, u + (r + 1) * md->n) - hf_slope(md, u + r * md->n);
+    if (!(gp != 0)) break;
+    double xn = xc - g / gp, gn;
+    if (!(xn > a && xn < b)) break;
+    if ((st = gap_at(ctx, md, xn, r, wg, &gn, gw))) return st;
+    if (gn < *fx) { *fx = gn; *x = xn; }
+    if (!(gn <= 0.5 * g)) break;
+    xc = xn;
+    g = gn;
+  }
+  return LVS_OK;
+}
+
 /* golden-section search for the smallest gap between ranks r and r+1 of
  * H(p) on [p_{k-1}, p_{k+1}], starting from the grid's (p_k, g_k) (the
- * Krylov path: brent_gap) */
+ * Krylov path: newton_gap, then brent_gap) */
 static int refine_gap(sweep_job *jb, size_t k, size_t r, const double *g3, double ctol, double *best_p,
                       double *best_g) {
   double gk = g3[1];
@@ -2095,7 +2135,14 @@ static int refine_gap(sweep_job *jb, size_t k, size_t r, const double *g3, doubl
   double complex *vbuf = gwb.vc;
   lvs_clear_error(ctx);
   if (md->krylov) {
-    st = brent_gap(jb, r, a, b, bp, g3, ctol, gw, best_p, best_g);
+    double x = bp, fx = bg;
+    st = newton_gap(jb, r, a, b, ctol, gw, &x, &fx);
+    if (!st && fx <= ctol) {
+      *best_p = x;
+      *best_g = fx < 0 ? 0 : fx;
+    } else if (!st) {
+      st = brent_gap(jb, r, a, b, x, fx, g3, ctol, gw, best_p, best_g);
+    }
     goto out;
   }
   if ((st = gap_at(ctx, md, x1, r, wg, &f1, gw)) || (st = gap_at(ctx, md, x2, r, wg, &f2, gw))) goto out;
