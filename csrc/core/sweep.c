@@ -1649,8 +1649,21 @@ static void cur_take(colcur *c, double *re, double *im) {
 /* phase 2d: the Krylov path's model, the union pattern of the plain
  * copies of H0 and V with each one's values on it (two passes: count,
  * fill); no dense copy of anything n x n */
+static int has_imag(const lvs_matrix *m) {
+  if (!m->cplx) return 0;
+  size_t cnt = m->sparse ? m->nnz : m->rows * m->cols;
+  for (size_t k = 0; k < cnt; k++)
+    if (m->a[2 * k + 1] != 0.0) return 1;
+  return 0;
+}
+
 static int model_krylov(sweep_job *jb) {
   lvs_ctx *ctx = jb->ctx;
+  /* complex storage with every imaginary part zero (Sy Sy products) is a
+   * real model: real values, real records, the real Lanczos, no per-point
+   * real copy inside lvs_eigen_ex */
+  if (jb->cplx && !has_imag(jb->ph0) && !has_imag(jb->pv)) jb->cplx = 0;
+  jb->md.cplx = jb->cplx;
   size_t n = jb->n, w = jb->cplx ? 2 : 1, nnz = 0;
   colcur a, b;
   for (int pass = 0; pass < 2; pass++) {
