@@ -269,7 +269,20 @@ typedef struct {
   lvs_sweep_family_fn family; /* non-NULL: H(p) = family(p); h0 = H(from) and
                           v = H(to) then (size, kind, journal hash); no series */
   void *family_ud;
+  int method;          /* lvs_sweep_method (0 = LVS_SWEEP_AUTO) */
 } lvs_sweep_spec;
+/* How the points are solved. AUTO: the Krylov path for a sparse model (H0
+ * and V stored sparse, no family) of more than LVS_KRYLOV_MIN_DIM states
+ * with 8 count <= n that the band path does not take; else the band path
+ * for a real model with 1 <= half-bandwidth kd and 4 kd <= n (n >= 16); else
+ * dense. DENSE: lvs_eigen on a dense H(p). BAND: the band path (real, no
+ * family, n >= 16; kd of at least 1). KRYLOV: lvs_eigen_ex with
+ * LVS_EIGEN_KRYLOV on a sparse H(p) (no dense copy of the model; AUTO's
+ * Krylov path passes LVS_EIGEN_AUTO, so small sectors go dense); runs of
+ * LVS_SWEEP_KRYLOV_RUN consecutive grid points are warm-started from the
+ * point before, and shards take whole runs (run r to shard r mod N + 1). */
+typedef enum { LVS_SWEEP_AUTO = 0, LVS_SWEEP_DENSE = 1, LVS_SWEEP_BAND = 2, LVS_SWEEP_KRYLOV = 3 } lvs_sweep_method;
+#define LVS_SWEEP_KRYLOV_RUN 16
 typedef struct { double at, gap; size_t i, j; int avoided; } lvs_sweep_crossing;
 typedef struct lvs_sweep lvs_sweep;
 LVS_API int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out);
@@ -281,6 +294,7 @@ LVS_API const double *lvs_sweep_level(const lvs_sweep *s, size_t level); /* BORR
 LVS_API size_t lvs_sweep_ncrossings(const lvs_sweep *s);
 LVS_API const lvs_sweep_crossing *lvs_sweep_crossing_at(const lvs_sweep *s, size_t k); /* BORROWED */
 LVS_API double lvs_sweep_min_overlap(const lvs_sweep *s); /* smallest accepted overlap */
+LVS_API int lvs_sweep_path(const lvs_sweep *s); /* path taken: LVS_SWEEP_DENSE, _BAND or _KRYLOV */
 LVS_API const double *lvs_sweep_series(const lvs_sweep *s, size_t level); /* BORROWED or NULL */
 LVS_API int lvs_sweep_series_order(const lvs_sweep *s); /* 0: no series */
 LVS_API int lvs_sweep_is_partial(const lvs_sweep *s, size_t *done); /* a shard: points in its part */

@@ -1,7 +1,7 @@
 /* lsweep.c -- core.sweep{H0=, V=, from=, to=, steps=, count=, threads=,
  * series=, journal=, shard=, shards=, merge=, progress=, param=, param_unit=,
- * energy_unit=} -> userdata "levelshift.sweep": sw.p, sw.count,
- * sw.min_overlap, sw.series_order, sw.partial, sw.done, sw:level(k),
+ * energy_unit=, method = "auto"|"dense"|"band"|"krylov"} -> userdata "levelshift.sweep": sw.p, sw.count,
+ * sw.min_overlap, sw.method, sw.series_order, sw.partial, sw.done, sw:level(k),
  * sw:series(k), sw:crossings(), sw:write(path), sw:_remove_journals().
  * The Lua driver (lua/levelshift/sweep.lua) wraps it as ls.sweep. */
 #include <stdio.h>
@@ -148,7 +148,7 @@ static int l_sweep(lua_State *L) {
   luaL_checktype(L, 1, LUA_TTABLE);
   static const char *const known[] = {"H0", "V", "from", "to", "steps", "count", "threads", "series",
                                       "journal", "shard", "shards", "merge", "progress", "param",
-                                      "param_unit", "energy_unit", "H", NULL};
+                                      "param_unit", "energy_unit", "H", "method", NULL};
   lvsL_checkoptions(L, 1, known, "sweep", 1);
   lua_getfield(L, 1, "H");
   int family = !lua_isnil(L, -1);
@@ -244,6 +244,24 @@ static int l_sweep(lua_State *L) {
   lua_getfield(L, 1, "progress");
   int progress = lua_isnil(L, -1) ? isatty(STDERR_FILENO) : lua_toboolean(L, -1);
   lua_pop(L, 1);
+  const char *mname = opt_string(L, "method");
+  int method = LVS_SWEEP_AUTO;
+  if (mname) {
+    static const char *const names[] = {"auto", "dense", "band", "krylov", NULL};
+    int k = 0;
+    while (names[k] && strcmp(names[k], mname) != 0) k++;
+    if (!names[k]) return luaL_argerror(L, 1, "option 'method' must be \"auto\", \"dense\", \"band\" or \"krylov\"");
+    method = k;
+    if (family && method >= LVS_SWEEP_BAND) {
+      lua_pushfstring(L, "method '%s' needs H0 and V (not H given as a function)", mname);
+      return luaL_argerror(L, 1, lua_tostring(L, -1));
+    }
+    if (method == LVS_SWEEP_BAND && (lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v) || n < 16)) {
+      lua_pushfstring(L, "method 'band' needs a real H0 and V of at least 16 states (got %d, %s)", (int)n,
+                      lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v) ? "complex" : "real");
+      return luaL_argerror(L, 1, lua_tostring(L, -1));
+    }
+  }
   const char *pname = opt_string(L, "param"), *punit = opt_string(L, "param_unit"),
              *eunit = opt_string(L, "energy_unit");
   lsweep *u = lua_newuserdatauv(L, sizeof *u, 0);
@@ -251,7 +269,8 @@ static int l_sweep(lua_State *L) {
   luaL_setmetatable(L, LVS_SWEEP_MT);
   progress_state ps = {0, 0, (size_t)-1};
   lvs_sweep_spec spec = {h0, v, from, to, (size_t)steps, (size_t)count, (int)threads, (int)series, journal,
-                         (size_t)shard, (size_t)shards, merge, progress ? show_progress : NULL, &ps, NULL, NULL};
+                         (size_t)shard, (size_t)shards, merge, progress ? show_progress : NULL, &ps, NULL, NULL,
+                         method};
   if (family) {
     fu.n = n;
     fu.cplx = lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v);
@@ -377,6 +396,11 @@ static int m_index(lua_State *L) {
     int part = lvs_sweep_is_partial(s, &done);
     if (key[0] == 'p') lua_pushboolean(L, part);
     else lua_pushinteger(L, (lua_Integer)(part ? done : lvs_sweep_points(s)));
+    return 1;
+  }
+  if (key && strcmp(key, "method") == 0) {
+    int m = lvs_sweep_path(s);
+    lua_pushstring(L, m == LVS_SWEEP_KRYLOV ? "krylov" : m == LVS_SWEEP_BAND ? "band" : "dense");
     return 1;
   }
   if (key && strcmp(key, "min_overlap") == 0) {

@@ -26,7 +26,25 @@
  * is our own (sturm_lowest: all midpoints counted in one pass, to 1e-10 of
  * the 1-norm, then Rayleigh-Ritz), since dstebz's one-shift-at-a-time
  * Sturm counts wait on each division (46% of the bench sweep, perf).
- * Everything else goes through lvs_eigen (dsyevr / zheevr).
+ * Everything else goes through lvs_eigen (dsyevr / zheevr), except:
+ *
+ * Krylov path. A sparse model above LVS_KRYLOV_MIN_DIM states with 8 count
+ * <= n that the band path does not take (the rule: lvs_sweep_method in
+ * levelshift.h; method = LVS_SWEEP_KRYLOV forces it) is never copied
+ * densely: H0 and V are merged once into one CSC pattern with both value
+ * arrays, each point refills a worker-owned CSC H(p) with one multiply-add
+ * per entry and calls lvs_eigen_ex (sectors split per point, so p = 0 gets
+ * the sectors of H0 alone; ARPACK's Lanczos per large sector, residual
+ * tolerance SWEEP_KRYLOV_TOL). Warm starts: the points are cut into runs of
+ * LVS_SWEEP_KRYLOV_RUN consecutive grid points (a function of the grid
+ * only); a worker takes a whole run and starts each point but the run's
+ * first from the sum of the previous point's raw vectors plus a little of
+ * a fixed noise vector (krylov_start), so the numbers do not depend on the
+ * thread count, and shards take whole runs. ARPACK is not reentrant, so
+ * the solves take turns under one lock (arpack_mu): the threads overlap
+ * only the work around them. Crossings on this path are refined by Brent's
+ * method on the exact H(p), each solve started from the one before, and
+ * stop once the gap is a true crossing's (brent_gap).
  *
  * Symmetry sectors. When the band path applies and the union sparsity of
  * H0 and V falls apart into >= 2 connected components (lvsi_components;
@@ -77,9 +95,11 @@
  * journal, so a resumed or merged run gives the same bytes as one run.
  *   base.part            journal of a whole run (resumed by the same call)
  *   base.part.K-of-N     part file of shard K (1-based) of N: the points
- *                        k with k mod N = K - 1 (round-robin: balanced)
+ *                        k with k mod N = K - 1 (round-robin: balanced; on
+ *                        the Krylov path the runs r with r mod N = K - 1)
  * File: 48-byte header (magic "LVSWJ01\n", then n, count, points, complex
- * flag, a 64-bit FNV-1a hash of H0, V, from, to, steps and count), then
+ * flag, a 64-bit FNV-1a hash of H0, V, from, to, steps and count, and of
+ * the path when it is not the one AUTO takes), then
  * fixed-size records: k, count energies, the n x count vectors (real parts
  * only for a real model), and an FNV-1a check of the record. A record torn
  * by a kill fails its length or check and is cut off before appending. A
@@ -114,6 +134,16 @@
 
 #define SWEEP_MAX_STEPS 1000000
 #define SWEEP_MAX_THREADS 64
+/* Krylov path: ARPACK's relative residual tolerance per point (energies to
+ * within tol |E|, and to ~ (tol |E|)^2 / gap away from near-degeneracy), and
+ * where the golden-section search stops, relative to |to - from| (with
+ * energies good to tol |E|, a quadratic gap minimum cannot be located more
+ * finely than ~ sqrt(tol |E| / g'') anyway) */
+#define SWEEP_KRYLOV_TOL 1e-12
+#define SWEEP_KRYLOV_PTOL 1e-8
+/* Krylov path: weight of the fixed noise vector in a warm start (relative
+ * to the start's norm; 1e-3 cost 7% more time, 1e-6 a little less) */
+#define SWEEP_KRYLOV_NOISE 1e-4
 
 
 struct lvs_sweep {
@@ -130,6 +160,7 @@ struct lvs_sweep {
   size_t done;       /* points on disk for a shard */
   char **used;       /* journal files used (to remove), NULL-terminated */
   char *pname, *punit, *eunit;
+  int method;        /* the path taken: LVS_SWEEP_DENSE, _BAND or _KRYLOV */
 };
 
 /* ---- allocator shared by worker threads ---------------------------------- */
@@ -161,6 +192,14 @@ typedef struct {
   size_t nsec;
   const size_t *secoff, *secidx;
   const struct bandmod *sec;
+  /* Krylov path (krylov != 0; h0, v and kd unused): the union pattern of
+   * H0 and V in CSC (kcp, kri; knnz entries) with the values of each on
+   * it (ka0, ka1; complex interleaved when cplx); krylov = 1 passes
+   * LVS_EIGEN_AUTO per point, 2 LVS_EIGEN_KRYLOV (method forced) */
+  int krylov;
+  size_t knnz;
+  const size_t *kcp, *kri;
+  const double *ka0, *ka1;
 } model;
 
 /* a real banded matrix family H0 + p V in lower band storage (kd+1) x n */
@@ -180,6 +219,8 @@ typedef struct {
   lapack_int *ibuf;
   size_t *piv;
   double *rr; /* Rayleigh-Ritz: n x count + count x count */
+  lvs_matrix *kh; /* Krylov path: H(p) on the union pattern, refilled per point */
+  double *kstart; /* Krylov path: the start vector (2n) */
 } band_scratch;
 
 static size_t band_need(size_t n, size_t kd) { return 2 * (kd + 1) * n + 2 * n + 4 * n + (3 * kd + 1) * n + 2 * n; }
@@ -200,6 +241,10 @@ static void band_scratch_free(lvs_ctx *tctx, band_scratch *bs) {
   lvsi_free(tctx, bs->ibuf);
   lvsi_free(tctx, bs->piv);
   lvsi_free(tctx, bs->rr);
+  lvs_matrix_free(bs->kh);
+  lvsi_free(tctx, bs->kstart);
+  bs->kh = NULL;
+  bs->kstart = NULL;
   bs->rr = NULL;
   bs->buf = NULL;
   bs->ibuf = NULL;
@@ -537,12 +582,114 @@ out:
   return st;
 }
 
-/* lowest m energies of H(p) (and vectors as complex n x m when vec != NULL) */
-static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, double *w,
-                          double complex *vec, band_scratch *bs, const double *hfull) {
+/* ---- the Krylov path ------------------------------------------------------
+ * H(p) = H0 + p V is refilled per point into a worker-owned CSC matrix on
+ * the union pattern of H0 and V (one fused multiply-add per stored entry:
+ * no dense copy, no pattern merge per point; exact zeros at p = 0 are
+ * skipped by lvsi_components, so p = 0 keeps the sectors of H0 alone) and
+ * solved by lvs_eigen_ex (sectors split, ARPACK per large sector). */
+
+/* ARPACK keeps the state of its reverse-communication loop in Fortran SAVE
+ * variables (dsaupd/dsaup2/dsaitr ...), so two runs at once in one process
+ * corrupt each other (seen here as "corrupted size" aborts and runs ending
+ * after a few restarts with info 1). The Krylov path's solves therefore
+ * take turns: this lock is process-wide because that state is. */
+static pthread_mutex_t arpack_mu = PTHREAD_MUTEX_INITIALIZER;
+
+/* fixed pseudo-random entry i in [-0.5, 0.5) (splitmix64 of the index):
+ * no structure, so every eigenvector of H(p) has a part in it */
+static double noise_at(size_t i) {
+  uint64_t z = 0x73776565ULL + 0x9e3779b97f4a7c15ULL * (uint64_t)(i + 1);
+  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+  z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+  z ^= z >> 31;
+  return (double)(z >> 11) * 0x1.0p-53 - 0.5;
+}
+
+/* H(p) into bs->kh (made on first use, pattern copied once) */
+static int krylov_form(lvs_ctx *tctx, const model *md, double p, band_scratch *bs) {
+  size_t n = md->n, nnz = md->knnz, len = nnz * (md->cplx ? 2 : 1);
+  if (!bs->kh) {
+    int st = lvsi_mat_alloc(tctx, n, n, md->cplx, 1, nnz, &bs->kh);
+    if (st) return st;
+    memcpy(bs->kh->cp, md->kcp, (n + 1) * sizeof(size_t));
+    memcpy(bs->kh->ri, md->kri, nnz * sizeof(size_t));
+    bs->kh->nnz = nnz;
+    if (!(bs->kstart = lvsi_malloc(tctx, 2 * n * sizeof(double))))
+      return lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
+  }
+  double *a = bs->kh->a;
+  for (size_t q = 0; q < len; q++) a[q] = md->ka0[q] + p * md->ka1[q];
+  return LVS_OK;
+}
+
+/* Warm start from the previous point's raw vectors (m columns): their sum
+ * (every tracked level's direction in one vector; ARPACK takes one; on the
+ * 200-point L = 14 Heisenberg sweep the points took 8.7 s so, 11.7 s from
+ * the lowest vector alone, 12.5 s cold), plus SWEEP_KRYLOV_NOISE of its
+ * norm along the fixed noise vector, so that a level of a
+ * symmetry the sparsity does not show (absent from the previous vectors)
+ * still has a part in the start and can enter the window from above. Real
+ * entries only when H(p) is real (lvs_eigen_ex then runs the real Lanczos). */
+static void krylov_start(const model *md, const double complex *warm, size_t m, int real_op, double *x) {
+  size_t n = md->n, el = real_op ? 1 : 2;
+  double nrm = 0, nn = 0;
+  for (size_t i = 0; i < n; i++) {
+    double complex t = 0;
+    for (size_t j = 0; j < m; j++) t += warm[j * n + i];
+    x[el * i] = creal(t);
+    if (el == 2) x[el * i + 1] = cimag(t);
+    nrm += creal(t) * creal(t) + cimag(t) * cimag(t);
+  }
+  for (size_t i = 0; i < n * el; i++) nn += noise_at(i) * noise_at(i);
+  double f = SWEEP_KRYLOV_NOISE * sqrt(nrm / (nn > 0 ? nn : 1));
+  for (size_t i = 0; i < n * el; i++) x[i] += f * noise_at(i);
+}
+
+/* lowest m pairs of H(p) on the Krylov path; warm: m vectors of a nearby
+ * p (the previous point) or NULL (ARPACK's fixed start) */
+static int solve_krylov(lvs_ctx *tctx, const model *md, double p, size_t m, double *w, double complex *vec,
+                        band_scratch *bs, const double complex *warm) {
   size_t n = md->n;
+  band_scratch own = {0};
+  if (!bs) bs = &own;
+  lvs_matrix *u = NULL;
+  int st = krylov_form(tctx, md, p, bs);
+  if (!st) {
+    int real_op = !md->cplx;
+    if (!real_op) {
+      real_op = 1;
+      for (size_t q = 0; q < md->knnz && real_op; q++) real_op = bs->kh->a[2 * q + 1] == 0.0;
+    }
+    lvs_eigen_opts eo = {md->krylov == 2 ? LVS_EIGEN_KRYLOV : LVS_EIGEN_AUTO, 0, 0.0, SWEEP_KRYLOV_TOL, 0, 0, NULL};
+    if (warm) {
+      krylov_start(md, warm, m, real_op, bs->kstart);
+      eo.start = bs->kstart;
+    }
+    pthread_mutex_lock(&arpack_mu);
+    st = lvs_eigen_ex(bs->kh, NULL, m, vec != NULL, &eo, w, vec ? &u : NULL);
+    pthread_mutex_unlock(&arpack_mu);
+  }
+  if (!st && vec) {
+    const double *a = u->a;
+    if (u->cplx)
+      for (size_t q = 0; q < n * m; q++) vec[q] = a[2 * q] + I * a[2 * q + 1];
+    else
+      for (size_t q = 0; q < n * m; q++) vec[q] = a[q];
+  }
+  lvs_matrix_free(u);
+  band_scratch_free(tctx, &own);
+  return st;
+}
+
+/* lowest m energies of H(p) (and vectors as complex n x m when vec != NULL);
+ * warm: the previous point's vectors for the Krylov path, or NULL */
+static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, double *w,
+                          double complex *vec, band_scratch *bs, const double *hfull, const double complex *warm) {
+  size_t n = md->n;
+  if (md->krylov) return solve_krylov(tctx, md, p, m, w, vec, bs, warm);
   if (md->kd >= 0 && !hfull) {
-    band_scratch own = {NULL, NULL, NULL, NULL};
+    band_scratch own = {0};
     if (!bs) bs = &own;
     int st = band_scratch_get(tctx, md, bs);
     double *rv = NULL;
@@ -584,7 +731,7 @@ static int solve_point_bs(lvs_ctx *tctx, const model *md, double p, size_t m, do
 }
 
 static int solve_point(lvs_ctx *tctx, const model *md, double p, size_t m, double *w, double complex *vec) {
-  return solve_point_bs(tctx, md, p, m, w, vec, NULL, NULL);
+  return solve_point_bs(tctx, md, p, m, w, vec, NULL, NULL, NULL);
 }
 
 /* ---- journal ------------------------------------------------------------- */
@@ -835,6 +982,7 @@ typedef struct {
   void *progress_ud;
   int io_err;
   char io_msg[300];
+  size_t next;          /* Krylov path: next entry of todo to hand out (under mu) */
 } shared_out;
 
 typedef struct {
@@ -856,9 +1004,71 @@ typedef struct {
   char msg[512];
 } worker;
 
+/* point k by worker wk: solve, journal, progress; nonzero to stop */
+static int work_point(worker *wk, lvs_ctx *tctx, band_scratch *bs, unsigned char *rec, size_t k) {
+  const model *md = wk->md;
+  shared_out *so = wk->so;
+  double p = grid_p(wk->from, wk->to, wk->steps, k);
+  double *w = wk->w + (k - wk->k0) * md->count;
+  double complex *u = wk->vec + (k - wk->k0) * md->n * md->count;
+  /* Krylov path: inside a run, the previous point (computed just before by
+   * this worker, or read from the journal) is the warm start */
+  const double complex *warm = md->krylov && k % LVS_SWEEP_KRYLOV_RUN ? u - md->n * md->count : NULL;
+  int st = solve_point_bs(tctx, md, p, md->count, w, u, bs, wk->hmat ? wk->hmat + (k - wk->k0) * wk->hlen : NULL,
+                          warm);
+  if (st) {
+    wk->st = st;
+    snprintf(wk->msg, sizeof wk->msg, "at p = %.17g: %s", p, lvs_errmsg(tctx));
+    return 1;
+  }
+  if (rec) pack_record(so->j, k, w, u, rec);
+  pthread_mutex_lock(&so->mu);
+  if (rec && !so->io_err) {
+    journal *j = so->j;
+    if (write_full(j->fd, rec, j->recsize, j->end) != 0 || fdatasync(j->fd) != 0) {
+      so->io_err = 1;
+      snprintf(so->io_msg, sizeof so->io_msg, "cannot write journal '%s': %s", j->own, strerror(errno));
+    } else {
+      j->end += (off_t)j->recsize;
+    }
+  }
+  so->done++;
+  if (so->progress) so->progress(so->progress_ud, so->done, so->total);
+  int bad = so->io_err;
+  pthread_mutex_unlock(&so->mu);
+  return bad;
+}
+
+/* Krylov path: the todo points of one whole run at a time (taken in turn
+ * by whichever worker is free), in ascending order, so each point but a
+ * run's first starts from its predecessor; the runs are fixed by the grid
+ * (LVS_SWEEP_KRYLOV_RUN points), so the numbers do not depend on the
+ * thread count or on which worker takes a run */
+static void work_runs(worker *wk, lvs_ctx *tctx, band_scratch *bs, unsigned char *rec) {
+  shared_out *so = wk->so;
+  for (;;) {
+    pthread_mutex_lock(&so->mu);
+    size_t t0 = so->next, t1 = t0;
+    if (t0 < wk->ntodo) {
+      size_t run = wk->todo[t0] / LVS_SWEEP_KRYLOV_RUN;
+      while (t1 < wk->ntodo && wk->todo[t1] / LVS_SWEEP_KRYLOV_RUN == run) t1++;
+    }
+    so->next = t1;
+    int bad = so->io_err;
+    pthread_mutex_unlock(&so->mu);
+    if (t0 == t1 || bad) return;
+    for (size_t t = t0; t < t1; t++)
+      if (work_point(wk, tctx, bs, rec, wk->todo[t])) {
+        pthread_mutex_lock(&so->mu);
+        so->next = wk->ntodo; /* the others stop at their next run */
+        pthread_mutex_unlock(&so->mu);
+        return;
+      }
+  }
+}
+
 static void *work(void *arg) {
   worker *wk = arg;
-  const model *md = wk->md;
   wk->st = LVS_OK;
   lvs_ctx *tctx = lvs_ctx_new(locked_alloc_fn, wk->la);
   if (!tctx) {
@@ -868,7 +1078,7 @@ static void *work(void *arg) {
   }
   lvs_ctx_set_dense_cap(tctx, wk->dense_cap);
   shared_out *so = wk->so;
-  band_scratch bs = {NULL, NULL, NULL, NULL};
+  band_scratch bs = {0};
   unsigned char *rec = NULL;
   if (so->j) {
     rec = lvsi_malloc(tctx, so->j->recsize);
@@ -879,35 +1089,11 @@ static void *work(void *arg) {
       return NULL;
     }
   }
-  for (size_t t = (size_t)wk->tid; t < wk->ntodo; t += (size_t)wk->nthreads) {
-    size_t k = wk->todo[t];
-    double p = grid_p(wk->from, wk->to, wk->steps, k);
-    double *w = wk->w + (k - wk->k0) * md->count;
-    double complex *u = wk->vec + (k - wk->k0) * md->n * md->count;
-    int st = solve_point_bs(tctx, md, p, md->count, w, u, &bs,
-                            wk->hmat ? wk->hmat + (k - wk->k0) * wk->hlen : NULL);
-    if (st) {
-      wk->st = st;
-      snprintf(wk->msg, sizeof wk->msg, "at p = %.17g: %s", p, lvs_errmsg(tctx));
-      break;
-    }
-    if (rec) pack_record(so->j, k, w, u, rec);
-    pthread_mutex_lock(&so->mu);
-    if (rec && !so->io_err) {
-      journal *j = so->j;
-      if (write_full(j->fd, rec, j->recsize, j->end) != 0 || fdatasync(j->fd) != 0) {
-        so->io_err = 1;
-        snprintf(so->io_msg, sizeof so->io_msg, "cannot write journal '%s': %s", j->own, strerror(errno));
-      } else {
-        j->end += (off_t)j->recsize;
-      }
-    }
-    so->done++;
-    if (so->progress) so->progress(so->progress_ud, so->done, so->total);
-    int bad = so->io_err;
-    pthread_mutex_unlock(&so->mu);
-    if (bad) break;
-  }
+  if (wk->md->krylov)
+    work_runs(wk, tctx, &bs, rec);
+  else
+    for (size_t t = (size_t)wk->tid; t < wk->ntodo; t += (size_t)wk->nthreads)
+      if (work_point(wk, tctx, &bs, rec, wk->todo[t])) break;
   lvsi_free(tctx, rec);
   band_scratch_free(tctx, &bs);
   lvs_ctx_free(tctx);
@@ -921,6 +1107,7 @@ static int run_workers(lvs_ctx *ctx, worker *tmpl, int nthreads) {
   int nt = nthreads;
   if ((size_t)nt > tmpl->ntodo) nt = (int)tmpl->ntodo;
   if (nt < 1) return LVS_OK;
+  tmpl->so->next = 0;
   for (int t = 0; t < nt; t++) {
     wk[t] = *tmpl;
     wk[t].tid = t;
@@ -1082,14 +1269,33 @@ static int family_at(lvs_ctx *ctx, const model *md, double p, double *out) {
   return LVS_OK;
 }
 
-static int gap_at(lvs_ctx *ctx, const model *md, double p, size_t r, double *w, double *g) {
+/* Krylov path: the golden-section search's solves, each started from the
+ * vectors of the one before (points closer and closer together); vc and
+ * vp hold n x (r + 2) values each, *first says none is there yet */
+typedef struct {
+  band_scratch bs;
+  double complex *vc, *vp;
+  int first;
+} gap_warm;
+
+static int gap_at(lvs_ctx *ctx, const model *md, double p, size_t r, double *w, double *g, gap_warm *gw) {
   int st;
+  if (gw) {
+    st = solve_krylov(ctx, md, p, r + 2, w, gw->vc, &gw->bs, gw->first ? NULL : gw->vp);
+    if (st) return st;
+    double complex *t = gw->vc;
+    gw->vc = gw->vp;
+    gw->vp = t;
+    gw->first = 0;
+    *g = w[r + 1] - w[r];
+    return LVS_OK;
+  }
   if (md->family) {
     size_t len = md->n * md->n * (md->cplx ? 2 : 1);
     double *hf = lvsi_malloc(ctx, len * sizeof(double));
     if (!hf) return lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory");
     st = family_at(ctx, md, p, hf);
-    if (!st) st = solve_point_bs(ctx, md, p, r + 2, w, NULL, NULL, hf);
+    if (!st) st = solve_point_bs(ctx, md, p, r + 2, w, NULL, NULL, hf, NULL);
     lvsi_free(ctx, hf);
   } else {
     st = solve_point(ctx, md, p, r + 2, w, NULL);
@@ -1209,9 +1415,46 @@ static int add_series(lvs_sweep *s, const lvs_sweep_spec *spec) {
   return st;
 }
 
-int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
-  if (out) *out = NULL;
-  if (!ctx || !out) return LVS_EINVAL;
+/* Everything one lvs_sweep_new call holds while it runs; the phases below
+ * fill it in order and job_free releases it (NULL members are fine). */
+typedef struct {
+  lvs_ctx *ctx;
+  const lvs_sweep_spec *spec;
+  size_t n, count, steps, npts;
+  int cplx, nthreads;
+  lvs_sweep *s;
+  model md;
+  /* model: dense visible blocks, band storage, symmetry sectors */
+  double *h0a, *va, *bandst, *secband;
+  size_t *seccomp, *secoff, *secidx, nsec;
+  bandmod *secs;
+  int path, auto_path; /* SWEEP_PATH_*: the one taken, the one AUTO takes */
+  lvs_matrix *ph0, *pv; /* plain visible copies (deciding AUTO; the Krylov path) */
+  size_t *kcp, *kri;    /* Krylov path: union pattern and values (model.k*) */
+  double *ka;
+  /* journal and the workers' shared output */
+  journal jn;
+  shared_out so;
+  locked_alloc la;
+  unsigned char *rec;
+  /* points of a block and the tracking state */
+  size_t blk;
+  double *hbuf, *wblk, *work_d;
+  double complex *vblk, *prev, *tmp;
+  size_t *pi, *perm, *iw, *todo;
+  char *cw;
+  ranked *srt;
+  size_t ccap;
+  double escale, degen_tol;
+  int blas_threads;
+} sweep_job;
+
+enum { SWEEP_PATH_DENSE, SWEEP_PATH_BAND, SWEEP_PATH_KRYLOV };
+
+static int job_nomem(sweep_job *jb) { return lvsi_fail(jb->ctx, LVS_ENOMEM, "sweep: out of memory"); }
+
+/* phase 1: the spec, checked before anything is allocated */
+static int spec_check(lvs_ctx *ctx, const lvs_sweep_spec *spec) {
   if (!spec || !spec->h0 || !spec->v)
     return lvsi_fail(ctx, LVS_EINVAL, spec && spec->family ? "sweep of a family needs H(from) and H(to)"
                                                            : "sweep needs H0 and V");
@@ -1243,427 +1486,797 @@ int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
     return lvsi_fail(ctx, LVS_ERANGE, "shard must be from 1 to %zu, got %zu", spec->shards, spec->shard);
   if ((spec->shards || spec->merge_only) && (!spec->journal || !*spec->journal))
     return lvsi_fail(ctx, LVS_EINVAL, "shards and merges need an output path (the journal base)");
+  if (spec->method < LVS_SWEEP_AUTO || spec->method > LVS_SWEEP_KRYLOV)
+    return lvsi_fail(ctx, LVS_EINVAL, "sweep: unknown method %d", spec->method);
+  const char *mname = spec->method == LVS_SWEEP_BAND ? "band" : "krylov";
+  if (spec->family && (spec->method == LVS_SWEEP_BAND || spec->method == LVS_SWEEP_KRYLOV))
+    return lvsi_fail(ctx, LVS_EINVAL, "method '%s' needs H0 and V (not a family given as a function)", mname);
+  if (spec->method == LVS_SWEEP_BAND && (lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v) || n < 16))
+    return lvsi_fail(ctx, LVS_EINVAL, "method 'band' needs a real H0 and V of at least 16 states (got %zu, %s)", n,
+                     lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v) ? "complex" : "real");
+  return lvsi_dense_ok(ctx, spec->count, spec->steps + 1, sizeof(double), "sweep (energies)");
+}
 
-  size_t count = spec->count, steps = spec->steps, npts = steps + 1;
-  int cplx = lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v);
-  if ((st = lvsi_dense_ok(ctx, count, npts, sizeof(double), "sweep (energies)"))) return st;
-
-  lvs_sweep *s = NULL;
+/* phase 2a: dense copies of the visible blocks, both of the common kind,
+ * and (real models) the components of the union sparsity of H0 and V */
+static int model_dense(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  size_t n = jb->n;
+  int cplx = jb->cplx, st;
   lvs_matrix *dh = NULL, *dv = NULL;
-  double *h0a = NULL, *va = NULL, *wblk = NULL, *work_d = NULL, *bandst = NULL, *hbuf = NULL;
-  size_t *seccomp = NULL, *secoff = NULL, *secidx = NULL, nsec = 0;
-  bandmod *secs = NULL;
-  double *secband = NULL;
-  double complex *vblk = NULL, *prev = NULL, *tmp = NULL;
-  size_t *pi = NULL, *perm = NULL, *iw = NULL, *todo = NULL;
-  char *cw = NULL;
-  ranked *srt = NULL;
-  unsigned char *rec = NULL;
-  size_t ccap = 0;
-  locked_alloc la;
-  la.f = ctx->alloc;
-  la.ud = ctx->ud;
-  pthread_mutex_init(&la.mu, NULL);
-  journal jn;
-  memset(&jn, 0, sizeof jn);
-  jn.fd = -1;
-  shared_out so;
-  memset(&so, 0, sizeof so);
-  pthread_mutex_init(&so.mu, NULL);
-  int blas_threads = 0;
-
-  /* dense copies of the visible blocks, both of the common kind */
-  {
-    if ((st = lvs_matrix_visible(h0, 1, &dh))) goto fail;
-    if ((st = lvs_matrix_visible(v, 1, &dv))) goto fail;
-    size_t len = n * n * (cplx ? 2 : 1);
-    h0a = lvsi_malloc(ctx, len * sizeof(double));
-    va = lvsi_malloc(ctx, len * sizeof(double));
-    if (!h0a || !va) goto nomem;
-    for (size_t j = 0; j < n; j++)
-      for (size_t i = 0; i < n; i++) {
-        double re, im;
-        size_t at = j * n + i;
-        lvs_matrix_get(dh, i, j, &re, &im);
-        if (cplx) { h0a[2 * at] = re; h0a[2 * at + 1] = im; } else h0a[at] = re;
-        lvs_matrix_get(dv, i, j, &re, &im);
-        if (cplx) { va[2 * at] = re; va[2 * at + 1] = im; } else va[at] = re;
-      }
-    /* symmetry sectors: components of the union sparsity of H0 and V */
-    if (!cplx && n >= 16 && !spec->family) {
-      seccomp = lvsi_malloc(ctx, n * sizeof(size_t));
-      if (!seccomp) goto nomem;
-      if ((st = lvsi_components(dh, dv, seccomp, &nsec))) goto fail;
-    }
-    lvs_matrix_free(dh);
-    lvs_matrix_free(dv);
-    dh = dv = NULL;
+  if ((st = lvs_matrix_visible(jb->spec->h0, 1, &dh)) || (st = lvs_matrix_visible(jb->spec->v, 1, &dv))) goto out;
+  size_t len = n * n * (cplx ? 2 : 1);
+  jb->h0a = lvsi_malloc(ctx, len * sizeof(double));
+  jb->va = lvsi_malloc(ctx, len * sizeof(double));
+  if (!jb->h0a || !jb->va) {
+    st = job_nomem(jb);
+    goto out;
   }
-  model md = {n, count, cplx, h0a, va, -1, NULL, NULL, spec->family, spec->family_ud, 0, NULL, NULL, NULL};
-  if (!cplx && n >= 16 && !spec->family) {
-    long k1 = bandwidth(h0a, n), k2 = bandwidth(va, n);
-    long kd = k1 > k2 ? k1 : k2;
-    if (kd >= 1 && 4 * (size_t)kd <= n) {
-      size_t ld = (size_t)kd + 1;
-      bandst = lvsi_calloc(ctx, 2 * ld * n, sizeof(double));
-      if (!bandst) goto nomem;
-      for (size_t j = 0; j < n; j++)
-        for (size_t r = 0; r < ld && j + r < n; r++) {
-          bandst[j * ld + r] = h0a[j * n + j + r];
-          bandst[ld * n + j * ld + r] = va[j * n + j + r];
-        }
-      md.kd = kd;
-      md.hb0 = bandst;
-      md.vb = bandst + ld * n;
-    }
-  }
-  if (md.kd >= 0 && nsec >= 2) {
-    /* per sector: its states ascending, its half-bandwidth in that order
-     * (never above the full one), its band storage */
-    secoff = lvsi_calloc(ctx, nsec + 1 + 2 * n, sizeof(size_t));
-    secs = lvsi_calloc(ctx, nsec, sizeof *secs);
-    if (!secoff || !secs) goto nomem;
-    secidx = secoff + nsec + 1;
-    size_t *pos = secidx + n;
-    for (size_t i = 0; i < n; i++) secoff[seccomp[i] + 1]++;
-    for (size_t c = 0; c < nsec; c++) secoff[c + 1] += secoff[c];
-    for (size_t c = 0; c < nsec; c++) secs[c].n = 0;
+  for (size_t j = 0; j < n; j++)
     for (size_t i = 0; i < n; i++) {
-      size_t c = seccomp[i];
-      pos[i] = secs[c].n++;
-      secidx[secoff[c] + pos[i]] = i;
+      double re, im;
+      size_t at = j * n + i;
+      lvs_matrix_get(dh, i, j, &re, &im);
+      if (cplx) { jb->h0a[2 * at] = re; jb->h0a[2 * at + 1] = im; } else jb->h0a[at] = re;
+      lvs_matrix_get(dv, i, j, &re, &im);
+      if (cplx) { jb->va[2 * at] = re; jb->va[2 * at + 1] = im; } else jb->va[at] = re;
     }
-    for (size_t j = 0; j < n; j++)
-      for (size_t i = j + 1; i < n && i <= j + (size_t)md.kd; i++)
-        if (h0a[j * n + i] != 0 || va[j * n + i] != 0) {
-          size_t c = seccomp[i], d = pos[i] - pos[j];
-          if (d > secs[c].kd) secs[c].kd = d;
-        }
-    size_t tot = 0;
-    for (size_t c = 0; c < nsec; c++) {
-      if (secs[c].kd < 1) secs[c].kd = 1;
-      tot += 2 * (secs[c].kd + 1) * secs[c].n;
-    }
-    secband = lvsi_calloc(ctx, tot, sizeof(double));
-    if (!secband) goto nomem;
-    double *at = secband;
-    for (size_t c = 0; c < nsec; c++) {
-      size_t ld = secs[c].kd + 1, nc = secs[c].n;
-      const size_t *idx = secidx + secoff[c];
-      for (size_t b = 0; b < nc; b++)
-        for (size_t r = 0; r < ld && b + r < nc; r++) {
-          size_t gi = idx[b + r], gj = idx[b];
-          at[b * ld + r] = h0a[gj * n + gi];
-          at[ld * nc + b * ld + r] = va[gj * n + gi];
-        }
-      secs[c].hb0 = at;
-      secs[c].vb = at + ld * nc;
-      at += 2 * ld * nc;
-    }
-    md.nsec = nsec;
-    md.secoff = secoff;
-    md.secidx = secidx;
-    md.sec = secs;
+  if (!cplx && n >= 16 && !jb->spec->family) {
+    jb->seccomp = lvsi_malloc(ctx, n * sizeof(size_t));
+    if (!jb->seccomp) st = job_nomem(jb);
+    else st = lvsi_components(dh, dv, jb->seccomp, &jb->nsec);
   }
+out:
+  lvs_matrix_free(dh);
+  lvs_matrix_free(dv);
+  return st;
+}
 
-  s = lvsi_calloc(ctx, 1, sizeof *s);
-  if (!s) goto nomem;
-  s->ctx = ctx;
-  s->n = n;
-  s->count = count;
-  s->npts = npts;
-  s->from = spec->from;
-  s->to = spec->to;
-  s->min_overlap = 1.0;
-  s->e = lvsi_malloc(ctx, count * npts * sizeof(double));
-  if (!s->e) goto nomem;
-  for (size_t q = 0; q < count * npts; q++) s->e[q] = NAN;
+/* phase 2b: the band path when H0 and V are real and banded (4 kd <= n) */
+static int model_band(sweep_job *jb) {
+  size_t n = jb->n;
+  if (jb->cplx || n < 16 || jb->spec->family) return LVS_OK;
+  long k1 = bandwidth(jb->h0a, n), k2 = bandwidth(jb->va, n);
+  long kd = k1 > k2 ? k1 : k2;
+  if (jb->spec->method == LVS_SWEEP_BAND && kd < 1) kd = 1; /* forced: a diagonal model too */
+  if (!(kd >= 1 && (4 * (size_t)kd <= n || jb->spec->method == LVS_SWEEP_BAND))) return LVS_OK;
+  size_t ld = (size_t)kd + 1;
+  jb->bandst = lvsi_calloc(jb->ctx, 2 * ld * n, sizeof(double));
+  if (!jb->bandst) return job_nomem(jb);
+  for (size_t j = 0; j < n; j++)
+    for (size_t r = 0; r < ld && j + r < n; r++) {
+      jb->bandst[j * ld + r] = jb->h0a[j * n + j + r];
+      jb->bandst[ld * n + j * ld + r] = jb->va[j * n + j + r];
+    }
+  jb->md.kd = kd;
+  jb->md.hb0 = jb->bandst;
+  jb->md.vb = jb->bandst + ld * n;
+  return LVS_OK;
+}
 
-  /* journal: own file plus (whole runs) the part files of shards */
-  if (spec->journal && *spec->journal) {
-    jn.n = n;
-    jn.count = count;
-    jn.npts = npts;
-    jn.cplx = cplx;
-    uint64_t h = FNV0;
-    size_t len = n * n * (cplx ? 2 : 1);
-    uint64_t hdr[4] = {n, count, steps, (uint64_t)cplx};
-    h = fnv(h, hdr, sizeof hdr);
-    h = fnv(h, &spec->from, sizeof(double));
-    h = fnv(h, &spec->to, sizeof(double));
-    h = fnv(h, h0a, len * sizeof(double));
-    h = fnv(h, va, len * sizeof(double));
-    jn.hash = h;
-    jn.recsize = 8 * (2 + count + n * count * (cplx ? 2 : 1));
-    if ((st = journal_open(ctx, &jn, spec->journal, spec->shard, spec->shards, spec->merge_only))) goto fail;
-    so.j = &jn;
-    /* remember the files to remove after the final write */
-    s->used = lvsi_calloc(ctx, (size_t)jn.nfiles + 1, sizeof(char *));
-    if (!s->used) goto nomem;
-    for (int i = 0; i < jn.nfiles; i++)
-      if (!(s->used[i] = dupstr(ctx, jn.names[i]))) goto nomem;
-    rec = lvsi_malloc(ctx, jn.recsize);
-    if (!rec) goto nomem;
+/* phase 2c: per symmetry sector (band path, >= 2 sectors): its states
+ * ascending, its half-bandwidth in that order (never above the full one),
+ * its band storage */
+static int model_sectors(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  size_t n = jb->n, nsec = jb->nsec;
+  const size_t *seccomp = jb->seccomp;
+  const double *h0a = jb->h0a, *va = jb->va;
+  if (jb->md.kd < 0 || nsec < 2) return LVS_OK;
+  size_t *secoff = jb->secoff = lvsi_calloc(ctx, nsec + 1 + 2 * n, sizeof(size_t));
+  bandmod *secs = jb->secs = lvsi_calloc(ctx, nsec, sizeof *secs);
+  if (!secoff || !secs) return job_nomem(jb);
+  size_t *secidx = jb->secidx = secoff + nsec + 1;
+  size_t *pos = secidx + n;
+  for (size_t i = 0; i < n; i++) secoff[seccomp[i] + 1]++;
+  for (size_t c = 0; c < nsec; c++) secoff[c + 1] += secoff[c];
+  for (size_t c = 0; c < nsec; c++) secs[c].n = 0;
+  for (size_t i = 0; i < n; i++) {
+    size_t c = seccomp[i];
+    pos[i] = secs[c].n++;
+    secidx[secoff[c] + pos[i]] = i;
   }
-  so.progress = spec->progress;
-  so.progress_ud = spec->progress_ud;
-  for (size_t k = 0; k < npts; k++) {
-    int mine = !spec->shards || k % spec->shards == spec->shard - 1;
-    if (!mine) continue;
-    so.total++;
-    if (so.j && jn.rec_file[k] >= 0) so.done++;
-  }
-  if (spec->merge_only && so.done < so.total) {
-    for (size_t k = 0; k < npts; k++)
-      if (jn.rec_file[k] < 0) {
-        st = lvsi_fail(ctx, LVS_EINVAL,
-                       "merge: %zu of %zu points are in no part file (first: point %zu, p = %.17g); "
-                       "run the missing shards first",
-                       so.total - so.done, so.total, k + 1, grid_p(spec->from, spec->to, steps, k));
-        goto fail;
+  for (size_t j = 0; j < n; j++)
+    for (size_t i = j + 1; i < n && i <= j + (size_t)jb->md.kd; i++)
+      if (h0a[j * n + i] != 0 || va[j * n + i] != 0) {
+        size_t c = seccomp[i], d = pos[i] - pos[j];
+        if (d > secs[c].kd) secs[c].kd = d;
       }
+  size_t tot = 0;
+  for (size_t c = 0; c < nsec; c++) {
+    if (secs[c].kd < 1) secs[c].kd = 1;
+    tot += 2 * (secs[c].kd + 1) * secs[c].n;
   }
-  if (so.progress) so.progress(so.progress_ud, so.done, so.total);
+  double *at = jb->secband = lvsi_calloc(ctx, tot, sizeof(double));
+  if (!at) return job_nomem(jb);
+  for (size_t c = 0; c < nsec; c++) {
+    size_t ld = secs[c].kd + 1, nc = secs[c].n;
+    const size_t *idx = secidx + secoff[c];
+    for (size_t b = 0; b < nc; b++)
+      for (size_t r = 0; r < ld && b + r < nc; r++) {
+        size_t gi = idx[b + r], gj = idx[b];
+        at[b * ld + r] = h0a[gj * n + gi];
+        at[ld * nc + b * ld + r] = va[gj * n + gi];
+      }
+    secs[c].hb0 = at;
+    secs[c].vb = at + ld * nc;
+    at += 2 * ld * nc;
+  }
+  jb->md.nsec = nsec;
+  jb->md.secoff = secoff;
+  jb->md.secidx = secidx;
+  jb->md.sec = secs;
+  return LVS_OK;
+}
 
-  /* block size: about 4 MB of vectors (reused, so few fresh pages), at
-   * least one point per thread */
+/* the entries of column j of a plain matrix in ascending rows: a sparse
+ * column as stored, a dense one's nonzeros */
+typedef struct {
+  const lvs_matrix *m;
+  size_t j, k, end;
+} colcur;
+
+static void cur_skip(colcur *c) {
+  const lvs_matrix *m = c->m;
+  if (m->sparse) return;
+  size_t w = m->cplx ? 2 : 1, at = c->j * m->rows;
+  while (c->k < c->end && m->a[w * (at + c->k)] == 0.0 && (w == 1 || m->a[w * (at + c->k) + 1] == 0.0)) c->k++;
+}
+
+static void cur_start(colcur *c, const lvs_matrix *m, size_t j) {
+  c->m = m;
+  c->j = j;
+  c->k = m->sparse ? m->cp[j] : 0;
+  c->end = m->sparse ? m->cp[j + 1] : m->rows;
+  cur_skip(c);
+}
+
+static size_t cur_row(const colcur *c) {
+  if (c->k >= c->end) return SIZE_MAX;
+  return c->m->sparse ? c->m->ri[c->k] : c->k;
+}
+
+/* value of the current entry (re, im) and advance */
+static void cur_take(colcur *c, double *re, double *im) {
+  const lvs_matrix *m = c->m;
+  size_t w = m->cplx ? 2 : 1, at = m->sparse ? c->k : c->j * m->rows + c->k;
+  *re = m->a[w * at];
+  *im = w == 2 ? m->a[w * at + 1] : 0.0;
+  c->k++;
+  cur_skip(c);
+}
+
+/* phase 2d: the Krylov path's model, the union pattern of the plain
+ * copies of H0 and V with each one's values on it (two passes: count,
+ * fill); no dense copy of anything n x n */
+static int has_imag(const lvs_matrix *m) {
+  if (!m->cplx) return 0;
+  size_t cnt = m->sparse ? m->nnz : m->rows * m->cols;
+  for (size_t k = 0; k < cnt; k++)
+    if (m->a[2 * k + 1] != 0.0) return 1;
+  return 0;
+}
+
+static int model_krylov(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  /* complex storage with every imaginary part zero (Sy Sy products) is a
+   * real model: real values, real records, the real Lanczos, no per-point
+   * real copy inside lvs_eigen_ex */
+  if (jb->cplx && !has_imag(jb->ph0) && !has_imag(jb->pv)) jb->cplx = 0;
+  jb->md.cplx = jb->cplx;
+  size_t n = jb->n, w = jb->cplx ? 2 : 1, nnz = 0;
+  colcur a, b;
+  for (int pass = 0; pass < 2; pass++) {
+    if (pass) {
+      jb->kcp = lvsi_malloc(ctx, (n + 1) * sizeof(size_t));
+      jb->kri = lvsi_malloc(ctx, (nnz ? nnz : 1) * sizeof(size_t));
+      jb->ka = lvsi_malloc(ctx, 2 * (nnz ? nnz : 1) * w * sizeof(double));
+      if (!jb->kcp || !jb->kri || !jb->ka) return job_nomem(jb);
+    }
+    size_t q = 0;
+    double *a0 = jb->ka, *a1 = jb->ka ? jb->ka + nnz * w : NULL;
+    for (size_t j = 0; j < n; j++) {
+      if (pass) jb->kcp[j] = q;
+      cur_start(&a, jb->ph0, j);
+      cur_start(&b, jb->pv, j);
+      for (;;) {
+        size_t ia = cur_row(&a), ib = cur_row(&b), i = ia < ib ? ia : ib;
+        if (i == SIZE_MAX) break;
+        double r0 = 0, i0 = 0, r1 = 0, i1 = 0;
+        if (ia == i) cur_take(&a, &r0, &i0);
+        if (ib == i) cur_take(&b, &r1, &i1);
+        if (r0 == 0 && i0 == 0 && r1 == 0 && i1 == 0) continue; /* stored zeros */
+        if (pass) {
+          jb->kri[q] = i;
+          a0[w * q] = r0;
+          a1[w * q] = r1;
+          if (w == 2) { a0[w * q + 1] = i0; a1[w * q + 1] = i1; }
+        }
+        q++;
+      }
+    }
+    if (pass) jb->kcp[n] = q;
+    nnz = q;
+  }
+  jb->md.krylov = jb->spec->method == LVS_SWEEP_KRYLOV ? 2 : 1;
+  jb->md.knnz = nnz;
+  jb->md.kcp = jb->kcp;
+  jb->md.kri = jb->kri;
+  jb->md.ka0 = jb->ka;
+  jb->md.ka1 = jb->ka + nnz * w;
+  return LVS_OK;
+}
+
+/* phase 2e: the path (the rule is in levelshift.h at lvs_sweep_method):
+ * AUTO looks at the storage, size and true bandwidth of plain copies of H0
+ * and V (O(nnz) for sparse ones), never at a dense copy */
+static int model_choose(sweep_job *jb) {
+  const lvs_sweep_spec *spec = jb->spec;
+  size_t n = jb->n;
+  int st;
+  jb->auto_path = SWEEP_PATH_DENSE;
+  if (!spec->family) {
+    if ((st = lvs_matrix_visible(spec->h0, 0, &jb->ph0)) || (st = lvs_matrix_visible(spec->v, 0, &jb->pv))) return st;
+    long k1 = lvsi_mat_bandwidth(jb->ph0), k2 = lvsi_mat_bandwidth(jb->pv), kd = k1 > k2 ? k1 : k2;
+    int band_ok = !jb->cplx && n >= 16 && kd >= 1 && 4 * (size_t)kd <= n;
+    int sparse = lvs_matrix_is_sparse(jb->ph0) && lvs_matrix_is_sparse(jb->pv);
+    if (band_ok) jb->auto_path = SWEEP_PATH_BAND;
+    else if (sparse && n > LVS_KRYLOV_MIN_DIM && 8 * jb->count <= n) jb->auto_path = SWEEP_PATH_KRYLOV;
+  }
+  static const int forced[] = {-1, SWEEP_PATH_DENSE, SWEEP_PATH_BAND, SWEEP_PATH_KRYLOV};
+  jb->path = spec->method == LVS_SWEEP_AUTO ? jb->auto_path : forced[spec->method];
+  return LVS_OK;
+}
+
+/* phase 2: the model each point is solved on */
+static int model_setup(sweep_job *jb) {
+  const lvs_sweep_spec *spec = jb->spec;
+  int st;
+  if ((st = model_choose(jb))) return st;
+  jb->md = (model){jb->n, jb->count, jb->cplx, NULL, NULL, -1, NULL, NULL, spec->family, spec->family_ud,
+                   0, NULL, NULL, NULL, 0, 0, NULL, NULL, NULL, NULL};
+  if (jb->path == SWEEP_PATH_KRYLOV) return model_krylov(jb);
+  lvs_matrix_free(jb->ph0);
+  lvs_matrix_free(jb->pv);
+  jb->ph0 = jb->pv = NULL;
+  if ((st = model_dense(jb))) return st;
+  jb->md.h0 = jb->h0a;
+  jb->md.v = jb->va;
+  if (jb->path == SWEEP_PATH_DENSE) return LVS_OK;
+  if ((st = model_band(jb))) return st;
+  return model_sectors(jb);
+}
+
+/* phase 3: the result object, energies NaN until tracked */
+static int result_new(sweep_job *jb) {
+  lvs_sweep *s = jb->s = lvsi_calloc(jb->ctx, 1, sizeof *s);
+  if (!s) return job_nomem(jb);
+  s->ctx = jb->ctx;
+  s->n = jb->n;
+  s->count = jb->count;
+  s->npts = jb->npts;
+  s->from = jb->spec->from;
+  s->to = jb->spec->to;
+  s->min_overlap = 1.0;
+  s->method = jb->md.krylov ? LVS_SWEEP_KRYLOV : jb->md.kd >= 0 ? LVS_SWEEP_BAND : LVS_SWEEP_DENSE;
+  s->e = lvsi_malloc(jb->ctx, jb->count * jb->npts * sizeof(double));
+  if (!s->e) return job_nomem(jb);
+  for (size_t q = 0; q < jb->count * jb->npts; q++) s->e[q] = NAN;
+  return LVS_OK;
+}
+
+/* is point k this process's to compute (all of them unless a shard):
+ * round-robin by point, on the Krylov path by run (warm starts) */
+static int point_mine(const sweep_job *jb, size_t k) {
+  const lvs_sweep_spec *spec = jb->spec;
+  if (!spec->shards) return 1;
+  size_t unit = jb->md.krylov ? k / LVS_SWEEP_KRYLOV_RUN : k;
+  return unit % spec->shards == spec->shard - 1;
+}
+
+/* the journal's fingerprint of the sweep: sizes, grid, the model's
+ * entries and, when it is not AUTO's, the path (its numbers differ) */
+static uint64_t model_hash(const sweep_job *jb) {
+  const lvs_sweep_spec *spec = jb->spec;
+  size_t n = jb->n, w = jb->cplx ? 2 : 1;
+  uint64_t h = FNV0;
+  uint64_t hdr[4] = {n, jb->count, jb->steps, (uint64_t)jb->cplx};
+  h = fnv(h, hdr, sizeof hdr);
+  h = fnv(h, &spec->from, sizeof(double));
+  h = fnv(h, &spec->to, sizeof(double));
+  if (jb->md.krylov) {
+    uint64_t tag[2] = {0x6b72796c6f76ULL, (uint64_t)jb->md.krylov}; /* "krylov", forced or not */
+    h = fnv(h, tag, sizeof tag);
+    h = fnv(h, jb->kcp, (n + 1) * sizeof(size_t));
+    h = fnv(h, jb->kri, jb->md.knnz * sizeof(size_t));
+    return fnv(h, jb->ka, 2 * jb->md.knnz * w * sizeof(double));
+  }
+  h = fnv(h, jb->h0a, n * n * w * sizeof(double));
+  h = fnv(h, jb->va, n * n * w * sizeof(double));
+  if (jb->path != jb->auto_path) {
+    uint64_t tag = 0x70617468ULL + (uint64_t)jb->path;
+    h = fnv(h, &tag, sizeof tag);
+  }
+  return h;
+}
+
+/* phase 4: the journal (own file plus, for whole runs, the part files of
+ * shards), what it already holds, and the merge's completeness check */
+static int journal_setup(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  const lvs_sweep_spec *spec = jb->spec;
+  journal *jn = &jb->jn;
+  shared_out *so = &jb->so;
+  size_t n = jb->n, count = jb->count, npts = jb->npts;
+  int st;
+  if (spec->journal && *spec->journal) {
+    jn->n = n;
+    jn->count = count;
+    jn->npts = npts;
+    jn->cplx = jb->cplx;
+    jn->hash = model_hash(jb);
+    jn->recsize = 8 * (2 + count + n * count * (jb->cplx ? 2 : 1));
+    if ((st = journal_open(ctx, jn, spec->journal, spec->shard, spec->shards, spec->merge_only))) return st;
+    so->j = jn;
+    /* remember the files to remove after the final write */
+    jb->s->used = lvsi_calloc(ctx, (size_t)jn->nfiles + 1, sizeof(char *));
+    if (!jb->s->used) return job_nomem(jb);
+    for (int i = 0; i < jn->nfiles; i++)
+      if (!(jb->s->used[i] = dupstr(ctx, jn->names[i]))) return job_nomem(jb);
+    jb->rec = lvsi_malloc(ctx, jn->recsize);
+    if (!jb->rec) return job_nomem(jb);
+  }
+  so->progress = spec->progress;
+  so->progress_ud = spec->progress_ud;
+  for (size_t k = 0; k < npts; k++) {
+    if (!point_mine(jb, k)) continue;
+    so->total++;
+    if (so->j && jn->rec_file[k] >= 0) so->done++;
+  }
+  if (spec->merge_only && so->done < so->total) {
+    for (size_t k = 0; k < npts; k++)
+      if (jn->rec_file[k] < 0)
+        return lvsi_fail(ctx, LVS_EINVAL,
+                         "merge: %zu of %zu points are in no part file (first: point %zu, p = %.17g); "
+                         "run the missing shards first",
+                         so->total - so->done, so->total, k + 1, grid_p(spec->from, spec->to, jb->steps, k));
+  }
+  if (so->progress) so->progress(so->progress_ud, so->done, so->total);
+  return LVS_OK;
+}
+
+/* energy scale for tolerances: largest |entry| of H at both ends */
+static double energy_scale(const sweep_job *jb) {
+  const lvs_sweep_spec *spec = jb->spec;
+  double escale = 0;
+  const double *h0 = jb->md.krylov ? jb->md.ka0 : jb->h0a, *v = jb->md.krylov ? jb->md.ka1 : jb->va;
+  size_t len = (jb->md.krylov ? jb->md.knnz : jb->n * jb->n) * (jb->cplx ? 2 : 1); /* zeros add nothing */
+  for (size_t i = 0; i < len; i++) {
+    double a1 = fabs(h0[i] + spec->from * v[i]), a2 = fabs(h0[i] + spec->to * v[i]);
+    if (spec->family) { a1 = fabs(h0[i]); a2 = fabs(v[i]); } /* H(from), H(to) */
+    if (a1 > escale) escale = a1;
+    if (a2 > escale) escale = a2;
+  }
+  return escale == 0 ? 1 : escale;
+}
+
+/* phase 5: block size (about 4 MB of vectors, reused, so few fresh pages;
+ * at least one point per thread) and the buffers of points and tracking */
+static int points_alloc(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  size_t n = jb->n, count = jb->count, nthreads = (size_t)jb->nthreads;
+  int cplx = jb->cplx, st;
   size_t per = n * count * sizeof(double complex);
   size_t blk = (size_t)(4u << 20) / (per ? per : 1);
-  if (blk < (size_t)nthreads) blk = (size_t)nthreads;
-  if (spec->family) { /* H(p_k) of a block held densely: about 64 MB */
+  if (blk < nthreads) blk = nthreads;
+  if (jb->spec->family) { /* H(p_k) of a block held densely: about 64 MB */
     size_t hb = (size_t)(64u << 20) / (n * n * sizeof(double) * (cplx ? 2 : 1));
-    if (hb < (size_t)nthreads) hb = (size_t)nthreads;
+    if (hb < nthreads) hb = nthreads;
     if (blk > hb) blk = hb;
   }
-  if (blk > npts) blk = npts;
-  if ((st = lvsi_dense_ok(ctx, blk, n * count, sizeof(double complex), "sweep (vectors of a block)")))
-    goto fail;
-  if (spec->family) {
-    if ((st = lvsi_dense_ok(ctx, blk, n * n * (cplx ? 2 : 1), sizeof(double), "sweep (H(p) of a block)"))) goto fail;
-    hbuf = lvsi_malloc(ctx, blk * n * n * (cplx ? 2 : 1) * sizeof(double));
-    if (!hbuf) goto nomem;
+  if (jb->md.krylov) { /* whole runs, at least one per thread */
+    size_t runs = blk / LVS_SWEEP_KRYLOV_RUN;
+    blk = LVS_SWEEP_KRYLOV_RUN * (runs > nthreads ? runs : nthreads);
   }
-  wblk = lvsi_malloc(ctx, blk * count * sizeof(double));
-  vblk = lvsi_malloc(ctx, blk * n * count * sizeof(double complex));
-  prev = lvsi_malloc(ctx, n * count * sizeof(double complex));
-  tmp = lvsi_malloc(ctx, n * count * sizeof(double complex));
-  work_d = lvsi_malloc(ctx, (count * count + 3 * (count + 1) + count) * sizeof(double));
-  pi = lvsi_malloc(ctx, count * sizeof(size_t));
-  perm = lvsi_malloc(ctx, count * sizeof(size_t));
-  iw = lvsi_malloc(ctx, 2 * (count + 1) * sizeof(size_t));
-  todo = lvsi_malloc(ctx, blk * sizeof(size_t));
-  cw = lvsi_malloc(ctx, count + 1);
-  if (!wblk || !vblk || !prev || !tmp || !work_d || !pi || !perm || !iw || !todo || !cw) goto nomem;
-  double *cost = work_d, *hu = cost + count * count, *hv = hu + count + 1, *hmin = hv + count + 1,
+  if (blk > jb->npts) blk = jb->npts;
+  jb->blk = blk;
+  if ((st = lvsi_dense_ok(ctx, blk, n * count, sizeof(double complex), "sweep (vectors of a block)"))) return st;
+  if (jb->spec->family) {
+    if ((st = lvsi_dense_ok(ctx, blk, n * n * (cplx ? 2 : 1), sizeof(double), "sweep (H(p) of a block)"))) return st;
+    if (!(jb->hbuf = lvsi_malloc(ctx, blk * n * n * (cplx ? 2 : 1) * sizeof(double)))) return job_nomem(jb);
+  }
+  jb->wblk = lvsi_malloc(ctx, blk * count * sizeof(double));
+  jb->vblk = lvsi_malloc(ctx, blk * n * count * sizeof(double complex));
+  jb->prev = lvsi_malloc(ctx, n * count * sizeof(double complex));
+  jb->tmp = lvsi_malloc(ctx, n * count * sizeof(double complex));
+  jb->work_d = lvsi_malloc(ctx, (count * count + 3 * (count + 1) + count) * sizeof(double));
+  jb->pi = lvsi_malloc(ctx, count * sizeof(size_t));
+  jb->perm = lvsi_malloc(ctx, count * sizeof(size_t));
+  jb->iw = lvsi_malloc(ctx, 2 * (count + 1) * sizeof(size_t));
+  jb->todo = lvsi_malloc(ctx, blk * sizeof(size_t));
+  jb->cw = lvsi_malloc(ctx, count + 1);
+  if (!jb->wblk || !jb->vblk || !jb->prev || !jb->tmp || !jb->work_d || !jb->pi || !jb->perm || !jb->iw ||
+      !jb->todo || !jb->cw)
+    return job_nomem(jb);
+  jb->escale = energy_scale(jb);
+  jb->degen_tol = 1e-10 * jb->escale;
+  return LVS_OK;
+}
+
+/* phase 6b: sequential tracking through the block [k0, k1) */
+static void track_block(sweep_job *jb, size_t k0, size_t k1) {
+  size_t n = jb->n, count = jb->count, npts = jb->npts;
+  lvs_sweep *s = jb->s;
+  size_t *perm = jb->perm, *pi = jb->pi;
+  double complex *prev = jb->prev;
+  double *cost = jb->work_d, *hu = cost + count * count, *hv = hu + count + 1, *hmin = hv + count + 1,
          *norm2 = hmin + count + 1;
-
-  /* energy scale for tolerances: largest |entry| of H at both ends */
-  double escale = 0;
-  {
-    size_t len = n * n * (cplx ? 2 : 1);
-    for (size_t i = 0; i < len; i++) {
-      double a1 = fabs(h0a[i] + spec->from * va[i]), a2 = fabs(h0a[i] + spec->to * va[i]);
-      if (spec->family) { a1 = fabs(h0a[i]); a2 = fabs(va[i]); } /* H(from), H(to) */
-      if (a1 > escale) escale = a1;
-      if (a2 > escale) escale = a2;
+  for (size_t k = k0; k < k1; k++) {
+    double *w = jb->wblk + (k - k0) * count;
+    double complex *u = jb->vblk + (k - k0) * n * count;
+    if (k == 0) {
+      for (size_t a = 0; a < count; a++) perm[a] = a;
+    } else {
+      fix_degenerate(n, count, w, u, prev, jb->degen_tol, jb->tmp, norm2, jb->cw);
+      for (size_t i = 0; i < count; i++)
+        for (size_t j = 0; j < count; j++) cost[i * count + j] = -cabs(dotc(prev + i * n, u + j * n, n));
+      hungarian(count, cost, pi, hu, hv, hmin, jb->iw, jb->iw + count + 1, jb->cw);
+      /* pi maps previous column i to current column pi[i]; tracked level
+       * a sat in previous column perm[a] */
+      for (size_t a = 0; a < count; a++) {
+        size_t i = perm[a], j = pi[i];
+        double ov = -cost[i * count + j];
+        if (ov < s->min_overlap) s->min_overlap = ov;
+        perm[a] = j;
+      }
+      /* phase fix of the current vectors against their predecessors */
+      for (size_t i = 0; i < count; i++) {
+        size_t j = pi[i];
+        double complex o = dotc(prev + i * n, u + j * n, n);
+        double ao = cabs(o);
+        if (ao > 0) {
+          double complex f = conj(o) / ao;
+          for (size_t r = 0; r < n; r++) u[j * n + r] *= f;
+        }
+      }
     }
-    if (escale == 0) escale = 1;
+    for (size_t a = 0; a < count; a++) s->e[a * npts + k] = w[perm[a]];
+    memcpy(prev, u, n * count * sizeof *prev);
   }
-  double degen_tol = 1e-10 * escale;
+}
 
+/* phase 6a: the points of block [k0, k1) from the journal or computed */
+static int block_points(sweep_job *jb, size_t k0, size_t k1) {
+  lvs_ctx *ctx = jb->ctx;
+  const lvs_sweep_spec *spec = jb->spec;
+  size_t n = jb->n, count = jb->count, ntodo = 0;
+  int st;
+  for (size_t k = k0; k < k1; k++) {
+    if (!point_mine(jb, k)) continue;
+    if (jb->so.j && jb->jn.rec_file[k] >= 0) {
+      if (spec->shards && !jb->md.krylov) continue; /* a shard only adds to its part */
+      /* (on the Krylov path a resumed shard reads it: the next point starts from it) */
+      if ((st = load_record(ctx, &jb->jn, k, jb->wblk + (k - k0) * count, jb->vblk + (k - k0) * n * count, jb->rec)))
+        return st;
+    } else {
+      jb->todo[ntodo++] = k;
+    }
+  }
+  size_t hlen = n * n * (jb->cplx ? 2 : 1);
+  if (jb->md.family)
+    for (size_t t = 0; t < ntodo; t++)
+      if ((st = family_at(ctx, &jb->md, grid_p(spec->from, spec->to, jb->steps, jb->todo[t]),
+                          jb->hbuf + (jb->todo[t] - k0) * hlen)))
+        return st;
+  worker tmpl = {&jb->md, spec->from, spec->to, jb->steps, k0, jb->todo, ntodo, jb->md.family ? jb->hbuf : NULL,
+                 hlen, jb->wblk, jb->vblk, 0, 1, &jb->la, ctx->dense_cap, &jb->so, LVS_OK, {0}};
+  return run_workers(ctx, &tmpl, jb->nthreads);
+}
+
+/* phase 6: every point, block by block, each block tracked after it is
+ * complete (a shard only computes its points into its part file) */
+static int points_run(sweep_job *jb) {
+  int st = LVS_OK;
   /* one BLAS thread always: no oversubscription, and OpenBLAS's own
    * threading would make the rounding depend on the thread count */
-  blas_threads = lvsi_blas_threads(); /* OpenBLAS thread control: lazyla.c */
-  if (blas_threads > 0) {
+  jb->blas_threads = lvsi_blas_threads(); /* OpenBLAS thread control: lazyla.c */
+  if (jb->blas_threads > 0) {
     lvsi_set_blas_threads(1);
     /* OpenBLAS's idle pool threads spin (sched_yield) for about 2^28 cycles
      * after start-up or their last job, taking a core from the workers (25%
      * of a 2-core sweep, measured with perf); stopping the pool lets the
      * workers have the cores. OpenBLAS starts it again on its next threaded
      * call (its fork handler uses the same entry). */
-    if (nthreads > 1 && blas_threads > 1) lvsi_blas_pool_stop();
+    if (jb->nthreads > 1 && jb->blas_threads > 1) lvsi_blas_pool_stop();
   }
-  for (size_t k0 = 0; k0 < npts; k0 += blk) {
-    size_t k1 = k0 + blk < npts ? k0 + blk : npts;
-    size_t ntodo = 0;
-    for (size_t k = k0; k < k1; k++) {
-      int mine = !spec->shards || k % spec->shards == spec->shard - 1;
-      if (!mine) continue;
-      if (so.j && jn.rec_file[k] >= 0) {
-        if (spec->shards) continue; /* a shard only adds to its part */
-        if ((st = load_record(ctx, &jn, k, wblk + (k - k0) * count, vblk + (k - k0) * n * count, rec)))
-          goto fail;
-      } else {
-        todo[ntodo++] = k;
-      }
-    }
-    size_t hlen = n * n * (cplx ? 2 : 1);
-    if (md.family)
-      for (size_t t = 0; t < ntodo; t++)
-        if ((st = family_at(ctx, &md, grid_p(spec->from, spec->to, steps, todo[t]), hbuf + (todo[t] - k0) * hlen)))
-          goto fail;
-    worker tmpl = {&md, spec->from, spec->to, steps, k0, todo, ntodo, md.family ? hbuf : NULL, hlen, wblk, vblk,
-                   0, 1, &la, ctx->dense_cap, &so, LVS_OK, {0}};
-    if ((st = run_workers(ctx, &tmpl, nthreads))) goto fail;
-    if (spec->shards) continue;
-    /* sequential tracking through the block */
-    for (size_t k = k0; k < k1; k++) {
-      double *w = wblk + (k - k0) * count;
-      double complex *u = vblk + (k - k0) * n * count;
-      if (k == 0) {
-        for (size_t a = 0; a < count; a++) perm[a] = a;
-      } else {
-        fix_degenerate(n, count, w, u, prev, degen_tol, tmp, norm2, cw);
-        for (size_t i = 0; i < count; i++)
-          for (size_t j = 0; j < count; j++) cost[i * count + j] = -cabs(dotc(prev + i * n, u + j * n, n));
-        hungarian(count, cost, pi, hu, hv, hmin, iw, iw + count + 1, cw);
-        /* pi maps previous column i to current column pi[i]; tracked level
-         * a sat in previous column perm[a] */
-        for (size_t a = 0; a < count; a++) {
-          size_t i = perm[a], j = pi[i];
-          double ov = -cost[i * count + j];
-          if (ov < s->min_overlap) s->min_overlap = ov;
-          perm[a] = j;
+  for (size_t k0 = 0; k0 < jb->npts && !st; k0 += jb->blk) {
+    size_t k1 = k0 + jb->blk < jb->npts ? k0 + jb->blk : jb->npts;
+    st = block_points(jb, k0, k1);
+    if (!st && !jb->spec->shards) track_block(jb, k0, k1);
+  }
+  if (jb->blas_threads > 0) {
+    lvsi_set_blas_threads(jb->blas_threads);
+    jb->blas_threads = 0;
+  }
+  return st;
+}
+
+/* phase 7: levels exactly degenerate at `from` come out of LAPACK in no
+ * particular order: number them by their energies at the next grid point,
+ * so that "level a is the a-th lowest at from" also holds just after from */
+static void number_degenerate_start(sweep_job *jb) {
+  size_t count = jb->count, npts = jb->npts;
+  double *e = jb->s->e;
+  if (npts < 2) return;
+  for (size_t a = 0; a < count;) {
+    size_t b = a + 1;
+    while (b < count && fabs(e[b * npts] - e[a * npts]) <= jb->degen_tol) b++;
+    for (size_t i = a + 1; i < b; i++) /* insertion sort of rows a..b-1 by e at k = 1 */
+      for (size_t j = i; j > a && e[j * npts + 1] < e[(j - 1) * npts + 1]; j--)
+        for (size_t k = 0; k < npts; k++) {
+          double t = e[j * npts + k];
+          e[j * npts + k] = e[(j - 1) * npts + k];
+          e[(j - 1) * npts + k] = t;
         }
-        /* phase fix of the current vectors against their predecessors */
-        for (size_t i = 0; i < count; i++) {
-          size_t j = pi[i];
-          double complex o = dotc(prev + i * n, u + j * n, n);
-          double ao = cabs(o);
-          if (ao > 0) {
-            double complex f = conj(o) / ao;
-            for (size_t r = 0; r < n; r++) u[j * n + r] *= f;
-          }
-        }
-      }
-      for (size_t a = 0; a < count; a++) s->e[a * npts + k] = w[perm[a]];
-      memcpy(prev, u, n * count * sizeof *prev);
+    a = b;
+  }
+}
+
+/* Krylov path: Brent's minimization (parabolic interpolation safeguarded by
+ * golden-section steps; R. P. Brent, Algorithms for Minimization without
+ * Derivatives, 1973, ch. 5, procedure localmin) of the gap on [a, b] from
+ * the grid's (x, fx), to SWEEP_KRYLOV_PTOL |to - from|: a smooth minimum in
+ * a handful of solves instead of golden section's ~30, each solve being a
+ * Lanczos run. It stops once a gap is at or below ctol (a true crossing is
+ * then established): closer to the crossing the two levels agree to
+ * rounding, and a single-vector Lanczos run can return such a pair once
+ * (when a symmetry the sparsity does not show separates them). */
+static int brent_gap(sweep_job *jb, size_t r, double a, double b, double x, double fx, const double *g3,
+                     double ctol, gap_warm *gw, double *best_p, double *best_g) {
+  lvs_ctx *ctx = jb->ctx;
+  double *wg = jb->work_d + jb->count * jb->count;
+  const double c = (3 - sqrt(5.0)) / 2, eps = 1e-12;
+  /* a true crossing is a V, |slope| |p - p_c|, with the slope of the grid's
+   * gaps: locate it to a tenth of ctol / slope, so that its gap falls below
+   * ctol (and the search stops there) */
+  double h = 0.5 * (b - a), slope = fmax(fabs(g3[0] - g3[1]), fabs(g3[2] - g3[1])) / h;
+  double tabs = SWEEP_KRYLOV_PTOL * fabs(jb->s->to - jb->s->from);
+  if (slope > 0 && 0.1 * ctol / slope < tabs) tabs = 0.1 * ctol / slope;
+  double v = x, w = x, fv = fx, fw = fx, d = 0, e = 0;
+  int st = LVS_OK;
+  for (int it = 0; it < 100 && fx > ctol; it++) {
+    double m = 0.5 * (a + b), tol1 = eps * fabs(x) + tabs / 3, t2 = 2 * tol1;
+    if (fabs(x - m) <= t2 - 0.5 * (b - a)) break;
+    double pp = 0, q = 0, rr = 0;
+    if (fabs(e) > tol1) { /* parabola through (v, fv), (w, fw), (x, fx) */
+      rr = (x - w) * (fx - fv);
+      q = (x - v) * (fx - fw);
+      pp = (x - v) * q - (x - w) * rr;
+      q = 2 * (q - rr);
+      if (q > 0) pp = -pp;
+      else q = -q;
+      rr = e;
+      e = d;
+    }
+    if (fabs(pp) < fabs(0.5 * q * rr) && pp > q * (a - x) && pp < q * (b - x)) {
+      d = pp / q;
+      double u = x + d;
+      if (u - a < t2 || b - u < t2) d = x < m ? tol1 : -tol1;
+    } else {
+      e = (x < m ? b : a) - x;
+      d = c * e;
+    }
+    double u = x + (fabs(d) >= tol1 ? d : (d > 0 ? tol1 : -tol1)), fu;
+    if ((st = gap_at(ctx, &jb->md, u, r, wg, &fu, gw))) return st;
+    if (fu <= fx) {
+      if (u < x) b = x;
+      else a = x;
+      v = w; fv = fw; w = x; fw = fx; x = u; fx = fu;
+    } else {
+      if (u < x) a = u;
+      else b = u;
+      if (fu <= fw || w == x) { v = w; fv = fw; w = u; fw = fu; }
+      else if (fu <= fv || v == x || v == w) { v = u; fv = fu; }
     }
   }
-  if (blas_threads > 0) {
-    lvsi_set_blas_threads(blas_threads);
-    blas_threads = 0;
+  *best_p = x;
+  *best_g = fx < 0 ? 0 : fx;
+  return st;
+}
+
+/* dE/dp = <u|V|u> for a normalized eigenvector u of H(p) (Hellmann-Feynman;
+ * R. P. Feynman, Phys. Rev. 56, 340 (1939)), V on the union pattern */
+static double hf_slope(const model *md, const double complex *u) {
+  double acc = 0;
+  for (size_t j = 0; j < md->n; j++)
+    for (size_t q = md->kcp[j]; q < md->kcp[j + 1]; q++) {
+      double complex v = md->cplx ? md->ka1[2 * q] + I * md->ka1[2 * q + 1] : md->ka1[q];
+      acc += creal(conj(u[md->kri[q]]) * v * u[j]);
+    }
+  return acc;
+}
+
+/* Krylov path, before Brent: at a true crossing the gap is a V, |d(p)|
+ * with d smooth, so Newton's step x - g/g' (g' = difference of the two
+ * levels' Hellmann-Feynman slopes) lands on it to second order. From the
+ * grid point x = p_k: at most three steps, each kept only inside (a, b) and
+ * while it at least halves the gap (an avoided crossing fails that at
+ * once). *x, *fx: the best point so far (for brent_gap to go on from). */
+static int newton_gap(sweep_job *jb, size_t r, double a, double b, double ctol, gap_warm *gw, double *x, double *fx) {
+  lvs_ctx *ctx = jb->ctx;
+  const model *md = &jb->md;
+  double *wg = jb->work_d + jb->count * jb->count, xc = *x, g;
+  int st = gap_at(ctx, md, xc, r, wg, &g, gw);
+  if (st) return st;
+  *fx = g;
+  for (int it = 0; it < 3 && g > ctol; it++) {
+    const double complex *u = gw->vp; /* the vectors just computed */
+    double gp = hf_slope(md, u + (r + 1) * md->n) - hf_slope(md, u + r * md->n);
+    if (!(gp != 0)) break;
+    double xn = xc - g / gp, gn;
+    if (!(xn > a && xn < b)) break;
+    if ((st = gap_at(ctx, md, xn, r, wg, &gn, gw))) return st;
+    if (gn < *fx) { *fx = gn; *x = xn; }
+    if (!(gn <= 0.5 * g)) break;
+    xc = xn;
+    g = gn;
   }
+  return LVS_OK;
+}
+
+/* golden-section search for the smallest gap between ranks r and r+1 of
+ * H(p) on [p_{k-1}, p_{k+1}], starting from the grid's (p_k, g_k) (the
+ * Krylov path: newton_gap, then brent_gap) */
+static int refine_gap(sweep_job *jb, size_t k, size_t r, const double *g3, double ctol, double *best_p,
+                      double *best_g) {
+  double gk = g3[1];
+  lvs_ctx *ctx = jb->ctx;
+  const model *md = &jb->md;
+  double *wg = jb->work_d + jb->count * jb->count; /* count + 1 >= r + 2 values */
+  const double gr = (sqrt(5.0) - 1) / 2;
+  double a = grid_p(jb->s->from, jb->s->to, jb->steps, k - 1), b = grid_p(jb->s->from, jb->s->to, jb->steps, k + 1);
+  double bp = grid_p(jb->s->from, jb->s->to, jb->steps, k), bg = gk;
+  double x1 = b - gr * (b - a), x2 = a + gr * (b - a), f1, f2;
+  int st;
+  gap_warm gwb = {{0}, NULL, NULL, 1}, *gw = NULL;
+  if (md->krylov) {
+    gw = &gwb;
+    gw->vc = lvsi_malloc(ctx, 2 * jb->n * (r + 2) * sizeof(double complex));
+    if (!gw->vc) return job_nomem(jb);
+    gw->vp = gw->vc + jb->n * (r + 2);
+  }
+  double complex *vbuf = gwb.vc;
+  lvs_clear_error(ctx);
+  if (md->krylov) {
+    double x = bp, fx = bg;
+    st = newton_gap(jb, r, a, b, ctol, gw, &x, &fx);
+    if (!st && fx <= ctol) {
+      *best_p = x;
+      *best_g = fx < 0 ? 0 : fx;
+    } else if (!st) {
+      st = brent_gap(jb, r, a, b, x, fx, g3, ctol, gw, best_p, best_g);
+    }
+    goto out;
+  }
+  if ((st = gap_at(ctx, md, x1, r, wg, &f1, gw)) || (st = gap_at(ctx, md, x2, r, wg, &f2, gw))) goto out;
+  for (int it = 0; it < 200 && fabs(b - a) > 1e-15 * (fabs(a) + fabs(b)) + 1e-300; it++) {
+    if (f1 <= f2) {
+      b = x2; x2 = x1; f2 = f1;
+      x1 = b - gr * (b - a);
+      if ((st = gap_at(ctx, md, x1, r, wg, &f1, gw))) goto out;
+    } else {
+      a = x1; x1 = x2; f1 = f2;
+      x2 = a + gr * (b - a);
+      if ((st = gap_at(ctx, md, x2, r, wg, &f2, gw))) goto out;
+    }
+  }
+  if (f1 < bg) { bg = f1; bp = x1; }
+  if (f2 < bg) { bg = f2; bp = x2; }
+  *best_p = bp;
+  *best_g = bg < 0 ? 0 : bg;
+out:
+  band_scratch_free(ctx, &gwb.bs);
+  lvsi_free(ctx, vbuf);
+  return st;
+}
+
+/* phase 8: crossings, the local minima of adjacent gaps over the grid,
+ * refined; rank r at point k is the tracked level with the r-th smallest
+ * energy there (ties by level number), from sorted copies of points k-1,
+ * k, k+1 */
+static int find_crossings(sweep_job *jb) {
+  lvs_sweep *s = jb->s;
+  size_t count = jb->count, npts = jb->npts;
+  if (npts < 3 || count < 2) return LVS_OK;
+  ranked *srt = jb->srt = lvsi_malloc(jb->ctx, 3 * count * sizeof *srt);
+  if (!srt) return job_nomem(jb);
+  double scale = 0;
+  for (size_t q = 0; q < count * npts; q++)
+    if (fabs(s->e[q]) > scale) scale = fabs(s->e[q]);
+  if (scale == 0) scale = jb->escale;
+  double dtol = 1e-12 * scale, ctol = 1e-9 * scale;
+  int st;
+  for (size_t k = 1; k + 1 < npts; k++) {
+    for (int d = 0; d < 3; d++) {
+      ranked *S = srt + (size_t)d * count;
+      for (size_t a = 0; a < count; a++) {
+        S[a].e = s->e[a * npts + k - 1 + (size_t)d];
+        S[a].a = a;
+      }
+      qsort(S, count, sizeof *S, cmp_ranked);
+    }
+    for (size_t r = 0; r + 1 < count; r++) {
+      double g[3];
+      for (int d = 0; d < 3; d++) g[d] = srt[(size_t)d * count + r + 1].e - srt[(size_t)d * count + r].e;
+      if (!(g[1] < g[0] - dtol && g[1] <= g[2] + dtol)) continue;
+      lvs_sweep_crossing c;
+      if ((st = refine_gap(jb, k, r, g, ctol, &c.at, &c.gap))) return st;
+      size_t i = srt[count + r].a, j = srt[count + r + 1].a;
+      c.i = i < j ? i : j;
+      c.j = i < j ? j : i;
+      c.avoided = c.gap > ctol;
+      if ((st = add_crossing(s, &jb->ccap, &c))) return st;
+    }
+  }
+  if (s->ncross > 1) qsort(s->cross, s->ncross, sizeof *s->cross, cmp_cross);
+  return LVS_OK;
+}
+
+static void job_free(sweep_job *jb) {
+  lvs_ctx *ctx = jb->ctx;
+  if (jb->blas_threads > 0) lvsi_set_blas_threads(jb->blas_threads);
+  journal_close(ctx, &jb->jn);
+  lvs_matrix_free(jb->ph0);
+  lvs_matrix_free(jb->pv);
+  void *bufs[] = {jb->kcp, jb->kri, jb->ka, jb->h0a, jb->va, jb->bandst, jb->seccomp, jb->secoff, jb->secs, jb->secband, jb->hbuf,
+                  jb->wblk, jb->vblk, jb->prev, jb->tmp, jb->work_d, jb->pi, jb->perm, jb->iw,
+                  jb->todo, jb->cw, jb->srt, jb->rec};
+  for (size_t i = 0; i < sizeof bufs / sizeof bufs[0]; i++) lvsi_free(ctx, bufs[i]);
+  pthread_mutex_destroy(&jb->la.mu);
+  pthread_mutex_destroy(&jb->so.mu);
+}
+
+/* The phases in order: spec checks, model setup, result, journal
+ * open/resume, points computed and tracked block by block, numbering at
+ * `from`, crossings, series. A shard stops after its points. */
+int lvs_sweep_new(lvs_ctx *ctx, const lvs_sweep_spec *spec, lvs_sweep **out) {
+  if (out) *out = NULL;
+  if (!ctx || !out) return LVS_EINVAL;
+  int st = spec_check(ctx, spec);
+  if (st) return st;
+  sweep_job jb;
+  memset(&jb, 0, sizeof jb);
+  jb.ctx = ctx;
+  jb.spec = spec;
+  jb.n = lvs_matrix_rows(spec->h0);
+  jb.count = spec->count;
+  jb.steps = spec->steps;
+  jb.npts = spec->steps + 1;
+  jb.cplx = lvs_matrix_is_complex(spec->h0) || lvs_matrix_is_complex(spec->v);
+  jb.nthreads = spec->threads ? spec->threads : 2;
+  jb.la.f = ctx->alloc;
+  jb.la.ud = ctx->ud;
+  pthread_mutex_init(&jb.la.mu, NULL);
+  jb.jn.fd = -1;
+  pthread_mutex_init(&jb.so.mu, NULL);
+  if ((st = model_setup(&jb)) || (st = result_new(&jb)) || (st = journal_setup(&jb)) || (st = points_alloc(&jb)) ||
+      (st = points_run(&jb)))
+    goto fail;
   if (spec->shards) {
-    s->partial = 1;
-    s->done = so.done;
-    goto finish;
+    jb.s->partial = 1;
+    jb.s->done = jb.so.done;
+  } else {
+    number_degenerate_start(&jb);
+    if ((st = find_crossings(&jb))) goto fail;
+    if (spec->series_order > 0 && (st = add_series(jb.s, spec))) goto fail;
   }
-
-  /* Levels exactly degenerate at `from` come out of LAPACK in no particular
-   * order: number them by their energies at the next grid point, so that
-   * "level a is the a-th lowest at from" also holds just after from. */
-  if (npts >= 2) {
-    for (size_t a = 0; a < count;) {
-      size_t b = a + 1;
-      while (b < count && fabs(s->e[b * npts] - s->e[a * npts]) <= degen_tol) b++;
-      for (size_t i = a + 1; i < b; i++) /* insertion sort of rows a..b-1 by e at k = 1 */
-        for (size_t j = i; j > a && s->e[j * npts + 1] < s->e[(j - 1) * npts + 1]; j--)
-          for (size_t k = 0; k < npts; k++) {
-            double t = s->e[j * npts + k];
-            s->e[j * npts + k] = s->e[(j - 1) * npts + k];
-            s->e[(j - 1) * npts + k] = t;
-          }
-      a = b;
-    }
-  }
-
-  /* crossings: local minima of adjacent gaps over the grid, refined */
-  if (npts >= 3 && count >= 2) {
-    /* rank r at point k is the tracked level with the r-th smallest energy
-     * there (ties by level number); sorted copies of points k-1, k, k+1 */
-    srt = lvsi_malloc(ctx, 3 * count * sizeof *srt);
-    if (!srt) goto nomem;
-    double scale = 0;
-    for (size_t q = 0; q < count * npts; q++)
-      if (fabs(s->e[q]) > scale) scale = fabs(s->e[q]);
-    if (scale == 0) scale = escale;
-    double dtol = 1e-12 * scale, ctol = 1e-9 * scale;
-    double *wg = hu; /* count + 1 >= r + 2 values */
-    const double gr = (sqrt(5.0) - 1) / 2;
-    for (size_t k = 1; k + 1 < npts; k++) {
-      for (int d = 0; d < 3; d++) {
-        ranked *S = srt + (size_t)d * count;
-        for (size_t a = 0; a < count; a++) {
-          S[a].e = s->e[a * npts + k - 1 + (size_t)d];
-          S[a].a = a;
-        }
-        qsort(S, count, sizeof *S, cmp_ranked);
-      }
-      for (size_t r = 0; r + 1 < count; r++) {
-        double g[3];
-        for (int d = 0; d < 3; d++) g[d] = srt[(size_t)d * count + r + 1].e - srt[(size_t)d * count + r].e;
-        if (!(g[1] < g[0] - dtol && g[1] <= g[2] + dtol)) continue;
-        /* golden-section search on [p_{k-1}, p_{k+1}] */
-        double a = grid_p(s->from, s->to, steps, k - 1), b = grid_p(s->from, s->to, steps, k + 1);
-        double best_p = grid_p(s->from, s->to, steps, k), best_g = g[1];
-        double x1 = b - gr * (b - a), x2 = a + gr * (b - a), f1, f2;
-        lvs_clear_error(ctx);
-        if ((st = gap_at(ctx, &md, x1, r, wg, &f1)) || (st = gap_at(ctx, &md, x2, r, wg, &f2))) goto fail;
-        for (int it = 0; it < 200 && fabs(b - a) > 1e-15 * (fabs(a) + fabs(b)) + 1e-300; it++) {
-          if (f1 <= f2) {
-            b = x2; x2 = x1; f2 = f1;
-            x1 = b - gr * (b - a);
-            if ((st = gap_at(ctx, &md, x1, r, wg, &f1))) goto fail;
-          } else {
-            a = x1; x1 = x2; f1 = f2;
-            x2 = a + gr * (b - a);
-            if ((st = gap_at(ctx, &md, x2, r, wg, &f2))) goto fail;
-          }
-        }
-        if (f1 < best_g) { best_g = f1; best_p = x1; }
-        if (f2 < best_g) { best_g = f2; best_p = x2; }
-        if (best_g < 0) best_g = 0;
-        lvs_sweep_crossing c;
-        c.at = best_p;
-        c.gap = best_g;
-        size_t i = srt[count + r].a, j = srt[count + r + 1].a;
-        c.i = i < j ? i : j;
-        c.j = i < j ? j : i;
-        c.avoided = best_g > ctol;
-        if ((st = add_crossing(s, &ccap, &c))) goto fail;
-      }
-    }
-    if (s->ncross > 1) qsort(s->cross, s->ncross, sizeof *s->cross, cmp_cross);
-  }
-  if (spec->series_order > 0 && (st = add_series(s, spec))) goto fail;
-
-finish:
-  *out = s;
-  s = NULL;
-  st = LVS_OK;
-  goto done;
-nomem:
-  st = lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory");
+  *out = jb.s;
+  jb.s = NULL;
+  job_free(&jb);
+  return LVS_OK;
 fail:
-  lvs_sweep_free(s);
-done:
-  if (blas_threads > 0) lvsi_set_blas_threads(blas_threads);
-  journal_close(ctx, &jn);
-  lvs_matrix_free(dh);
-  lvs_matrix_free(dv);
-  lvsi_free(ctx, h0a);
-  lvsi_free(ctx, va);
-  lvsi_free(ctx, bandst);
-  lvsi_free(ctx, seccomp);
-  lvsi_free(ctx, secoff);
-  lvsi_free(ctx, secs);
-  lvsi_free(ctx, secband);
-  lvsi_free(ctx, hbuf);
-  lvsi_free(ctx, wblk);
-  lvsi_free(ctx, vblk);
-  lvsi_free(ctx, prev);
-  lvsi_free(ctx, tmp);
-  lvsi_free(ctx, work_d);
-  lvsi_free(ctx, pi);
-  lvsi_free(ctx, perm);
-  lvsi_free(ctx, iw);
-  lvsi_free(ctx, todo);
-  lvsi_free(ctx, cw);
-  lvsi_free(ctx, srt);
-  lvsi_free(ctx, rec);
-  pthread_mutex_destroy(&la.mu);
-  pthread_mutex_destroy(&so.mu);
+  lvs_sweep_free(jb.s);
+  job_free(&jb);
   return st;
 }
 
@@ -1684,6 +2297,7 @@ const lvs_sweep_crossing *lvs_sweep_crossing_at(const lvs_sweep *s, size_t k) {
   return k < s->ncross ? &s->cross[k] : NULL;
 }
 double lvs_sweep_min_overlap(const lvs_sweep *s) { return s->min_overlap; }
+int lvs_sweep_path(const lvs_sweep *s) { return s->method; }
 int lvs_sweep_is_partial(const lvs_sweep *s, size_t *done) {
   if (done) *done = s->done;
   return s->partial;

@@ -25,7 +25,7 @@ return function(ls, core)
 
   --- ls.sweep{H0=, V= | H=function(p) -> op, from=, to=, steps=, count=,
   -- threads=, series=, out=, plot=, shard=, merge=, progress=, param=,
-  -- param_unit=, energy_unit=}
+  -- param_unit=, energy_unit=, method = "auto"|"dense"|"band"|"krylov"}
   function ls.sweep(t)
     if type(t) ~= "table" then
       error("bad argument #1 to 'sweep' (table expected, got " .. type(t) .. ")", 2)
