@@ -137,15 +137,15 @@ describe("sweep on the Krylov path", function()
   end)
 
   it("is chosen for a large sparse model, and not for a small, banded or wide request", function()
-    -- the rule of levelshift.h (lvs_sweep_method): sparse, n > 1000, 8 count <= n, not banded
+    -- the rule of levelshift.h (lvs_sweep_method): sparse, n > 200, 8 count <= n, not banded
     local H0, V = heisenberg(10, "Sz")
     local function path(h0, v, count)
       return ls.sweep{H0 = h0, V = v, from = 0, to = 0.1, steps = 1, count = count, progress = false}.method
     end
     assert.are.equal("krylov", path(H0, V, 4))
     assert.are.equal("dense", path(H0, V, 200))
-    local h8, v8 = heisenberg(8, "Sz")
-    assert.are.equal("dense", path(h8, v8, 4))
+    local h7, v7 = heisenberg(7, "Sz") -- 128 states
+    assert.are.equal("dense", path(h7, v7, 4))
     local o = ls.oscillator(1200)
     assert.are.equal("band", path(o.number, o.x ^ 2, 4))
   end)
