@@ -134,6 +134,11 @@ void lvs_linalg(const char** lapacke, const char** cblas, int* blas_threads) {
   if (lapacke) *lapacke = lib_name(LIB_LAPACKE);
   if (cblas) *cblas = lib_name(LIB_BLAS);
   if (blas_threads) *blas_threads = lvsi_blas_threads();
+  /* OpenBLAS starts its pool at load time and the idle threads spin
+   * (sched_yield) for a while: on two cores they took CPU from whatever the
+   * script did next (3.8% of a 16-site chain job under perf). The next
+   * threaded BLAS call restarts the pool. */
+  lvsi_blas_pool_stop();
 }
 
 /* ---- the forwarding definitions (prototypes from lapacke.h and cblas.h) ---- */
