@@ -78,6 +78,18 @@ static void series_mul(size_t d, int K, const cplx *a, const cplx *b, cplx *c) {
     for (int i = 0; i <= k; i++) mm_acc(d, a + (size_t)i * dd, b + (size_t)(k - i) * dd, c + (size_t)k * dd);
 }
 
+/* xk += A^dag B for the d columns of two blocks of `rows` rows (leading
+ * dimensions la, lb): the overlap X(k) = sum Omega(i)^dag Omega(k-i) of
+ * every path */
+static void overlap_acc(size_t d, size_t rows, const cplx *A, size_t la, const cplx *B, size_t lb, cplx *xk) {
+  for (size_t b = 0; b < d; b++)
+    for (size_t a = 0; a < d; a++) {
+      cplx s = 0;
+      for (size_t m = 0; m < rows; m++) s += conj(A[m + a * la]) * B[m + b * lb];
+      xk[a + b * d] += s;
+    }
+}
+
 static int addwarn(lvs_effective *e, const char *text) {
   size_t old = e->warn ? strlen(e->warn) : 0, add = strlen(text);
   char *w = lvsi_malloc(e->ctx, old + add + 2);
@@ -426,15 +438,7 @@ static int dense_path(lvs_effective *e, ework *w, const lvs_matrix *h0, const lv
   /* X(k) = sum_{i+j=k, i,j>=1} Omega(i)^dag Omega(j) */
   for (int k = 2; k <= K; k++) {
     cplx *xk = w->X + (size_t)k * dd;
-    for (int i = 1; i <= k - 1; i++) {
-      const cplx *oi = om + (size_t)i * qd, *oj = om + (size_t)(k - i) * qd;
-      for (size_t b = 0; b < d; b++)
-        for (size_t a = 0; a < d; a++) {
-          cplx s = 0;
-          for (size_t m = 0; m < nq; m++) s += conj(oi[m + a * nq]) * oj[m + b * nq];
-          xk[a + b * d] += s;
-        }
-    }
+    for (int i = 1; i <= k - 1; i++) overlap_acc(d, nq, om + (size_t)i * qd, nq, om + (size_t)(k - i) * qd, nq, xk);
   }
 done:
   lvsi_free(ctx, vt), lvsi_free(ctx, q), lvsi_free(ctx, om), lvsi_free(ctx, vom);
@@ -583,14 +587,7 @@ static int krylov_path(lvs_effective *e, ework *w) {
   /* X(k) = sum_{i+j=k, i,j>=1} Omega(i)^dag Omega(j) */
   for (int k = 2; k <= K; k++) {
     cplx *xk = w->X + (size_t)k * dd;
-    for (int i = 1; i <= k - 1; i++)
-      for (size_t b = 0; b < d; b++)
-        for (size_t a = 0; a < d; a++) {
-          const cplx *u = om[i] + a * n, *v = om[k - i] + b * n;
-          cplx c = 0;
-          for (size_t r = 0; r < n; r++) c += conj(u[r]) * v[r];
-          xk[a + b * d] += c;
-        }
+    for (int i = 1; i <= k - 1; i++) overlap_acc(d, n, om[i], n, om[k - i], n, xk);
   }
 done:
   if (R)
@@ -744,14 +741,8 @@ static int sparse_path(lvs_effective *e, ework *w) {
     cplx *xk = w->X + (size_t)k * dd;
     for (int i = 1; i <= k - 1; i++) {
       int j = k - i;
-      const cplx *oi = om[i], *oj = om[j];
-      size_t ri = r[i], rj = r[j], rm = ri < rj ? ri : rj;
-      for (size_t b = 0; b < d; b++)
-        for (size_t a = 0; a < d; a++) {
-          cplx s = 0;
-          for (size_t m = 0; m < rm; m++) s += conj(oi[m + a * ri]) * oj[m + b * rj];
-          xk[a + b * d] += s;
-        }
+      size_t ri = r[i], rj = r[j];
+      overlap_acc(d, ri < rj ? ri : rj, om[i], ri, om[j], rj, xk);
     }
   }
 done:
