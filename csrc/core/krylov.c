@@ -352,11 +352,11 @@ static int op_apply(kjob *j, const double *x, double *y) {
 }
 
 static int arpack_info_error(lvs_ctx *ctx, const char *routine, int info, const kjob *j) {
-  if (info == 1 || info == -9999)
+  if (info == -9999)
     return lvsi_fail(ctx, LVS_ENOCONV,
-                     "eigen: krylov method: ARPACK did not converge: %d of %zu levels after %zu restarts (tol %.3g, ncv %zu);"
-                     " raise maxiter or ncv",
-                     info == 1 ? -1 : 0, j->nev, j->restarts, j->tol, j->ncv);
+                     "eigen: krylov method: ARPACK could not build a Krylov basis of %zu vectors (the start vector lies"
+                     " in an invariant subspace of fewer states); lower ncv or use method = 'dense'",
+                     j->ncv);
   if (info == 3)
     return lvsi_fail(ctx, LVS_ENOCONV,
                      "eigen: krylov method: ARPACK found no shifts to apply after %zu restarts (ncv %zu too small for %zu"
@@ -399,7 +399,7 @@ static int run_real(kjob *j, double *w, double *z) {
     }
   }
   j->restarts = (size_t)iparam[2];
-  if (info < 0 || info > 1 || (info == 1)) {
+  if (info != 0) {
     if (info == 1)
       st = lvsi_fail(ctx, LVS_ENOCONV,
                      "eigen: krylov method: ARPACK did not converge: %d of %zu levels after %zu restarts (tol %.3g, ncv %zu);"
