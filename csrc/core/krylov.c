@@ -579,17 +579,18 @@ int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, doub
   } else if ((st = symop_init(&j.mv, a))) { /* n < 2^31 (checked above) */
     return st;
   }
-  /* ARPACK's own BLAS work (Gram-Schmidt against n x ncv) is bound by
-   * memory bandwidth; OpenBLAS's pool, woken for it, spins (sched_yield)
-   * against the product's second thread on two cores. One BLAS thread
-   * while ARPACK runs; the previous setting is restored. */
   /* ARPACK keeps its iteration state in Fortran SAVE variables, so two
    * solves at once in one process corrupt each other (seen: heap aborts and
    * false non-convergence with two sweep threads): one at a time, process
    * wide -- the one piece of global state in the core, guarding a library
    * that has it */
   pthread_mutex_lock(&arpack_lock);
-  int bt = lvsi_blas_threads();
+  /* ... and below 2^17 states ARPACK's BLAS calls stay on one thread: its
+   * pool, woken for them, spins against the product's second thread (2^16
+   * states: 0.28 s against 0.34 s); above, the Gram-Schmidt passes over
+   * n x ncv are long enough to gain from the pool (2^18: 2.4 s against
+   * 2.8 s) */
+  int bt = n <= ((size_t)1 << 17) ? lvsi_blas_threads() : 0;
   if (bt > 1) {
     lvsi_set_blas_threads(1);
     lvsi_blas_pool_stop(); /* its idle threads spin for a while otherwise */
