@@ -191,7 +191,7 @@ def main():
     ap.add_argument("jobs", nargs="*", default=None)
     ap.add_argument("--runs", type=int, default=5)
     ap.add_argument("--bin", default=os.path.join(HERE, "..", "build", "levelshift"))
-    ap.add_argument("--markdown", action="store_true", help="also print a README table")
+    ap.add_argument("--markdown", action="store_true", help="also print a markdown table (docs/benchmarks.md)")
     ap.add_argument("--timeout", type=float, default=900.0,
                     help="kill a single run after this many seconds (0: never)")
     a = ap.parse_args()

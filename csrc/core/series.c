@@ -51,8 +51,8 @@ typedef double complex dc;
  * of a small degenerate group (an eigendecomposition and a few products of
  * order d <= SERIES_BLAS1_MAX) runs on one BLAS thread: waking the pool
  * costs more than it brings there (bench/jobs/degenerate.lua, d = 252, and
- * dense groups of 128..600 levels, measured on 2 shared cores: README,
- * Benchmarks). The previous setting is restored afterwards. */
+ * dense groups of 128..600 levels, measured on 2 shared cores:
+ * docs/benchmarks.md). The previous setting is restored afterwards. */
 #define SERIES_BLAS1_MAX 512
 static int blas_hold1(size_t d) {
   if (d < 2 || d > SERIES_BLAS1_MAX) return 0;

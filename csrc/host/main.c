@@ -32,7 +32,7 @@
  * policy) keeps freed memory in the heap instead of returning it, and asks
  * for transparent huge pages on the first 128 MiB of heap. Pages are only
  * committed when touched. LVS_NO_TUNE=1 in the environment turns this off
- * (to measure what it brings: README, Benchmarks). */
+ * (to measure what it brings: docs/benchmarks.md). */
 static void tune_memory(void) {
 #if defined(__GLIBC__) && defined(MADV_HUGEPAGE)
   mallopt(M_MMAP_THRESHOLD, 256 << 20);

@@ -1,4 +1,4 @@
--- Every error message the README documents, provoked once and matched, so a
+-- Every error message the manual (docs/errors.md and the other docs/ files) documents, provoked once and matched, so a
 -- documented text cannot drift from what the tool prints (common practice).
 -- Other specs test the same paths in context; this file is the index.
 local ls = require "levelshift"
@@ -55,7 +55,7 @@ describe("documented errors", function()
     errs("unknown option 'nosuch' (accepted:", function() return ls.eigen(H0, { nosuch = 1 }) end)
   end)
 
-  it("effective Hamiltonians: every error the README lists", function()
+  it("effective Hamiltonians: every error the manual lists", function()
     local H0, V = ls.matrix { { 0, 0 }, { 0, 1 } }, ls.matrix { { 0, 1 }, { 1, 0 } }
     errs("(the group of levels is empty)", function() return ls.effective(H0, V, { levels = {} }) end)
     errs("no level of H0 in the window [5.0, 6.0]", function() return ls.effective(H0, V, { window = { 5, 6 } }) end)
@@ -109,7 +109,7 @@ describe("documented errors", function()
     errs("bad argument #1 to 'plot' (a path ending in .svg or .png expected)", function() return sw:plot("x.pdf") end)
   end)
 
-  it("warnings the README lists appear where it says", function()
+  it("warnings the manual lists appear where it says", function()
     -- invented models, each built to trip one warning (common practice)
     local H0 = ls.matrix { { 0, 0, 0 }, { 0, 1e-9, 0 }, { 0, 0, 1 } }
     local V = ls.matrix { { 0, 1, 0.5 }, { 1, 0, 0.5 }, { 0.5, 0.5, 0 } }
