@@ -407,7 +407,7 @@ static int real_copy_if_real(const lvs_matrix *a, lvs_matrix **out) {
   for (size_t k = 0; k < cnt; k++) r->a[k] = a->a[2 * k];
   if (a->sparse) {
     memcpy(r->cp, a->cp, (a->cols + 1) * sizeof(size_t));
-    memcpy(r->ri, a->ri, a->nnz * sizeof(size_t));
+    memcpy(r->ri, a->ri, a->nnz * sizeof *r->ri);
     r->nnz = a->nnz;
   }
   r->band = a->band;

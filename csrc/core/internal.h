@@ -5,10 +5,12 @@
 #include <complex.h>
 #include <stdarg.h>
 #include <stddef.h>
+#include <stdint.h>
 #include "levelshift.h"
 
 #define LVSI __attribute__((visibility("hidden")))
 #define LVS_INF_SLACK 1000000000L
+#define LVSI_SPARSE_MAX_DIM ((size_t)UINT32_MAX) /* rows of sparse storage */
 
 struct lvs_ctx {
   lvs_alloc_fn alloc;
@@ -32,7 +34,9 @@ struct lvs_matrix {
   int cplx;
   int sparse;
   double *a;
-  size_t *cp, *ri;
+  size_t *cp;
+  uint32_t *ri; /* 32-bit rows: 12 bytes an entry instead of 16 (sparse
+                   storage is refused above LVSI_SPARSE_MAX_DIM rows) */
   size_t nnz, cap;
   long slack, band;
 };

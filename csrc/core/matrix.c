@@ -53,6 +53,11 @@ int lvsi_mat_alloc(lvs_ctx *ctx, size_t rows, size_t cols, int cplx, int sparse,
       return lvsi_fail(ctx, LVS_ENOMEM, "out of memory allocating a %zux%zu matrix", rows, cols);
     }
   } else {
+    if (rows > LVSI_SPARSE_MAX_DIM) {
+      lvsi_free(ctx, m);
+      return lvsi_fail(ctx, LVS_ECAP, "a sparse matrix of %zu rows is above the limit of %zu (32-bit row indices)",
+                       rows, LVSI_SPARSE_MAX_DIM);
+    }
     m->cp = lvsi_calloc(ctx, cols + 1, sizeof(size_t));
     if (!m->cp || lvsi_mat_reserve(m, nnzcap ? nnzcap : 4)) {
       lvs_matrix_free(m);
@@ -67,7 +72,7 @@ int lvsi_mat_alloc(lvs_ctx *ctx, size_t rows, size_t cols, int cplx, int sparse,
 int lvsi_mat_reserve(lvs_matrix *m, size_t cap) {
   if (cap <= m->cap) return LVS_OK;
   lvs_ctx *ctx = m->ctx;
-  size_t *ri = lvsi_malloc(ctx, cap * sizeof(size_t));
+  uint32_t *ri = lvsi_malloc(ctx, cap * sizeof *ri);
   double *a = lvsi_malloc(ctx, cap * elem(m->cplx));
   if (!ri || !a) {
     lvsi_free(ctx, ri);
@@ -75,7 +80,7 @@ int lvsi_mat_reserve(lvs_matrix *m, size_t cap) {
     return lvsi_fail(ctx, LVS_ENOMEM, "out of memory growing a sparse matrix");
   }
   if (m->nnz) {
-    memcpy(ri, m->ri, m->nnz * sizeof(size_t));
+    memcpy(ri, m->ri, m->nnz * sizeof *ri);
     memcpy(a, m->a, m->nnz * elem(m->cplx));
   }
   lvsi_free(ctx, m->ri);
@@ -229,7 +234,7 @@ static int mat_set_stored(lvs_matrix *m, size_t i, size_t j, double re, double i
     size_t pos = m->cp[j];
     while (pos < m->cp[j + 1] && m->ri[pos] < i) pos++;
     size_t e = m->cplx ? 2 : 1;
-    memmove(m->ri + pos + 1, m->ri + pos, (m->nnz - pos) * sizeof(size_t));
+    memmove(m->ri + pos + 1, m->ri + pos, (m->nnz - pos) * sizeof *m->ri);
     memmove(m->a + e * (pos + 1), m->a + e * pos, (m->nnz - pos) * e * sizeof(double));
     m->ri[pos] = i;
     for (size_t c = j + 1; c <= m->cols; c++) m->cp[c]++;
@@ -261,7 +266,7 @@ int lvs_matrix_copy(const lvs_matrix *a, lvs_matrix **out) {
   if (st) return st;
   if (a->sparse) {
     memcpy(c->cp, a->cp, (a->cols + 1) * sizeof(size_t));
-    memcpy(c->ri, a->ri, a->nnz * sizeof(size_t));
+    memcpy(c->ri, a->ri, a->nnz * sizeof *c->ri);
     memcpy(c->a, a->a, a->nnz * elem(a->cplx));
     c->nnz = a->nnz;
   } else {

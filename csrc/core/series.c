@@ -113,7 +113,8 @@ struct lvs_series {
 typedef struct {
   size_t n;
   int sparse, borrowed;          /* borrowed: cp, ri, ra/za belong to the plain copy of V */
-  size_t *cp, *ri, *cmin, *cmax; /* CSC; cmin/cmax: row range of a column (cmin > cmax if empty) */
+  size_t *cp, *cmin, *cmax;      /* CSC; cmin/cmax: row range of a column (cmin > cmax if empty) */
+  uint32_t *ri;                  /* rows (32-bit, as the matrices store them) */
   double *ra;                    /* real sparse values */
   dc *za;                        /* complex sparse values */
   double *rd;                    /* dense real, n x n */

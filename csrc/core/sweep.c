@@ -613,7 +613,7 @@ static int krylov_form(lvs_ctx *tctx, const model *md, double p, band_scratch *b
     int st = lvsi_mat_alloc(tctx, n, n, md->cplx, 1, nnz, &bs->kh);
     if (st) return st;
     memcpy(bs->kh->cp, md->kcp, (n + 1) * sizeof(size_t));
-    memcpy(bs->kh->ri, md->kri, nnz * sizeof(size_t));
+    for (size_t q = 0; q < nnz; q++) bs->kh->ri[q] = (uint32_t)md->kri[q]; /* rows < n < 2^32 */
     bs->kh->nnz = nnz;
     if (!(bs->kstart = lvsi_malloc(tctx, 2 * n * sizeof(double))))
       return lvsi_fail(tctx, LVS_ENOMEM, "sweep: out of memory for a point");
