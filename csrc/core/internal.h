@@ -92,8 +92,9 @@ LVSI size_t lvsi_splu_dim(const lvsi_splu *f);
 #define LVSI_SPLU_TOO_FULL 100 /* lvsi_splu_new_capped: the factors would pass the budget */
 LVSI int lvsi_splu_new_capped(lvs_ctx *ctx, size_t n, int cplx, const size_t *cp, const size_t *ri, const double *a,
                               double max_bytes, const char *what, lvsi_splu **out);
-/* krylov.c: y = H x (x, y complex interleaved) on a lower-triangle copy of
- * a plain sparse Hermitian op with 32-bit indices, two threads when large */
+/* krylov.c: y = H x (x, y complex interleaved) for a plain sparse Hermitian
+ * op, gathered on its own storage (BORROWED: the op must outlive the
+ * object), two threads when large */
 typedef struct lvsi_symop lvsi_symop;
 LVSI int lvsi_symop_new(const lvs_matrix *a, lvsi_symop **out);
 LVSI void lvsi_symop_free(lvsi_symop *s);

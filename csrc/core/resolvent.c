@@ -25,7 +25,7 @@
  *     Krylov linear solver, so this one is ours. The stopping test is the
  *     recurrence's residual estimate phibar <= tol |b|; the true residual is
  *     computed at the end and must agree, or the solve is LVS_ENOCONV.
- * Products with H0 use the Krylov path's lower-triangle copy (krylov.c).
+ * Products with H0 use the Krylov path's product (krylov.c, lvsi_symop).
  */
 #include <complex.h>
 #include <math.h>
