@@ -106,6 +106,13 @@ static int l_eigen(lua_State *L) {
     if (eo.method == LVS_EIGEN_KRYLOV && !lvs_matrix_is_sparse(h))
       return luaL_argerror(L, 2, "option 'method': 'krylov' needs a sparse matrix (this one is stored dense)");
   }
+  /* a large op was just built: the temporaries of its expression (site
+   * operators, partial sums, scaled copies) are garbage the collector has
+   * not seen die yet; collect them before the solver's working memory is
+   * taken, so it reuses theirs (chain jobs: peak 87 -> 79 MB at 2^16
+   * states, 333 -> 294 MB at 2^18). The cost is one cycle over the Lua
+   * heap. */
+  if (lvs_matrix_is_sparse(h) && lvs_matrix_nnz(h) >= ((size_t)1 << 20)) lua_gc(L, LUA_GCCOLLECT);
   double *w = lua_newuserdatauv(L, (size_t)count * sizeof(double), 0); /* GC-owned */
   lvs_matrix **out = vectors ? lvsL_newmatrix(L) : NULL;
   int st = lvs_eigen_ex(h, comp, (size_t)count, vectors, &eo, w, out);
