@@ -497,9 +497,13 @@ int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want
     /* many sectors, some by ARPACK: the small dense ones gain nothing from
      * BLAS threads, and waking the pool between Krylov runs leaves its
      * threads spinning against the products' second thread */
-    int bt = 0;
-    for (size_t b = 0; b < pl.nb && !bt; b++)
-      if (pl.method[b] == M_KRYLOV) bt = lvsi_blas_threads();
+    int bt = 0, big = 0;
+    for (size_t b = 0; b < pl.nb; b++)
+      if (pl.method[b] == M_KRYLOV) {
+        if (!bt) bt = lvsi_blas_threads();
+        big |= pl.size[b] > ((size_t)1 << 17); /* krylov.c keeps the threads there */
+      }
+    if (big) bt = 0;
     if (bt > 1) lvsi_set_blas_threads(1);
     st = eigen_blocks(&pl, want_vectors, o, w, vecs);
     if (bt > 1) lvsi_set_blas_threads(bt), lvsi_blas_pool_stop();
