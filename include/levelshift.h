@@ -240,8 +240,15 @@ typedef struct {
   size_t maxiter;      /* ARPACK restarts; 0 = max(1000, 10 n) */
   size_t ncv;          /* Lanczos/Arnoldi basis size; 0 = max(2 count + 1, 20) */
   const double *start; /* start vector (n values, 2n complex interleaved) or NULL:
-                          a fixed pseudo-random one; used for a single sector only */
+                          a fixed pseudo-random one; restricted to each sector */
+  struct lvs_eigen_stats *stats; /* NULL, or added to: what the solve cost */
 } lvs_eigen_opts;
+/* Counts a solve adds to (the caller zeroes them first): sectors of more
+ * than one state solved by ARPACK and by LAPACK, products with H (or
+ * solves with H - near), ARPACK restarts (summed over sectors). */
+typedef struct lvs_eigen_stats {
+  size_t krylov_sectors, dense_sectors, products, restarts;
+} lvs_eigen_stats;
 LVS_API int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want_vectors,
                          const lvs_eigen_opts *opts, double *w, lvs_matrix **vecs);
 

@@ -1,5 +1,6 @@
 /* leigen.c -- ls.eigen(H [, {count = k, vectors = true, blocks = {...},
- * method = "auto" | "dense" | "krylov", near = E, tol =, maxiter =, ncv =}])
+ * method = "auto" | "dense" | "krylov", near = E, tol =, maxiter =, ncv =,
+ * stats = {}}])
  * -> E, U */
 #include <math.h>
 #include <stdint.h>
@@ -9,7 +10,8 @@
 static int l_eigen(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_matrix *h = lvsL_checkmatrix(L, 1);
-  static const char *const known[] = {"count", "vectors", "blocks", "method", "near", "tol", "maxiter", "ncv", NULL};
+  static const char *const known[] = {"count", "vectors", "blocks", "method", "near",  "tol",
+                                      "maxiter", "ncv",    "stats",  NULL};
   lvsL_checkoptions(L, 2, known, "eigen", 2);
   size_t n = lvs_matrix_rows(h);
   if (n != lvs_matrix_cols(h)) {
@@ -73,6 +75,8 @@ static int l_eigen(lua_State *L) {
     }
   }
   lvs_eigen_opts eo = {0};
+  lvs_eigen_stats es = {0};
+  eo.stats = &es;
   if (lua_istable(L, 2)) {
     static const char *const methods[] = {"auto", "dense", "krylov", NULL};
     lua_getfield(L, 2, "method");
@@ -103,6 +107,10 @@ static int l_eigen(lua_State *L) {
       return luaL_argerror(L, 2, lua_tostring(L, -1));
     }
     eo.ncv = (size_t)ncv;
+    lua_getfield(L, 2, "stats");
+    if (!lua_isnil(L, -1) && !lua_istable(L, -1))
+      return luaL_argerror(L, 2, "option 'stats' must be a table (filled with what the solve cost)");
+    lua_pop(L, 1);
     if (eo.method == LVS_EIGEN_KRYLOV && !lvs_matrix_is_sparse(h))
       return luaL_argerror(L, 2, "option 'method': 'krylov' needs a sparse matrix (this one is stored dense)");
   }
@@ -132,6 +140,20 @@ static int l_eigen(lua_State *L) {
     return luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   lvsL_check(L, ctx, st, "eigen");
+  if (lua_istable(L, 2)) { /* stats = {}: what the solve cost */
+    lua_getfield(L, 2, "stats");
+    if (lua_istable(L, -1)) {
+      lua_pushinteger(L, (lua_Integer)es.krylov_sectors);
+      lua_setfield(L, -2, "krylov_sectors");
+      lua_pushinteger(L, (lua_Integer)es.dense_sectors);
+      lua_setfield(L, -2, "dense_sectors");
+      lua_pushinteger(L, (lua_Integer)es.products);
+      lua_setfield(L, -2, "products");
+      lua_pushinteger(L, (lua_Integer)es.restarts);
+      lua_setfield(L, -2, "restarts");
+    }
+    lua_pop(L, 1);
+  }
   lua_createtable(L, (int)count, 0);
   for (lua_Integer k = 0; k < count; k++) {
     lua_pushnumber(L, w[k]);

@@ -126,6 +126,7 @@ static int solve_sector(const lvs_matrix *m, int method, size_t kb, int want, co
     lvs_matrix_free(z);
     return st;
   }
+  if (o && o->stats) o->stats->dense_sectors++;
   if (method == M_TRIDIAG) return eigen_tridiag(m, kb, want, w, vecs);
   if (near) return dense_nearest(m, kb, want, o->near, w, vecs);
   return lvs_eigen_dense(m, kb, want, w, vecs);
@@ -457,6 +458,7 @@ int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want
     }
   }
   if (!h->sparse && !h->vis && !comp) { /* plain dense: LAPACK on the whole */
+    if (o && o->stats) o->stats->dense_sectors++;
     if (o && o->has_near) {
       if ((st = lvsi_check_hermitian(h, LVS_DEFAULT_HERM_TOL, "matrix"))) return st;
       return dense_nearest(h, count, want_vectors, o->near, w, vecs);

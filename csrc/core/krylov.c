@@ -534,6 +534,11 @@ int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, doub
     lvsi_blas_pool_stop();
   }
   pthread_mutex_unlock(&arpack_lock);
+  if (o && o->stats) {
+    o->stats->krylov_sectors++;
+    o->stats->products += j.products;
+    o->stats->restarts += j.restarts;
+  }
   if (!st) {
     /* dseupd's order depends on the mode and on rvec: make it ascending */
     for (size_t k = 1; k < count; k++)

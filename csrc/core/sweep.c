@@ -661,7 +661,7 @@ static int solve_krylov(lvs_ctx *tctx, const model *md, double p, size_t m, doub
       real_op = 1;
       for (size_t q = 0; q < md->knnz && real_op; q++) real_op = bs->kh->a[2 * q + 1] == 0.0;
     }
-    lvs_eigen_opts eo = {md->krylov == 2 ? LVS_EIGEN_KRYLOV : LVS_EIGEN_AUTO, 0, 0.0, SWEEP_KRYLOV_TOL, 0, 0, NULL};
+    lvs_eigen_opts eo = {.method = md->krylov == 2 ? LVS_EIGEN_KRYLOV : LVS_EIGEN_AUTO, .tol = SWEEP_KRYLOV_TOL};
     if (warm) {
       krylov_start(md, warm, m, real_op, bs->kstart);
       eo.start = bs->kstart;

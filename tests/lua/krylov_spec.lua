@@ -153,6 +153,21 @@ describe("Krylov spectra", function()
     for k = 1, 3 do assert.near(En2[k], En[k], 1e-10) end
   end)
 
+  it("reports what a solve cost through stats = {}", function()
+    -- conserves Sz: 11 sectors of C(10, k) states (common practice)
+    local H = chain(10, { delta = 0.5 })
+    local st = {}
+    ls.eigen(H, { count = 2, vectors = false, stats = st })
+    assert.are.equal(3, st.krylov_sectors) -- C(10, k) > 200 for k = 4, 5, 6
+    assert.are.equal(6, st.dense_sectors) -- k = 1, 2, 3, 7, 8, 9 (k = 0, 10: one state each)
+    assert.is_true(st.products > 0 and st.restarts > 0)
+    local sd = {}
+    ls.eigen(H, { count = 2, vectors = false, method = "dense", stats = sd })
+    assert.are.equal(0, sd.krylov_sectors)
+    assert.are.equal(0, sd.products)
+    assert.error_matches(function() ls.eigen(H, { stats = 3 }) end, "option 'stats' must be a table", 1, true)
+  end)
+
   it("refuses impossible requests before any work", function()
     -- 2e6 states: the vectors alone need 3.2e4 GB; the cap check comes first
     local o = ls.oscillator(2000000)
