@@ -142,15 +142,14 @@ static int l_eigen(lua_State *L) {
   lvsL_check(L, ctx, st, "eigen");
   if (lua_istable(L, 2)) { /* stats = {}: what the solve cost */
     lua_getfield(L, 2, "stats");
-    if (lua_istable(L, -1)) {
-      lua_pushinteger(L, (lua_Integer)es.krylov_sectors);
-      lua_setfield(L, -2, "krylov_sectors");
-      lua_pushinteger(L, (lua_Integer)es.dense_sectors);
-      lua_setfield(L, -2, "dense_sectors");
-      lua_pushinteger(L, (lua_Integer)es.products);
-      lua_setfield(L, -2, "products");
-      lua_pushinteger(L, (lua_Integer)es.restarts);
-      lua_setfield(L, -2, "restarts");
+    if (lua_istable(L, -1)) { /* raw sets: no metamethod of the caller's table runs here */
+      const char *const keys[] = {"krylov_sectors", "dense_sectors", "products", "restarts"};
+      const size_t vals[] = {es.krylov_sectors, es.dense_sectors, es.products, es.restarts};
+      for (int k = 0; k < 4; k++) {
+        lua_pushstring(L, keys[k]);
+        lua_pushinteger(L, (lua_Integer)vals[k]);
+        lua_rawset(L, -3);
+      }
     }
     lua_pop(L, 1);
   }
