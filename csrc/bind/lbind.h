@@ -62,6 +62,9 @@ void lvsL_open_random(lua_State *L, int ctxidx);
 int lvsL_inside_binding(lua_State *L);
 /* let the collector know about memory the core allocated (called before a
  * new matrix is made): a step worth the net growth since the last one */
+/* raises "FNAME: writing files is disabled in this sandboxed host" when the
+ * host that made this state asked for LVS_HOST_SANDBOX; returns 0 otherwise */
+int lvsL_no_files(lua_State *L, const char *fname);
 void lvsL_gcstep(lua_State *L);
 /* 1 when the running __gc was called by a script (getmetatable(x).__gc(x)),
  * 0 when Lua's collector runs it (the object is then unreachable) */

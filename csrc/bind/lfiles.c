@@ -71,6 +71,7 @@ static int l_recipe_files(lua_State *L) {
  * used by the Lua writers (JSON of sweeps). Raises on failure. */
 static int l_write_file(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
+  lvsL_no_files(L, "write");
   const char *path = luaL_checkstring(L, 1);
   size_t len;
   const char *text = luaL_checklstring(L, 2, &len);

@@ -27,6 +27,14 @@ static void *counting_alloc(void *ud, void *ptr, size_t osize, size_t nsize) {
   return q;
 }
 
+int lvsL_no_files(lua_State *L, const char *fname) {
+  lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.sandbox");
+  int sandboxed = lua_toboolean(L, -1);
+  lua_pop(L, 1);
+  if (sandboxed) return luaL_error(L, "%s: writing files is disabled in this sandboxed host", fname);
+  return 0;
+}
+
 void lvsL_gcstep(lua_State *L) {
   lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.ctx");
   ctx_ud *u = lua_touserdata(L, -1);

@@ -238,6 +238,7 @@ static int l_sweep(lua_State *L) {
   lua_getfield(L, 1, "merge");
   int merge = lua_toboolean(L, -1);
   lua_pop(L, 1);
+  if (journal) lvsL_no_files(L, "sweep (journal, out=)");
   if ((shards || merge) && !journal)
     return luaL_argerror(L, 1, "shards and merges need 'journal' (the output path)");
   if (shards && merge) return luaL_argerror(L, 1, "a shard cannot merge");
@@ -348,6 +349,7 @@ static int m_crossings(lua_State *L) {
 static int m_series(lua_State *L) { return push_curve(L, lvs_sweep_series); }
 
 static int m_remove_journals(lua_State *L) {
+  lvsL_no_files(L, "sweep");
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_sweep *s = checksweep(L, 1);
   lvsL_check(L, ctx, lvs_sweep_remove_journals(s), "sweep");
@@ -358,6 +360,7 @@ static int m_write(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_sweep *s = checksweep(L, 1);
   const char *path = luaL_checkstring(L, 2);
+  lvsL_no_files(L, "sweep:write");
   int st = lvs_sweep_write(s, path);
   lvsL_check(L, ctx, st, "sweep:write");
   return 0;

@@ -159,6 +159,10 @@ lvs_host *lvs_host_new_ex(const lvs_host_opts *opts) {
   else prepend_path(L, LVS_SOURCE_DIR);
   const char *env = getenv("LVS_PATH");
   if (env && *env) prepend_path(L, env);
+  if (flags & LVS_HOST_SANDBOX) { /* the module's writers read this (lvsL_no_files) */
+    lua_pushboolean(L, 1);
+    lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.sandbox");
+  }
   luaL_getsubtable(L, LUA_REGISTRYINDEX, LUA_PRELOAD_TABLE);
   lua_pushcfunction(L, luaopen_levelshift_core);
   lua_setfield(L, -2, "levelshift.core");

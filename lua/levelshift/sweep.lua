@@ -118,6 +118,7 @@ return function(ls, core)
   end
 
   local function have_gnuplot()
+    if not os or not os.execute then return false end -- a sandboxed host
     local ok = os.execute("command -v gnuplot >/dev/null 2>&1")
     return ok == true or ok == 0
   end
@@ -134,6 +135,7 @@ return function(ls, core)
       error("bad argument #2 to 'plot' (table of options expected, got " .. type(opts) .. ")", 2)
     end
     opts = opts or {}
+    if not io or not os then error("sweep:plot: writing files is disabled in this sandboxed host", 2) end
     if not have_gnuplot() then
       error("sweep:plot: gnuplot is not installed; install the Debian package gnuplot-nox "
         .. "(apt-get install gnuplot-nox) to draw plots", 2)

@@ -21,6 +21,34 @@ int main(void) {
   expect(h, "assert(io == nil and os == nil and debug == nil and dofile == nil)", 0, NULL);
   expect(h, "require 'lfs'", 1, "module 'lfs' not found");
   expect(h, "assert(load(string.dump(function() end)) == nil)", 0, NULL);
+  expect(h, "ls._write_file('/tmp/lvs_fence_probe.csv', 'x')", 1, "write: writing files is disabled");
+  /* the library's own writers stay shut in a sandbox (the script has no io
+   * or os, so it must not reach the file system through ls either); none of
+   * these may leave a file behind */
+  const char *sw = "local o = ls.oscillator(12); local sw = ls.sweep{H0 = o.number, V = o.x ^ 2, from = 0, "
+                   "to = 0.1, steps = 2, count = 2, progress = false}; ";
+  char code[512];
+  snprintf(code, sizeof code, "%s sw:write('/tmp/lvs_fence_probe.csv')", sw);
+  expect(h, code, 1, "sweep:write: writing files is disabled in this sandboxed host");
+  snprintf(code, sizeof code, "%s sw:write('/tmp/lvs_fence_probe.json')", sw);
+  expect(h, code, 1, "writing files is disabled in this sandboxed host");
+  snprintf(code, sizeof code, "%s sw:plot('/tmp/lvs_fence_probe.svg')", sw);
+  expect(h, code, 1, "writing files is disabled in this sandboxed host");
+  expect(h,
+         "local o = ls.oscillator(12); ls.sweep{H0 = o.number, V = o.x ^ 2, from = 0, to = 0.1, steps = 2, "
+         "count = 2, progress = false, out = '/tmp/lvs_fence_probe.csv'}",
+         1, "writing files is disabled in this sandboxed host");
+  const char *probes[] = {"/tmp/lvs_fence_probe.csv", "/tmp/lvs_fence_probe.json", "/tmp/lvs_fence_probe.svg",
+                          "/tmp/lvs_fence_probe.csv.part"};
+  for (int k = 0; k < 4; k++) {
+    FILE *f = fopen(probes[k], "r");
+    if (f) {
+      fclose(f);
+      remove(probes[k]);
+      fprintf(stderr, "FAIL a sandboxed script wrote %s\n", probes[k]);
+      fail++;
+    }
+  }
   /* runaway script */
   expect(h, "while true do end", 1, "instruction budget of 20000000 exhausted");
   expect(h, "local ok = pcall(function() while true do end end); while true do end", 1, "budget");
