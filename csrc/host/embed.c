@@ -109,6 +109,30 @@ int lvs_host_add_path(lvs_host *h, const char *dir) {
   return 0;
 }
 
+/* package.searchers[2] of a sandbox: the stock Lua-file searcher reads
+ * precompiled chunks too, and mutated bytecode crashed the interpreter;
+ * this one loads text chunks only (mode "t") and is otherwise the same
+ * (package.searchpath on package.path, the file name as the loader's extra
+ * value). */
+static int searcher_text(lua_State *L) {
+  const char *name = luaL_checkstring(L, 1);
+  lua_getglobal(L, "package");
+  if (!lua_istable(L, -1)) return luaL_error(L, "module '%s': no package table", name);
+  lua_getfield(L, -1, "searchpath");
+  lua_pushvalue(L, 1);
+  lua_getfield(L, -3, "path");
+  lua_call(L, 2, 2); /* file name, or nil and a message */
+  if (lua_isnil(L, -2)) {
+    lua_pushfstring(L, "\n\t%s", luaL_optstring(L, -1, ""));
+    return 1;
+  }
+  const char *file = lua_tostring(L, -2);
+  if (luaL_loadfilex(L, file, "t") != LUA_OK)
+    return luaL_error(L, "error loading module '%s' from file '%s':\n\t%s", name, file, lua_tostring(L, -1));
+  lua_pushstring(L, file);
+  return 2;
+}
+
 static const char *const sandbox_lua =
     "local rawload = load\n"
     "load = function(chunk, name, mode, env) return rawload(chunk, name, 't', env) end\n"
@@ -148,6 +172,15 @@ lvs_host *lvs_host_new_ex(const lvs_host_opts *opts) {
       luaL_requiref(L, r->name, r->func, 1);
       lua_pop(L, 1);
     }
+    lua_getglobal(L, LUA_LOADLIBNAME); /* text chunks only through require */
+    lua_getfield(L, -1, "searchers");
+    lua_pushcfunction(L, searcher_text);
+    lua_rawseti(L, -2, 2);
+    lua_pop(L, 2);
+    lua_getglobal(L, LUA_STRLIBNAME); /* no bytecode out of functions either */
+    lua_pushnil(L);
+    lua_setfield(L, -2, "dump");
+    lua_pop(L, 1);
   } else {
     luaL_openlibs(L);
   }

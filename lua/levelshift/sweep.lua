@@ -135,6 +135,17 @@ return function(ls, core)
       error("bad argument #2 to 'plot' (table of options expected, got " .. type(opts) .. ")", 2)
     end
     opts = opts or {}
+    -- gnuplot reads one command a line: a newline (or any control
+    -- character) in a quoted string would end the command and start another
+    -- (and gnuplot's system() runs a shell), so none may reach the script
+    local lab0 = labels[sw] or {}
+    for _, v in ipairs { { "the path", path }, { "option 'title'", opts.title }, { "the label 'param'", lab0.param },
+      { "the label 'param_unit'", lab0.param_unit }, { "the label 'energy_unit'", lab0.energy_unit } } do
+      if v[2] ~= nil and tostring(v[2]):find("[%z\1-\31\127]") then
+        error("bad argument #" .. (v[1] == "the path" and 1 or 2) .. " to 'plot' (" .. v[1]
+          .. " contains a control character, which would break the gnuplot script)", 2)
+      end
+    end
     if not io or not os then error("sweep:plot: writing files is disabled in this sandboxed host", 2) end
     if not have_gnuplot() then
       error("sweep:plot: gnuplot is not installed; install the Debian package gnuplot-nox "

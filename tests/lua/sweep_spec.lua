@@ -561,4 +561,18 @@ echo "killed=$?"]], bin, s, args, out, out, 48 + 5 * rec))
       for k, p in ipairs(sw.p) do assert.is_true(math.abs(e[k] - slopes[a] * p) < 1e-12) end
     end
   end)
+  it("keeps control characters out of the gnuplot script", function()
+    -- a newline would end gnuplot's quoted string and start a command of the
+    -- caller's choosing (gnuplot's system() runs a shell): common practice
+    local o = ls.oscillator(12)
+    local sw = ls.sweep { H0 = o.number, V = o.x ^ 2, from = 0, to = 0.1, steps = 2, count = 2, progress = false }
+    local dir = os.tmpname()
+    os.remove(dir)
+    assert.error_matches(function() sw:plot(dir .. ".svg", { title = "a\nsystem('touch " .. dir .. "')" }) end,
+      "bad argument #2 to 'plot' (option 'title' contains a control character", 1, true)
+    assert.error_matches(function() sw:plot(dir .. "\n.svg") end,
+      "bad argument #1 to 'plot' (the path contains a control character", 1, true)
+    assert.is_nil(io.open(dir, "r"))
+    assert.is_nil(io.open(dir .. ".svg", "r"))
+  end)
 end)
