@@ -133,6 +133,31 @@ static int searcher_text(lua_State *L) {
   return 2;
 }
 
+/* Under an instruction budget two kinds of Lua code ran with the count
+ * hook off: a message handler of xpcall that Lua calls for an error raised
+ * by the hook itself (it runs inside the hook, where hooks are disabled:
+ * `xpcall(loop, loop)` hung the host), and __gc finalizers (Lua turns
+ * hooks off for them: 11 s under a 2e6 budget). So with a budget, xpcall
+ * calls its handler after the stack has unwound (where the budget counts),
+ * and never for the budget's own stop, and setmetatable refuses a
+ * metatable with __gc (only a __gc present at setmetatable time makes an
+ * object finalizable). */
+static const char *const budget_lua =
+    "local rawpcall, rawsetmt, pack, unpack = pcall, setmetatable, table.pack, table.unpack\n"
+    "local function stop(e) return type(e) == 'string' and e:find('instruction budget of %d+ exhausted') end\n"
+    "xpcall = function(f, msgh, ...)\n"
+    "  local r = pack(rawpcall(f, ...))\n"
+    "  if r[1] then return unpack(r, 1, r.n) end\n"
+    "  if stop(r[2]) then error(r[2], 0) end\n"
+    "  return false, msgh(r[2])\n"
+    "end\n"
+    "setmetatable = function(t, mt)\n"
+    "  if type(mt) == 'table' and rawget(mt, '__gc') ~= nil then\n"
+    "    error('setmetatable: __gc metamethods are disabled under an instruction budget', 2)\n"
+    "  end\n"
+    "  return rawsetmt(t, mt)\n"
+    "end\n";
+
 static const char *const sandbox_lua =
     "local rawload = load\n"
     "load = function(chunk, name, mode, env) return rawload(chunk, name, 't', env) end\n"
@@ -201,6 +226,7 @@ lvs_host *lvs_host_new_ex(const lvs_host_opts *opts) {
   lua_setfield(L, -2, "levelshift.core");
   lua_pop(L, 1);
   if ((flags & LVS_HOST_SANDBOX) && lvs_host_dostring(h, sandbox_lua, "=sandbox") != 0) return h;
+  if (h->budget && lvs_host_dostring(h, budget_lua, "=budget") != 0) return h;
   if (flags & LVS_HOST_GLOBAL) {
     if (lvs_host_dostring(h, "ls = require 'levelshift'", "=init") != 0) return h;
   }

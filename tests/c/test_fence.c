@@ -67,6 +67,13 @@ int main(void) {
   /* runaway script */
   expect(h, "while true do end", 1, "instruction budget of 20000000 exhausted");
   expect(h, "local ok = pcall(function() while true do end end); while true do end", 1, "budget");
+  /* the budget holds in a message handler and against finalizers */
+  expect(h, "xpcall(function() while true do end end, function() while true do end end)", 1,
+         "instruction budget of 20000000 exhausted");
+  expect(h, "assert(select(2, xpcall(error, function(e) return 'handled: ' .. e end, 'x')) == 'handled: x')", 0,
+         NULL);
+  expect(h, "setmetatable({}, {__gc = function() while true do end end})", 1,
+         "__gc metamethods are disabled under an instruction budget");
   /* greedy script in Lua */
   expect(h, "local t = {} for i = 1, 1e9 do t[i] = i end", 1, "not enough memory");
   /* greedy request in the core: a 6000 x 6000 dense working copy (288 MB) */
