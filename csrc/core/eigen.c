@@ -529,6 +529,79 @@ int lvs_eigen(const lvs_matrix *h, size_t count, int want_vectors, double *w, lv
   return lvs_eigen_ex(h, NULL, count, want_vectors, NULL, w, vecs);
 }
 
+/* LAPACK's workspaces through the context's allocator, so that a host's
+ * memory cap bounds them as it bounds everything else of the core (the
+ * high-level LAPACKE calls malloc their own: a 3000-state solve peaked at
+ * 222 MiB under a 150 MiB cap). A workspace query first, then the _work
+ * routine. */
+static int ws_alloc(lvs_ctx *ctx, void **p, size_t cnt, size_t size) {
+  *p = lvsi_malloc(ctx, (cnt ? cnt : 1) * size);
+  return *p ? LVS_OK : lvsi_fail(ctx, LVS_ENOMEM, "out of memory for LAPACK's workspace in eigen");
+}
+
+static int syevd_ws(lvs_ctx *ctx, int cplx, char jobz, lapack_int N, double *a, double *w, lapack_int *info) {
+  lapack_int liwork = 0, lwork, lrwork = 0;
+  void *work = NULL, *rwork = NULL, *iwork = NULL;
+  double complex qz = 0;
+  double qd = 0, qr = 0;
+  lapack_int qi = 0;
+  int st;
+  if (cplx) {
+    *info = LAPACKE_zheevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, (lapack_complex_double *)a, N, w,
+                                (lapack_complex_double *)&qz, -1, &qr, -1, &qi, -1);
+    lwork = (lapack_int)creal(qz), lrwork = (lapack_int)qr;
+  } else {
+    *info = LAPACKE_dsyevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, a, N, w, &qd, -1, &qi, -1);
+    lwork = (lapack_int)qd;
+  }
+  liwork = qi;
+  if (*info) return LVS_OK;
+  if ((st = ws_alloc(ctx, &work, (size_t)lwork, cplx ? sizeof(double complex) : sizeof(double))) ||
+      (st = ws_alloc(ctx, &iwork, (size_t)liwork, sizeof(lapack_int))) ||
+      (cplx && (st = ws_alloc(ctx, &rwork, (size_t)lrwork, sizeof(double)))))
+    goto done;
+  *info = cplx ? LAPACKE_zheevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, (lapack_complex_double *)a, N, w, work, lwork,
+                                     rwork, lrwork, iwork, liwork)
+               : LAPACKE_dsyevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, a, N, w, work, lwork, iwork, liwork);
+done:
+  lvsi_free(ctx, work), lvsi_free(ctx, rwork), lvsi_free(ctx, iwork);
+  return st;
+}
+
+static int syevr_ws(lvs_ctx *ctx, int cplx, char jobz, lapack_int N, double *a, lapack_int count, lapack_int *found,
+                    double *w, double *z, lapack_int ldz, lapack_int *isuppz, lapack_int *info) {
+  lapack_int lwork, lrwork = 0, liwork;
+  void *work = NULL, *rwork = NULL, *iwork = NULL;
+  double complex qz = 0;
+  double qd = 0, qr = 0;
+  lapack_int qi = 0;
+  int st;
+  if (cplx) {
+    *info = LAPACKE_zheevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, (lapack_complex_double *)a, N, 0, 0, 1, count,
+                                0.0, found, w, (lapack_complex_double *)z, ldz, isuppz,
+                                (lapack_complex_double *)&qz, -1, &qr, -1, &qi, -1);
+    lwork = (lapack_int)creal(qz), lrwork = (lapack_int)qr;
+  } else {
+    *info = LAPACKE_dsyevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, a, N, 0, 0, 1, count, 0.0, found, w, z, ldz,
+                                isuppz, &qd, -1, &qi, -1);
+    lwork = (lapack_int)qd;
+  }
+  liwork = qi;
+  if (*info) return LVS_OK;
+  if ((st = ws_alloc(ctx, &work, (size_t)lwork, cplx ? sizeof(double complex) : sizeof(double))) ||
+      (st = ws_alloc(ctx, &iwork, (size_t)liwork, sizeof(lapack_int))) ||
+      (cplx && (st = ws_alloc(ctx, &rwork, (size_t)lrwork, sizeof(double)))))
+    goto done;
+  *info = cplx ? LAPACKE_zheevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, (lapack_complex_double *)a, N, 0, 0, 1,
+                                     count, 0.0, found, w, (lapack_complex_double *)z, ldz, isuppz, work, lwork,
+                                     rwork, lrwork, iwork, liwork)
+               : LAPACKE_dsyevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, a, N, 0, 0, 1, count, 0.0, found, w, z,
+                                     ldz, isuppz, work, lwork, iwork, liwork);
+done:
+  lvsi_free(ctx, work), lvsi_free(ctx, rwork), lvsi_free(ctx, iwork);
+  return st;
+}
+
 /* The dense path: dsyevd/zheevd for all pairs, dsyevr/zheevr for a subset. */
 int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, double *w, lvs_matrix **vecs) {
   lvs_ctx *ctx = h->ctx;
@@ -546,8 +619,7 @@ int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, double 
   lapack_int N = (lapack_int)n, info, found = 0;
   char jobz = want_vectors ? 'V' : 'N';
   if (count == n) {
-    info = h->cplx ? LAPACKE_zheevd(LAPACK_COL_MAJOR, jobz, 'L', N, (lapack_complex_double *)a->a, N, w)
-                   : LAPACKE_dsyevd(LAPACK_COL_MAJOR, jobz, 'L', N, a->a, N, w);
+    if ((st = syevd_ws(ctx, h->cplx, jobz, N, a->a, w, &info))) goto done;
     if (info == 0 && want_vectors) { /* a now holds the vectors */
       z = a;
       a = NULL;
@@ -563,11 +635,12 @@ int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, double 
       goto done;
     }
     lapack_int ldz = N;
-    info = h->cplx ? LAPACKE_zheevr(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, (lapack_complex_double *)a->a, N,
-                                    0, 0, 1, (lapack_int)count, 0.0, &found, wfull,
-                                    (lapack_complex_double *)z->a, ldz, isuppz)
-                   : LAPACKE_dsyevr(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, a->a, N, 0, 0, 1,
-                                    (lapack_int)count, 0.0, &found, wfull, z->a, ldz, isuppz);
+    st = syevr_ws(ctx, h->cplx, jobz, N, a->a, (lapack_int)count, &found, wfull, z->a, ldz, isuppz, &info);
+    if (st) {
+      lvsi_free(ctx, isuppz);
+      lvsi_free(ctx, wfull);
+      goto done;
+    }
     memcpy(w, wfull, count * sizeof(double));
     lvsi_free(ctx, isuppz);
     lvsi_free(ctx, wfull);

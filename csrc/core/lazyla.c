@@ -227,6 +227,24 @@ FWD(lapack_int, LAPACKE_dsytrf, (int matrix_layout, char uplo, lapack_int n, dou
 FWD(lapack_int, LAPACKE_dsytrs, (int matrix_layout, char uplo, lapack_int n, lapack_int nrhs, const
     double* a, lapack_int lda, const lapack_int* ipiv, double* b, lapack_int ldb), (matrix_layout,
     uplo, n, nrhs, a, lda, ipiv, b, ldb), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsyevd_work, (int matrix_layout, char jobz, char uplo, lapack_int n, double* a,
+    lapack_int lda, double* w, double* work, lapack_int lwork, lapack_int* iwork, lapack_int liwork),
+    (matrix_layout, jobz, uplo, n, a, lda, w, work, lwork, iwork, liwork), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_dsyevr_work, (int matrix_layout, char jobz, char range, char uplo, lapack_int n,
+    double* a, lapack_int lda, double vl, double vu, lapack_int il, lapack_int iu, double abstol,
+    lapack_int* m, double* w, double* z, lapack_int ldz, lapack_int* isuppz, double* work, lapack_int
+    lwork, lapack_int* iwork, lapack_int liwork), (matrix_layout, jobz, range, uplo, n, a, lda, vl, vu,
+    il, iu, abstol, m, w, z, ldz, isuppz, work, lwork, iwork, liwork), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_zheevd_work, (int matrix_layout, char jobz, char uplo, lapack_int n,
+    lapack_complex_double* a, lapack_int lda, double* w, lapack_complex_double* work, lapack_int lwork,
+    double* rwork, lapack_int lrwork, lapack_int* iwork, lapack_int liwork), (matrix_layout, jobz, uplo,
+    n, a, lda, w, work, lwork, rwork, lrwork, iwork, liwork), LIB_LAPACKE)
+FWD(lapack_int, LAPACKE_zheevr_work, (int matrix_layout, char jobz, char range, char uplo, lapack_int n,
+    lapack_complex_double* a, lapack_int lda, double vl, double vu, lapack_int il, lapack_int iu, double
+    abstol, lapack_int* m, double* w, lapack_complex_double* z, lapack_int ldz, lapack_int* isuppz,
+    lapack_complex_double* work, lapack_int lwork, double* rwork, lapack_int lrwork, lapack_int* iwork,
+    lapack_int liwork), (matrix_layout, jobz, range, uplo, n, a, lda, vl, vu, il, iu, abstol, m, w, z,
+    ldz, isuppz, work, lwork, rwork, lrwork, iwork, liwork), LIB_LAPACKE)
 FWD(lapack_int, LAPACKE_zheev, (int matrix_layout, char jobz, char uplo, lapack_int n,
     lapack_complex_double* a, lapack_int lda, double* w), (matrix_layout, jobz, uplo, n, a, lda, w),
     LIB_LAPACKE)

@@ -78,6 +78,23 @@ int main(void) {
   expect(h, "local t = {} for i = 1, 1e9 do t[i] = i end", 1, "not enough memory");
   /* greedy request in the core: a 6000 x 6000 dense working copy (288 MB) */
   expect(h, "ls.eigen(ls.oscillator(6000).number)", 1, "out of memory");
+  /* LAPACK's workspace counts against the cap too: a 1500-state dense solve
+   * needs 18 MB for the op, 18 MB for its working copy and 36 MB of dsyevd
+   * workspace (1 + 6n + 2n^2 doubles, LAPACK's documentation of dsyevd),
+   * above 64 MiB together; the workspace used to be malloc'd by LAPACKE */
+  {
+    lvs_host_opts oc = {LVS_HOST_GLOBAL | LVS_HOST_SANDBOX, 64u << 20, 0};
+    lvs_host *hc = lvs_host_new_ex(&oc);
+    if (!hc) return 1;
+    expect(hc, "local Q = ls.random_orthogonal(1500); local H = Q + Q:adj(); Q = nil; collectgarbage(); ls.eigen(H)",
+           1, "out of memory for LAPACK's workspace");
+    expect(hc, "assert(#ls.eigen(ls.random_orthogonal(200) + ls.random_orthogonal(200):adj()) == 200)", 0, NULL);
+    if (lvs_host_memory(hc) > (64u << 20)) {
+      fprintf(stderr, "FAIL memory above the cap (workspace host)\n");
+      fail++;
+    }
+    lvs_host_free(hc);
+  }
   /* and the host goes on */
   expect(h, "assert(ls.eigen(ls.spin(0.5).Sz)[1] == -0.5)", 0, NULL);
   if (lvs_host_memory(h) > (64u << 20)) {
