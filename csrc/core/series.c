@@ -979,8 +979,8 @@ static int bloch_sparse(lvs_ctx *ctx, const lvs_matrix *hp, const lvs_matrix *vp
   for (int k = 0; k <= g->nom; k++) g->lo[k] = 0, g->hi[k] = n;
   int st = LVS_OK;
   lvsi_resolvent *R = NULL;
-  dc *y = lvsi_malloc(ctx, n * sizeof *y), *rhs = lvsi_malloc(ctx, n * sizeof *rhs);
-  if (!y || !rhs || !(g->om[0] = lvsi_malloc(ctx, n * d * sizeof(dc)))) {
+  dc *y = lvsi_malloc(ctx, n * sizeof *y);
+  if (!y || !(g->om[0] = lvsi_malloc(ctx, n * d * sizeof(dc)))) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
     goto done;
   }
@@ -1009,19 +1009,18 @@ static int bloch_sparse(lvs_ctx *ctx, const lvs_matrix *hp, const lvs_matrix *vp
         for (size_t i = 0; i < n; i++) c += conj(pb[i]) * y[i];
         Wk[b + a * d] = c;
       }
-    }
-    if (!keep) continue;
-    for (size_t a = 0; a < d; a++) {
-      if ((st = lvs_matrix_apply(vp, 1, (const double *)(g->om[k - 1] + a * n), (double *)rhs))) goto done;
+      if (!keep) continue;
+      /* the right-hand side from the same product: it needs W of the
+       * lower orders only */
       for (int i = 1; i < k; i++) {
         const dc *oi = g->om[i], *wk = W + (size_t)(k - i - 1) * dd;
         for (size_t b = 0; b < d; b++) {
           dc c = wk[b + a * d];
           if (c == 0) continue;
-          for (size_t r = 0; r < n; r++) rhs[r] -= oi[r + b * n] * c;
+          for (size_t r = 0; r < n; r++) y[r] -= oi[r + b * n] * c;
         }
       }
-      if ((st = lvsi_resolvent_solve(R, rhs, g->om[k] + a * n))) goto done;
+      if ((st = lvsi_resolvent_solve(R, y, g->om[k] + a * n))) goto done;
       (*solves)++;
     }
   }
@@ -1037,7 +1036,6 @@ done:
   }
   lvsi_resolvent_free(R);
   lvsi_free(ctx, y);
-  lvsi_free(ctx, rhs);
   return st;
 }
 
