@@ -297,6 +297,18 @@ static int arpack_info_error(lvs_ctx *ctx, const char *routine, int info, const 
   return lvsi_fail(ctx, LVS_ELAPACK, "eigen: krylov method: ARPACK %s failed (info %d)", routine, info);
 }
 
+/* the end of an ARPACK iteration: every wanted value converged (info 0 and
+ * nconv >= nev), or the reason it did not */
+static int aupd_status(lvs_ctx *ctx, const char *routine, int info, int nconv, const kjob *j) {
+  if (info == 0 && nconv >= 0 && (size_t)nconv >= j->nev) return LVS_OK;
+  if (info == 0 || info == 1)
+    return lvsi_fail(ctx, LVS_ENOCONV,
+                     "eigen: krylov method: ARPACK did not converge: %d of %zu levels after %zu restarts (tol %.3g,"
+                     " ncv %zu); raise maxiter or ncv",
+                     nconv, j->nev, j->restarts, j->tol, j->ncv);
+  return arpack_info_error(ctx, routine, info, j);
+}
+
 /* lowest (or nearest) nev pairs of a real symmetric op: values ascending in
  * w, vectors n x nev column-major in z (NULL: no vectors) */
 static int run_real(kjob *j, double *w, double *z) {
@@ -331,23 +343,7 @@ static int run_real(kjob *j, double *w, double *z) {
     }
   }
   j->restarts = (size_t)iparam[2];
-  if (info != 0) {
-    if (info == 1)
-      st = lvsi_fail(ctx, LVS_ENOCONV,
-                     "eigen: krylov method: ARPACK did not converge: %d of %zu levels after %zu restarts (tol %.3g, ncv %zu);"
-                     " raise maxiter or ncv",
-                     (int)iparam[4], j->nev, j->restarts, j->tol, j->ncv);
-    else
-      st = arpack_info_error(ctx, "dsaupd", (int)info, j);
-    goto done;
-  }
-  if ((size_t)iparam[4] < j->nev) {
-    st = lvsi_fail(ctx, LVS_ENOCONV,
-                   "eigen: krylov method: ARPACK converged %d of %zu levels after %zu restarts (tol %.3g, ncv %zu); raise"
-                   " maxiter or ncv",
-                   (int)iparam[4], j->nev, j->restarts, j->tol, j->ncv);
-    goto done;
-  }
+  if ((st = aupd_status(ctx, "dsaupd", (int)info, (int)iparam[4], j))) goto done;
   a_int ierr = 0;
   dseupd_c(z != NULL, "A", select, d, z ? z : v, n, j->sigma, "I", n, which, nev, j->tol, resid, ncv, v, n, iparam,
            ipntr, workd, workl, lworkl, &ierr);
@@ -413,16 +409,7 @@ static int run_complex(kjob *j, double *w, double *z) {
     }
   }
   j->restarts = (size_t)iparam[2];
-  if (info != 0 || (size_t)iparam[4] < j->nev) {
-    if (info == 1 || (info == 0 && (size_t)iparam[4] < j->nev))
-      st = lvsi_fail(ctx, LVS_ENOCONV,
-                     "eigen: krylov method: ARPACK did not converge: %d of %zu levels after %zu restarts (tol %.3g, ncv %zu);"
-                     " raise maxiter or ncv",
-                     (int)iparam[4], j->nev, j->restarts, j->tol, j->ncv);
-    else
-      st = arpack_info_error(ctx, "znaupd", (int)info, j);
-    goto done;
-  }
+  if ((st = aupd_status(ctx, "znaupd", (int)info, (int)iparam[4], j))) goto done;
   a_int ierr = 0;
   zneupd_c(z != NULL, "A", select, d, zz ? zz : v, n, CMPLX(j->sigma, 0.0), workev, "I", n, which, nev, j->tol,
            resid, ncv, v, n, iparam, ipntr, workd, workl, lworkl, rwork, &ierr);
