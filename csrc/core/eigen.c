@@ -138,6 +138,7 @@ typedef struct {
   const lvs_matrix *a; /* plain, Hermitian (checked) */
   size_t n, nb, count;
   const size_t *comp;
+  int given; /* comp came from the caller (else: the sparsity graph's components) */
   size_t *size, *loc, *order, *start; /* per block size; position in block; states by block */
   int *method;
   size_t *kb; /* pairs wanted from each block */
@@ -170,9 +171,10 @@ static int splan_init(splan *p, const lvs_eigen_opts *o) {
   for (size_t i = 0; i < n; i++) p->order[p->start[p->comp[i]] + p->loc[i]] = i;
   int want_method = o ? o->method : LVS_EIGEN_AUTO, near = o && o->has_near;
   const lvs_matrix *a = p->a;
-  /* the caller's sectors: no stored nonzero may couple two of them */
+  /* the caller's sectors: no stored nonzero may couple two of them
+   * (connected components cannot) */
   size_t w = a->cplx ? 2 : 1;
-  for (size_t j = 0; j < n; j++) {
+  for (size_t j = 0; j < n && p->given; j++) {
     size_t k0 = a->sparse ? a->cp[j] : 0, k1 = a->sparse ? a->cp[j + 1] : n;
     for (size_t k = k0; k < k1; k++) {
       size_t i = a->sparse ? a->ri[k] : k, src = a->sparse ? k : i + j * n;
@@ -446,11 +448,15 @@ int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want
   if (want_vectors && (st = lvsi_dense_ok(ctx, n, count, h->cplx ? 16 : 8, "eigenvectors"))) return st;
   if (o && o->method == LVS_EIGEN_KRYLOV && !h->sparse)
     return lvsi_fail(ctx, LVS_EINVAL, "eigen: method 'krylov' needs a sparse matrix (this one is stored dense)");
-  if (h->cplx && !h->vis) { /* complex storage of a real op: solve it as real */
+  lvs_matrix *p = NULL; /* the plain visible copy of a padded op */
+  if (h->vis && (st = lvs_matrix_visible(h, 0, &p))) return st;
+  const lvs_matrix *a = p ? p : h;
+  if (a->cplx) { /* complex storage of a real op: solve it as real */
     lvs_matrix *r = NULL;
-    if ((st = real_copy_if_real(h, &r))) return st;
-    if (r) {
-      st = lvs_eigen_ex(r, comp, count, want_vectors, o, w, vecs);
+    st = real_copy_if_real(a, &r);
+    if (st || r) {
+      lvs_matrix_free(p);
+      if (!st) st = lvs_eigen_ex(r, comp, count, want_vectors, o, w, vecs);
       lvs_matrix_free(r);
       if (!st && want_vectors && vecs) st = to_complex(vecs);
       if (st && vecs) lvs_matrix_free(*vecs), *vecs = NULL;
@@ -465,21 +471,6 @@ int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want
     }
     return lvs_eigen_dense(h, count, want_vectors, w, vecs);
   }
-  lvs_matrix *p = NULL;
-  if (h->vis && (st = lvs_matrix_visible(h, 0, &p))) return st;
-  if (p && p->cplx) { /* a padded complex op: the same test on its visible copy */
-    lvs_matrix *r = NULL;
-    if ((st = real_copy_if_real(p, &r))) goto fail_p;
-    if (r) {
-      lvs_matrix_free(p);
-      st = lvs_eigen_ex(r, comp, count, want_vectors, o, w, vecs);
-      lvs_matrix_free(r);
-      if (!st && want_vectors && vecs) st = to_complex(vecs);
-      if (st && vecs) lvs_matrix_free(*vecs), *vecs = NULL;
-      return st;
-    }
-  }
-  const lvs_matrix *a = p ? p : h;
   size_t *cc = NULL;
   splan pl = {0};
   if ((st = lvsi_check_hermitian(a, LVS_DEFAULT_HERM_TOL, "matrix"))) goto done;
@@ -491,6 +482,7 @@ int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want
   pl.n = n;
   pl.count = count;
   pl.comp = cc;
+  pl.given = comp != NULL;
   if ((st = sector_numbers(a, comp, n, cc, &pl.nb))) goto done;
   if ((st = splan_init(&pl, o))) goto done;
   if (pl.nb == 1) { /* one sector: the op itself, no copy */
@@ -515,9 +507,6 @@ done:
   lvsi_free(ctx, cc);
   lvs_matrix_free(p);
   return st;
-fail_p:
-  lvs_matrix_free(p);
-  return st;
 }
 
 int lvs_eigen_sectors(const lvs_matrix *h, const size_t *comp, size_t count, int want_vectors,
@@ -534,71 +523,73 @@ int lvs_eigen(const lvs_matrix *h, size_t count, int want_vectors, double *w, lv
  * high-level LAPACKE calls malloc their own: a 3000-state solve peaked at
  * 222 MiB under a 150 MiB cap). A workspace query first, then the _work
  * routine. */
-static int ws_alloc(lvs_ctx *ctx, void **p, size_t cnt, size_t size) {
-  *p = lvsi_malloc(ctx, (cnt ? cnt : 1) * size);
-  return *p ? LVS_OK : lvsi_fail(ctx, LVS_ENOMEM, "out of memory for LAPACK's workspace in eigen");
+typedef struct {
+  lapack_int lwork, lrwork, liwork; /* sizes from the query */
+  void *work, *rwork, *iwork;
+} lapack_ws;
+
+/* the workspace a query asked for (work is complex for a complex solver,
+ * rwork only then) */
+static int ws_take(lvs_ctx *ctx, int cplx, lapack_ws *ws) {
+  size_t we = cplx ? sizeof(double complex) : sizeof(double);
+  ws->work = lvsi_malloc(ctx, (ws->lwork > 0 ? (size_t)ws->lwork : 1) * we);
+  ws->iwork = lvsi_malloc(ctx, (ws->liwork > 0 ? (size_t)ws->liwork : 1) * sizeof(lapack_int));
+  ws->rwork = cplx ? lvsi_malloc(ctx, (ws->lrwork > 0 ? (size_t)ws->lrwork : 1) * sizeof(double)) : NULL;
+  if (ws->work && ws->iwork && (!cplx || ws->rwork)) return LVS_OK;
+  return lvsi_fail(ctx, LVS_ENOMEM, "out of memory for LAPACK's workspace in eigen");
+}
+
+static void ws_free(lvs_ctx *ctx, lapack_ws *ws) {
+  lvsi_free(ctx, ws->work), lvsi_free(ctx, ws->rwork), lvsi_free(ctx, ws->iwork);
+}
+
+/* the sizes a workspace query left in its one-element arrays */
+static void ws_sizes(lapack_ws *ws, int cplx, double complex qz, double qd, double qr, lapack_int qi) {
+  ws->lwork = (lapack_int)(cplx ? creal(qz) : qd);
+  ws->lrwork = (lapack_int)qr;
+  ws->liwork = qi;
 }
 
 static int syevd_ws(lvs_ctx *ctx, int cplx, char jobz, lapack_int N, double *a, double *w, lapack_int *info) {
-  lapack_int liwork = 0, lwork, lrwork = 0;
-  void *work = NULL, *rwork = NULL, *iwork = NULL;
+  lapack_ws ws = {0};
   double complex qz = 0;
   double qd = 0, qr = 0;
   lapack_int qi = 0;
-  int st;
-  if (cplx) {
-    *info = LAPACKE_zheevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, (lapack_complex_double *)a, N, w,
-                                (lapack_complex_double *)&qz, -1, &qr, -1, &qi, -1);
-    lwork = (lapack_int)creal(qz), lrwork = (lapack_int)qr;
-  } else {
-    *info = LAPACKE_dsyevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, a, N, w, &qd, -1, &qi, -1);
-    lwork = (lapack_int)qd;
-  }
-  liwork = qi;
+  *info = cplx ? LAPACKE_zheevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, (lapack_complex_double *)a, N, w,
+                                     (lapack_complex_double *)&qz, -1, &qr, -1, &qi, -1)
+               : LAPACKE_dsyevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, a, N, w, &qd, -1, &qi, -1);
   if (*info) return LVS_OK;
-  if ((st = ws_alloc(ctx, &work, (size_t)lwork, cplx ? sizeof(double complex) : sizeof(double))) ||
-      (st = ws_alloc(ctx, &iwork, (size_t)liwork, sizeof(lapack_int))) ||
-      (cplx && (st = ws_alloc(ctx, &rwork, (size_t)lrwork, sizeof(double)))))
-    goto done;
-  *info = cplx ? LAPACKE_zheevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, (lapack_complex_double *)a, N, w, work, lwork,
-                                     rwork, lrwork, iwork, liwork)
-               : LAPACKE_dsyevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, a, N, w, work, lwork, iwork, liwork);
-done:
-  lvsi_free(ctx, work), lvsi_free(ctx, rwork), lvsi_free(ctx, iwork);
+  ws_sizes(&ws, cplx, qz, qd, qr, qi);
+  int st = ws_take(ctx, cplx, &ws);
+  if (!st)
+    *info = cplx ? LAPACKE_zheevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, (lapack_complex_double *)a, N, w, ws.work,
+                                       ws.lwork, ws.rwork, ws.lrwork, ws.iwork, ws.liwork)
+                 : LAPACKE_dsyevd_work(LAPACK_COL_MAJOR, jobz, 'L', N, a, N, w, ws.work, ws.lwork, ws.iwork,
+                                       ws.liwork);
+  ws_free(ctx, &ws);
   return st;
 }
 
 static int syevr_ws(lvs_ctx *ctx, int cplx, char jobz, lapack_int N, double *a, lapack_int count, lapack_int *found,
                     double *w, double *z, lapack_int ldz, lapack_int *isuppz, lapack_int *info) {
-  lapack_int lwork, lrwork = 0, liwork;
-  void *work = NULL, *rwork = NULL, *iwork = NULL;
+  lapack_ws ws = {0};
   double complex qz = 0;
   double qd = 0, qr = 0;
   lapack_int qi = 0;
-  int st;
-  if (cplx) {
-    *info = LAPACKE_zheevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, (lapack_complex_double *)a, N, 0, 0, 1, count,
-                                0.0, found, w, (lapack_complex_double *)z, ldz, isuppz,
-                                (lapack_complex_double *)&qz, -1, &qr, -1, &qi, -1);
-    lwork = (lapack_int)creal(qz), lrwork = (lapack_int)qr;
-  } else {
-    *info = LAPACKE_dsyevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, a, N, 0, 0, 1, count, 0.0, found, w, z, ldz,
-                                isuppz, &qd, -1, &qi, -1);
-    lwork = (lapack_int)qd;
-  }
-  liwork = qi;
-  if (*info) return LVS_OK;
-  if ((st = ws_alloc(ctx, &work, (size_t)lwork, cplx ? sizeof(double complex) : sizeof(double))) ||
-      (st = ws_alloc(ctx, &iwork, (size_t)liwork, sizeof(lapack_int))) ||
-      (cplx && (st = ws_alloc(ctx, &rwork, (size_t)lrwork, sizeof(double)))))
-    goto done;
-  *info = cplx ? LAPACKE_zheevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, (lapack_complex_double *)a, N, 0, 0, 1,
-                                     count, 0.0, found, w, (lapack_complex_double *)z, ldz, isuppz, work, lwork,
-                                     rwork, lrwork, iwork, liwork)
+  lapack_complex_double *ac = (lapack_complex_double *)a, *zc = (lapack_complex_double *)z;
+  *info = cplx ? LAPACKE_zheevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, ac, N, 0, 0, 1, count, 0.0, found, w, zc,
+                                     ldz, isuppz, (lapack_complex_double *)&qz, -1, &qr, -1, &qi, -1)
                : LAPACKE_dsyevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, a, N, 0, 0, 1, count, 0.0, found, w, z,
-                                     ldz, isuppz, work, lwork, iwork, liwork);
-done:
-  lvsi_free(ctx, work), lvsi_free(ctx, rwork), lvsi_free(ctx, iwork);
+                                     ldz, isuppz, &qd, -1, &qi, -1);
+  if (*info) return LVS_OK;
+  ws_sizes(&ws, cplx, qz, qd, qr, qi);
+  int st = ws_take(ctx, cplx, &ws);
+  if (!st)
+    *info = cplx ? LAPACKE_zheevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, ac, N, 0, 0, 1, count, 0.0, found, w, zc,
+                                       ldz, isuppz, ws.work, ws.lwork, ws.rwork, ws.lrwork, ws.iwork, ws.liwork)
+                 : LAPACKE_dsyevr_work(LAPACK_COL_MAJOR, jobz, 'I', 'L', N, a, N, 0, 0, 1, count, 0.0, found, w, z,
+                                       ldz, isuppz, ws.work, ws.lwork, ws.iwork, ws.liwork);
+  ws_free(ctx, &ws);
   return st;
 }
 
