@@ -46,7 +46,7 @@ struct lvsi_resolvent {
   lvsi_splu *lu;     /* bordered factorization, or NULL: MINRES */
   lvsi_symop *op;    /* products with H0 (MINRES) */
   double hnorm;      /* a bound on |H0 - E| (Gershgorin) */
-  dc *work;          /* MINRES vectors: 7 n */
+  dc *work;          /* MINRES vectors (7 n) and its right-hand side (n) */
   double *rx, *ry;   /* real scratch (2 n each) for the bordered solve */
   size_t iters;      /* total MINRES iterations so far */
 };
@@ -166,7 +166,7 @@ int lvsi_resolvent_new(const lvs_matrix *h, const dc *P, size_t d, double e, int
     double lo, hi;
     lvsi_gershgorin(h, &lo, &hi);
     r->hnorm = fmax(fabs(hi - e), fabs(lo - e));
-    if (!(r->work = lvsi_malloc(ctx, 7 * n * sizeof(dc)))) {
+    if (!(r->work = lvsi_malloc(ctx, 8 * n * sizeof(dc)))) {
       st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory for the iterative solve");
       goto fail;
     }
@@ -297,11 +297,8 @@ int lvsi_resolvent_solve(lvsi_resolvent *r, const dc *rhs, dc *x) {
     return LVS_OK;
   }
   /* (E - H0) x = Q rhs  <=>  (H0 - E) x = -Q rhs */
-  dc *nb = lvsi_malloc(r->ctx, n * sizeof(dc));
-  if (!nb) return lvsi_fail(r->ctx, LVS_ENOMEM, "perturb: out of memory");
+  dc *nb = r->work + 7 * n; /* past minres's own seven vectors */
   for (size_t i = 0; i < n; i++) nb[i] = -rhs[i];
   project(r, nb);
-  int st = minres(r, nb, x);
-  lvsi_free(r->ctx, nb);
-  return st;
+  return minres(r, nb, x);
 }
