@@ -143,27 +143,23 @@ static int call_family(void *ud, double p, double *out, char *msg, size_t msglen
   return 0;
 }
 
-static int l_sweep(lua_State *L) {
-  lvs_ctx *ctx = lvsL_ctx(L);
-  luaL_checktype(L, 1, LUA_TTABLE);
-  static const char *const known[] = {"H0", "V", "from", "to", "steps", "count", "threads", "series",
-                                      "journal", "shard", "shards", "merge", "progress", "param",
-                                      "param_unit", "energy_unit", "H", "method", NULL};
-  lvsL_checkoptions(L, 1, known, "sweep", 1);
+/* H0 and V, or H given as a function p -> op (then H(from) and H(to) stand
+ * for H0 and V, pinned in the registry, and fu gets the function's stack
+ * slot); returns whether H is a family */
+static int sweep_model(lua_State *L, lvs_matrix **ph0, lvs_matrix **pv, family_ud *fu) {
+  lvs_matrix *h0, *v;
   lua_getfield(L, 1, "H");
   int family = !lua_isnil(L, -1);
   if (family && !lua_isfunction(L, -1)) {
     lua_pushfstring(L, "H must be a function p -> op, got %s", luaL_typename(L, -2));
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   lua_pop(L, 1);
-  lvs_matrix *h0, *v;
-  family_ud fu = {L, 0, 0, 0};
   if (family) {
     lua_getfield(L, 1, "H0");
     lua_getfield(L, 1, "V");
     if (!lua_isnil(L, -1) || !lua_isnil(L, -2))
-      return luaL_argerror(L, 1, "give either H (a function p -> op) or H0 and V, not both");
+      luaL_argerror(L, 1, "give either H (a function p -> op) or H0 and V, not both");
     lua_pop(L, 2);
     /* H(from) and H(to): size, kind and the journal's fingerprint */
     for (int end = 0; end < 2; end++) {
@@ -173,7 +169,7 @@ static int l_sweep(lua_State *L) {
       lua_call(L, 1, 1);
       if (!lvsL_testmatrix(L, -1)) {
         lua_pushfstring(L, "H(%f) must return an op, got %s", pe, luaL_typename(L, -1));
-        return luaL_argerror(L, 1, lua_tostring(L, -1));
+        luaL_argerror(L, 1, lua_tostring(L, -1));
       }
       lua_setfield(L, LUA_REGISTRYINDEX, end ? "levelshift.sweep.Hto" : "levelshift.sweep.Hfrom");
     }
@@ -183,65 +179,79 @@ static int l_sweep(lua_State *L) {
     v = lvsL_testmatrix(L, -1);
     /* keep both on the stack (below the userdata pushed later) */
     lua_getfield(L, 1, "H");
-    fu.fidx = lua_gettop(L);
+    fu->fidx = lua_gettop(L);
     if (lvs_matrix_rows(v) != lvs_matrix_rows(h0) || lvs_matrix_cols(v) != lvs_matrix_cols(h0)) {
       lua_pushfstring(L, "size mismatch: H(from) is %dx%d but H(to) is %dx%d", (int)lvs_matrix_rows(h0),
                       (int)lvs_matrix_cols(h0), (int)lvs_matrix_rows(v), (int)lvs_matrix_cols(v));
-      return luaL_argerror(L, 1, lua_tostring(L, -1));
+      luaL_argerror(L, 1, lua_tostring(L, -1));
     }
   } else {
     h0 = field_matrix(L, "H0");
     v = field_matrix(L, "V");
   }
+  *ph0 = h0;
+  *pv = v;
+  return family;
+}
+
+/* the sweep's sizes and options (checked), into a */
+typedef struct {
+  double from, to;
+  lua_Integer steps, count, threads, series, shard, shards;
+  const char *journal;
+  int merge, progress, method;
+} sweep_args;
+
+static void sweep_run_args(lua_State *L, int family, const lvs_matrix *h0, const lvs_matrix *v, sweep_args *a) {
   size_t n = lvs_matrix_rows(h0);
   if (n != lvs_matrix_cols(h0)) {
     lua_pushfstring(L, "H0 must be square, got %dx%d", (int)n, (int)lvs_matrix_cols(h0));
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   if (lvs_matrix_rows(v) != n || lvs_matrix_cols(v) != n) {
     lua_pushfstring(L, "size mismatch: H0 is %dx%d but V is %dx%d", (int)n, (int)n,
                     (int)lvs_matrix_rows(v), (int)lvs_matrix_cols(v));
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   double from = field_num(L, "from"), to = field_num(L, "to");
   if (from == to) {
     lua_pushfstring(L, "from and to are equal (%f): nothing to sweep", from);
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   lua_Integer steps = lvsL_optfield_int(L, 1, "steps", 100, "sweep", 1);
   if (steps < 1 || steps > 1000000) {
     lua_pushfstring(L, "steps must be from 1 to 1000000, got %I", steps);
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   lua_Integer count = lvsL_optfield_int(L, 1, "count", (lua_Integer)n, "sweep", 1);
   if (count < 1 || (size_t)count > n) {
     lua_pushfstring(L, "count must be from 1 to %d, got %I", (int)n, count);
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   lua_Integer threads = lvsL_optfield_int(L, 1, "threads", 2, "sweep", 1);
   if (threads < 1 || threads > 64) {
     lua_pushfstring(L, "threads must be from 1 to 64, got %I", threads);
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   lua_Integer series = lvsL_optfield_int(L, 1, "series", 0, "sweep", 1);
   if (series < 0 || series > 1000) {
     lua_pushfstring(L, "series must be an order from 1 to 1000 (0: none), got %I", series);
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   const char *journal = opt_string(L, "journal");
   lua_Integer shard = lvsL_optfield_int(L, 1, "shard", 0, "sweep", 1);
   lua_Integer shards = lvsL_optfield_int(L, 1, "shards", 0, "sweep", 1);
   if (shards < 0 || shards > 1000000 || (shards > 0 && (shard < 1 || shard > shards)) || (shards == 0 && shard != 0)) {
     lua_pushfstring(L, "shard must be from 1 to shards (a positive count), got shard %I of %I", shard, shards);
-    return luaL_argerror(L, 1, lua_tostring(L, -1));
+    luaL_argerror(L, 1, lua_tostring(L, -1));
   }
   lua_getfield(L, 1, "merge");
   int merge = lua_toboolean(L, -1);
   lua_pop(L, 1);
   if (journal) lvsL_no_files(L, "sweep (journal, out=)");
   if ((shards || merge) && !journal)
-    return luaL_argerror(L, 1, "shards and merges need 'journal' (the output path)");
-  if (shards && merge) return luaL_argerror(L, 1, "a shard cannot merge");
+    luaL_argerror(L, 1, "shards and merges need 'journal' (the output path)");
+  if (shards && merge) luaL_argerror(L, 1, "a shard cannot merge");
   lua_getfield(L, 1, "progress");
   int progress = lua_isnil(L, -1) ? isatty(STDERR_FILENO) : lua_toboolean(L, -1);
   lua_pop(L, 1);
@@ -251,27 +261,45 @@ static int l_sweep(lua_State *L) {
     static const char *const names[] = {"auto", "dense", "band", "krylov", NULL};
     int k = 0;
     while (names[k] && strcmp(names[k], mname) != 0) k++;
-    if (!names[k]) return luaL_argerror(L, 1, "option 'method' must be \"auto\", \"dense\", \"band\" or \"krylov\"");
+    if (!names[k]) luaL_argerror(L, 1, "option 'method' must be \"auto\", \"dense\", \"band\" or \"krylov\"");
     method = k;
     if (family && method >= LVS_SWEEP_BAND) {
       lua_pushfstring(L, "method '%s' needs H0 and V (not H given as a function)", mname);
-      return luaL_argerror(L, 1, lua_tostring(L, -1));
+      luaL_argerror(L, 1, lua_tostring(L, -1));
     }
     if (method == LVS_SWEEP_BAND && (lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v) || n < 16)) {
       lua_pushfstring(L, "method 'band' needs a real H0 and V of at least 16 states (got %d, %s)", (int)n,
                       lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v) ? "complex" : "real");
-      return luaL_argerror(L, 1, lua_tostring(L, -1));
+      luaL_argerror(L, 1, lua_tostring(L, -1));
     }
   }
+  a->from = from, a->to = to, a->steps = steps, a->count = count, a->threads = threads, a->series = series;
+  a->shard = shard, a->shards = shards, a->journal = journal, a->merge = merge, a->progress = progress;
+  a->method = method;
+}
+
+static int l_sweep(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  luaL_checktype(L, 1, LUA_TTABLE);
+  static const char *const known[] = {"H0", "V", "from", "to", "steps", "count", "threads", "series",
+                                      "journal", "shard", "shards", "merge", "progress", "param",
+                                      "param_unit", "energy_unit", "H", "method", NULL};
+  lvsL_checkoptions(L, 1, known, "sweep", 1);
+  lvs_matrix *h0, *v;
+  family_ud fu = {L, 0, 0, 0};
+  int family = sweep_model(L, &h0, &v, &fu);
+  size_t n = lvs_matrix_rows(h0);
+  sweep_args ar;
+  sweep_run_args(L, family, h0, v, &ar);
   const char *pname = opt_string(L, "param"), *punit = opt_string(L, "param_unit"),
              *eunit = opt_string(L, "energy_unit");
   lsweep *u = lua_newuserdatauv(L, sizeof *u, 0);
   u->s = NULL;
   luaL_setmetatable(L, LVS_SWEEP_MT);
   progress_state ps = {0, 0, (size_t)-1};
-  lvs_sweep_spec spec = {h0, v, from, to, (size_t)steps, (size_t)count, (int)threads, (int)series, journal,
-                         (size_t)shard, (size_t)shards, merge, progress ? show_progress : NULL, &ps, NULL, NULL,
-                         method};
+  lvs_sweep_spec spec = {h0, v, ar.from, ar.to, (size_t)ar.steps, (size_t)ar.count, (int)ar.threads,
+                         (int)ar.series, ar.journal, (size_t)ar.shard, (size_t)ar.shards, ar.merge,
+                         ar.progress ? show_progress : NULL, &ps, NULL, NULL, ar.method};
   if (family) {
     fu.n = n;
     fu.cplx = lvs_matrix_is_complex(h0) || lvs_matrix_is_complex(v);
