@@ -465,36 +465,6 @@ static int krylov_applies(const ework *w, const size_t *levels) {
   return w->hp->sparse && w->n > KRYLOV_EFF_MIN && (top + 8) * 8 <= w->n;
 }
 
-/* the lowest m levels (E[0..m), rest INFINITY) and vectors, m past the
- * group's top and past any level degenerate with it */
-static int krylov_levels(ework *w, size_t top, double dtol, cplx **pv, size_t *pm) {
-  lvs_ctx *ctx = w->ctx;
-  size_t n = w->n, m = top + 2;
-  for (;;) {
-    if (m + 2 > n) m = n - 2;
-    lvs_matrix *U = NULL;
-    lvs_eigen_opts o = {0};
-    int st = lvs_eigen_ex(w->hp, NULL, m, 1, &o, w->E, &U);
-    if (st) return st;
-    size_t g1 = top + 1;
-    while (g1 < m && w->E[g1] - w->E[g1 - 1] <= dtol) g1++;
-    if (g1 < m || m >= n - 2) {
-      cplx *P = lvsi_malloc(ctx, n * m * sizeof(cplx));
-      if (!P) {
-        lvs_matrix_free(U);
-        return oom(ctx);
-      }
-      for (size_t q = 0; q < n * m; q++) P[q] = U->cplx ? CMPLX(U->a[2 * q], U->a[2 * q + 1]) : U->a[q];
-      lvs_matrix_free(U);
-      for (size_t i = m; i < n; i++) w->E[i] = INFINITY;
-      *pv = P;
-      *pm = m;
-      return LVS_OK;
-    }
-    lvs_matrix_free(U);
-    m *= 2;
-  }
-}
 
 /* the cut check on the computed levels: no member degenerate with a level
  * left out (the level above the group is known, the ones below all are) */
@@ -522,7 +492,7 @@ static int krylov_path(lvs_effective *e, ework *w) {
   const size_t *p = e->levels;
   cplx *Pall = NULL, *P = NULL, *y = NULL, **om = NULL;
   lvsi_resolvent **R = NULL;
-  if ((st = krylov_levels(w, p[d - 1], dtol, &Pall, &m))) return st;
+  if ((st = lvsi_lowest_levels(w->hp, p[d - 1], dtol, w->E, &Pall, &m))) return st;
   if ((st = krylov_cut(w, p, m, dtol))) goto done;
   P = lvsi_malloc(ctx, n * d * sizeof(cplx));
   y = lvsi_malloc(ctx, n * sizeof(cplx));

@@ -547,3 +547,38 @@ int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, doub
   symop_clear(ctx, &j.mv);
   return st;
 }
+
+/* The lowest m levels of a plain sparse Hermitian op, m large enough that
+ * the run of levels within dtol of each other that holds level `top` ends
+ * inside them, with the next level known (m doubles until it does): E[0..m)
+ * ascending, E[m..n) = INFINITY, *pv the n x m vectors as complex values
+ * (owned by the caller), *pm = m. For the series and the effective
+ * Hamiltonian of a large sparse H0 (series.c, effective.c). */
+int lvsi_lowest_levels(const lvs_matrix *h, size_t top, double dtol, double *E, double complex **pv, size_t *pm) {
+  lvs_ctx *ctx = h->ctx;
+  size_t n = h->rows, m = top + 2;
+  for (;;) {
+    if (m + 2 > n) m = n - 2;
+    lvs_matrix *U = NULL;
+    lvs_eigen_opts o = {0};
+    int st = lvs_eigen_ex(h, NULL, m, 1, &o, E, &U);
+    if (st) return st;
+    size_t g1 = top + 1;
+    while (g1 < m && E[g1] - E[g1 - 1] <= dtol) g1++;
+    if (g1 < m || m >= n - 2) {
+      double complex *P = lvsi_malloc(ctx, n * m * sizeof *P);
+      if (!P) {
+        lvs_matrix_free(U);
+        return lvsi_fail(ctx, LVS_ENOMEM, "out of memory for %zu level vectors", m);
+      }
+      for (size_t q = 0; q < n * m; q++) P[q] = U->cplx ? CMPLX(U->a[2 * q], U->a[2 * q + 1]) : U->a[q];
+      lvs_matrix_free(U);
+      for (size_t i = m; i < n; i++) E[i] = INFINITY;
+      *pv = P;
+      if (pm) *pm = m;
+      return LVS_OK;
+    }
+    lvs_matrix_free(U);
+    m *= 2; /* the run goes past the levels found: ask for more */
+  }
+}

@@ -900,36 +900,11 @@ static int sparse_path(const lvs_matrix *hp, const size_t *levels, size_t nlevel
  * level ends inside them with its next level known: E[0..m) set, the rest
  * INFINITY; *pv gets the n x m vectors. gtol on the known range (the
  * Gershgorin range of H0 stands in for the unknown top of the spectrum). */
-static int sparse_levels(lvs_ctx *ctx, const lvs_matrix *hp, size_t top, double degen_tol, double *E, dc **pv,
-                         double *pgtol) {
-  size_t n = hp->rows, m = top + 2;
+static int sparse_levels(const lvs_matrix *hp, size_t top, double degen_tol, double *E, dc **pv, double *pgtol) {
   double lo, hi;
   lvsi_gershgorin(hp, &lo, &hi);
-  double gtol = degen_tol * fmax(hi - lo, fmax(fabs(lo), fabs(hi)));
-  *pgtol = gtol;
-  for (;;) {
-    if (m + 2 > n) m = n - 2;
-    lvs_matrix *U = NULL;
-    lvs_eigen_opts o = {0};
-    int st = lvs_eigen_ex(hp, NULL, m, 1, &o, E, &U);
-    if (st) return st;
-    size_t g1 = top + 1;
-    while (g1 < m && E[g1] - E[g1 - 1] <= gtol) g1++;
-    if (g1 < m || m >= n - 2) {
-      dc *P = lvsi_malloc(ctx, n * m * sizeof(dc));
-      if (!P) {
-        lvs_matrix_free(U);
-        return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
-      }
-      for (size_t q = 0; q < n * m; q++) P[q] = U->cplx ? CMPLX(U->a[2 * q], U->a[2 * q + 1]) : U->a[q];
-      lvs_matrix_free(U);
-      for (size_t i = m; i < n; i++) E[i] = INFINITY;
-      *pv = P;
-      return LVS_OK;
-    }
-    lvs_matrix_free(U);
-    m *= 2; /* the group runs past the levels found: ask for more */
-  }
+  *pgtol = degen_tol * fmax(hi - lo, fmax(fabs(lo), fabs(hi)));
+  return lvsi_lowest_levels(hp, top, *pgtol, E, pv, NULL);
 }
 
 /* Wigner's 2n+1 rule for one level when only energies are wanted: psi(0..m),
@@ -1358,7 +1333,7 @@ static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t n
     size_t top = 0;
     for (size_t i = 0; i < nlevels; i++) top = levels[i] > top ? levels[i] : top;
     s->solver = "bordered LU";
-    return sparse_levels(ctx, hp, top, b->degen_tol, E, &b->pvec, &b->sgtol);
+    return sparse_levels(hp, top, b->degen_tol, E, &b->pvec, &b->sgtol);
   }
   /* a few explicit, non-degenerate levels of a real H0: solve, do not diagonalize */
   if (!hp->cplx && nlevels >= 1 && nlevels <= 8) {
