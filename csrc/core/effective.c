@@ -446,7 +446,7 @@ done:
 }
 
 /* ---- phase 3c: wave-operator recursion, Krylov path (sparse H0) -------- */
-/* A large sparse H0 that is not diagonal (more than KRYLOV_EFF_MIN states,
+/* A large sparse H0 that is not diagonal (lvsi_krylov_pays: more than 1000 states,
  * a group of low levels): the lowest levels and their vectors P from the
  * Krylov path (lvs_eigen_ex), then the recursion in the original basis,
  *   W(k)_ba = <p_b| V Omega(k-1)_a>,
@@ -457,12 +457,11 @@ done:
  * division by (E_a - E_m) done by solves. Cost per order: d products with V
  * and d solves; memory O(K n d). The cut and gap checks use the computed
  * levels (the next level above the group is always computed). */
-#define KRYLOV_EFF_MIN 1000
 
 static int krylov_applies(const ework *w, const size_t *levels) {
   size_t top = 0;
   for (size_t i = 0; i < w->d; i++) top = levels[i] > top ? levels[i] : top;
-  return w->hp->sparse && w->n > KRYLOV_EFF_MIN && (top + 8) * 8 <= w->n;
+  return lvsi_krylov_pays(w->hp, top);
 }
 
 

@@ -81,6 +81,7 @@ LVSI int lvs_eigen_dense(const lvs_matrix *h, size_t count, int want_vectors, do
  * Gershgorin bounds of a plain sparse Hermitian op */
 LVSI int lvsi_krylov(const lvs_matrix *a, size_t count, const lvs_eigen_opts *o, double *w, double *z);
 LVSI void lvsi_gershgorin(const lvs_matrix *a, double *lo, double *hi);
+LVSI int lvsi_krylov_pays(const lvs_matrix *h, size_t top);
 LVSI int lvsi_lowest_levels(const lvs_matrix *h, size_t top, double dtol, double *E, double complex **pv,
                             size_t *pm);
 /* sparse_lu.c: UMFPACK LU of an n x n CSC matrix (arrays copied; complex

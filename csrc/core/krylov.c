@@ -582,3 +582,11 @@ int lvsi_lowest_levels(const lvs_matrix *h, size_t top, double dtol, double *E, 
     m *= 2; /* the run goes past the levels found: ask for more */
   }
 }
+
+/* whether a few low levels of h (up to 0-based `top`) go by the Krylov
+ * route rather than a dense eigensolve: sparse storage, more than 1000
+ * states (below, the dense routes are robust for any clustering and fast
+ * enough), and room for ARPACK's basis past top */
+int lvsi_krylov_pays(const lvs_matrix *h, size_t top) {
+  return h->sparse && !h->vis && h->rows > 1000 && (top + 8) * 8 <= h->rows;
+}

@@ -885,15 +885,12 @@ done:
  * fill in). This is the eigenbasis recursion of bloch_group with the
  * division by (E_P - E_m) replaced by R; W feeds the same eigseries. Cost per
  * order: d products with V and d solves; memory O(n d K). */
-#define SERIES_SPARSE_MIN 1000 /* below: the eigenbasis route, robust for any clustering */
 
 /* the sparse path applies: sparse, large, and a few explicit low levels */
 static int sparse_path(const lvs_matrix *hp, const size_t *levels, size_t nlevels) {
-  size_t n = hp->rows, top = 0;
-  if (!hp->sparse || n <= SERIES_SPARSE_MIN || nlevels == 0) return 0;
-  for (size_t i = 0; i < nlevels; i++)
-    if (levels[i] > top) top = levels[i];
-  return (top + 8) * 8 <= n;
+  size_t top = 0;
+  for (size_t i = 0; i < nlevels; i++) top = levels[i] > top ? levels[i] : top;
+  return nlevels > 0 && lvsi_krylov_pays(hp, top);
 }
 
 /* The lowest m levels, m large enough that the group of the highest wanted
