@@ -361,6 +361,51 @@ typedef struct lvs_series lvs_series;
 #define LVS_SERIES_NORMALIZED 1 /* flags: normalized states (default: intermediate normalization) */
 #define LVS_SERIES_NO_STATES 2  /* flags: energies only, no state corrections kept (less memory) */
 LVS_API int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels, double degen_tol, int flags, lvs_series **out);
+/* Model spaces of nearly degenerate levels (mspace.c's head comment has the
+ * rule): groups = LVS_GROUPS_AUTO joins exact groups G, H of H0 when
+ * |E_G - E_H| < near_factor * lambda_max * kappa_GH (kappa: the coupling
+ * block's Frobenius norm over sqrt of the smaller group size), closures of
+ * more than near_max levels (or of every level) are not formed (see
+ * lvs_series_notes); LVS_GROUPS_EXACT: exact degeneracies only;
+ * LVS_GROUPS_HAND: nhand groups, group h has hand_len[h] levels (0-based)
+ * at hand + sum of the earlier lengths, each a union of exact groups.
+ * lvs_series_opts_init sets degen_tol 1e-10, AUTO, lambda_max 1,
+ * near_factor 4, near_max 16. lvs_series_new is lvs_series_new_ex with
+ * those defaults. */
+#define LVS_GROUPS_AUTO 0
+#define LVS_GROUPS_EXACT 1
+#define LVS_GROUPS_HAND 2
+typedef struct {
+  double degen_tol;
+  int flags;
+  int groups;
+  double lambda_max, near_factor;
+  size_t near_max;
+  const size_t *hand, *hand_len;
+  size_t nhand;
+} lvs_series_opts;
+LVS_API void lvs_series_opts_init(lvs_series_opts *o);
+LVS_API int lvs_series_new_ex(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels,
+                              size_t nlevels, const lvs_series_opts *o, lvs_series **out);
+/* lvs_series_at summed to order k (0..K); for a member of a model space the
+ * matching eigenvalue (members ranked by ascending value) of the space's
+ * order-k effective Hamiltonian at lambda (lvs_series_at: k = K) */
+LVS_API int lvs_series_at_order(const lvs_series *s, size_t level, double lambda, int k, double *e);
+LVS_API size_t lvs_series_nspaces(const lvs_series *s);
+LVS_API int lvs_series_space_of(const lvs_series *s, size_t level); /* model space index, or -1 */
+/* members (BORROWED, 0-based ascending), size, order of its terms (min(K, 50)),
+ * chosen by hand, why it was formed (BORROWED text); any pointer may be NULL */
+LVS_API int lvs_series_space(const lvs_series *s, size_t i, const size_t **members, size_t *d, int *order, int *hand,
+                             const char **why);
+/* term k of the space's effective Hamiltonian (des Cloizeaux form), d x d in H0's eigenbasis */
+LVS_API int lvs_series_space_term(const lvs_series *s, size_t i, int k, lvs_matrix **out);
+LVS_API const char *lvs_series_notes(const lvs_series *s); /* "" when none; BORROWED */
+LVS_API void lvs_series_grouping(const lvs_series *s, double *lambda_max, double *near_factor);
+/* the nearest exact group left outside the level's own within the joining
+ * window: its first level (SIZE_MAX: none), gap and coupling kappa (NaN:
+ * not looked at -- a member of a model space, hand-chosen groups, or a few
+ * levels solved by the bordered dense route) */
+LVS_API int lvs_series_neighbour(const lvs_series *s, size_t level, size_t *nb, double *gap, double *kappa);
 LVS_API void lvs_series_free(lvs_series *s);
 LVS_API size_t lvs_series_dim(const lvs_series *s);
 LVS_API int lvs_series_order(const lvs_series *s);

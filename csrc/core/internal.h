@@ -125,4 +125,40 @@ LVSI void lvsi_basis_set_label(lvs_basis *b, size_t s, size_t k, double v);
 LVSI const double *lvsi_basis_par(const lvs_basis *b);
 LVSI lvs_ctx *lvsi_basis_ctx(const lvs_basis *b);
 
+
+/* mspace.c: model spaces of nearly degenerate levels for the series (see
+ * its head comment for the rule). Working indices are the series' sorted
+ * levels; E[0..nk) is known (ascending), col(u, j, y) adds column j of V in
+ * the working basis to y (nk entries, zeroed by the caller). */
+typedef struct {
+  size_t d, *lev;      /* members, 0-based levels, ascending */
+  size_t nsub;         /* exact groups inside */
+  int hand;            /* chosen by the caller */
+  int K, real;         /* terms 0..K; all real */
+  double complex *terms; /* (K + 1) blocks d x d: the effective Hamiltonian (effective.c) */
+  char why[256];
+} lvsi_mspace;
+typedef struct {
+  size_t nk;
+  const double *E;
+  double gtol;         /* exact-degeneracy tolerance (absolute) */
+  const unsigned char *want;
+  double lambda_max, factor, vnorm; /* vnorm: max column 1-norm of V */
+  size_t nmax;
+  int join;           /* 0: report neighbours only */
+  int (*col)(void *u, size_t j, double complex *y);
+  /* the wanted group [g0, g1)'s nearest exact group left outside within the
+   * window: its first level nb (SIZE_MAX: none), gap and coupling */
+  void (*note)(void *u, size_t g0, size_t g1, size_t nb, double gap, double kappa);
+  void *u;
+} lvsi_mspace_in;
+typedef struct {
+  double gap, kappa;
+  size_t a, b;
+} lvsi_mspace_note;
+LVSI int lvsi_mspace_find(lvs_ctx *ctx, const lvsi_mspace_in *in, lvsi_mspace **out, size_t *nout, char *note,
+                          size_t notelen);
+LVSI int lvsi_mspace_eigvals(lvs_ctx *ctx, const lvsi_mspace *m, double lambda, int order, double *w);
+LVSI void lvsi_mspace_clear(lvs_ctx *ctx, lvsi_mspace *m);
+
 #endif

@@ -42,6 +42,7 @@
 #include <lapacke.h>
 #include <math.h>
 #include <stdint.h>
+#include <stdio.h>
 #include <string.h>
 #include "internal.h"
 
@@ -82,7 +83,9 @@ typedef struct {
   int zord;     /* highest state order available */
   size_t group; /* group index of the level (all groups of H0, ascending) */
   size_t gi;    /* index into grp */
-  double mind;  /* smallest |E_a - E_m| to levels outside the group */
+  double mind;  /* smallest |E_a - E_m| to levels outside the group (its model space, when it has one) */
+  size_t nb;    /* nearest exact group left outside within the joining window (first level), or SIZE_MAX */
+  double nbgap, nbkap; /* its gap and coupling kappa (mspace.c); nbkap NaN: not computed */
   const dc *z;  /* (zord+1) vectors of length d (its group's P space), in its group's zbuf */
 } slevel;
 
@@ -107,6 +110,11 @@ struct lvs_series {
   size_t solves;  /* sparse path: resolvent solves; MINRES iterations in `iters` */
   size_t iters;
   double vnorm;   /* max column 1-norm of V */
+  lvsi_mspace *ms; /* model spaces of nearly degenerate levels (mspace.c) */
+  size_t nms;
+  int *msof;      /* per level: its model space, or -1 */
+  double lambda_max, near_factor;
+  char note[512]; /* why no model space was formed where one was looked for ("" none) */
 };
 
 /* ---- V in the working (sorted eigen-) basis ---------------------------- */
@@ -1027,6 +1035,9 @@ void lvs_series_free(lvs_series *s) {
   }
   lvsi_free(ctx, s->grp);
   lvsi_free(ctx, s->lev);
+  for (size_t i = 0; i < s->nms; i++) lvsi_mspace_clear(ctx, &s->ms[i]);
+  lvsi_free(ctx, s->ms);
+  lvsi_free(ctx, s->msof);
   lvsi_free(ctx, s->slot);
   lvsi_free(ctx, s->e0);
   lvsi_free(ctx, s->perm);
@@ -1259,6 +1270,11 @@ typedef struct {
   dc *W, *zz;
   double *mu;
   int *sp, *zo;
+  const lvs_series_opts *o;
+  lvs_series *s;
+  dc *cy;                      /* sparse path: scratch for a column of V (n) */
+  struct nbnote { size_t g0, g1, nb; double gap, kap; } *nbn; /* neighbours left outside (mspace.c) */
+  size_t nnbn, nbncap;
 } sbuild;
 
 static void sbuild_free(sbuild *b) {
@@ -1275,6 +1291,8 @@ static void sbuild_free(sbuild *b) {
   lvsi_free(ctx, b->mu);
   lvsi_free(ctx, b->sp);
   lvsi_free(ctx, b->zo);
+  lvsi_free(ctx, b->cy);
+  lvsi_free(ctx, b->nbn);
 }
 
 /* sizes, order, tolerance and levels; plain copies (sparse stays sparse),
@@ -1338,10 +1356,14 @@ static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t n
     double big0 = 0;
     for (size_t i = 0; i < n; i++) big0 = fmax(big0, fabs(E[i]));
     double gt = b->degen_tol * fmax(E[n - 1] - E[0], big0);
-    b->bordered = 1;
+    b->bordered = b->o->groups != LVS_GROUPS_HAND;
+    /* a neighbour close enough to be joined into a model space needs V in
+     * the eigenbasis: no bordered route then */
+    double win = b->o->groups == LVS_GROUPS_AUTO ? s->near_factor * s->lambda_max * s->vnorm : 0.0;
+    if (gt > win) win = gt;
     for (size_t i = 0; i < nlevels; i++) {
       size_t L = levels[i];
-      if ((L > 0 && E[L] - E[L - 1] <= gt) || (L + 1 < n && E[L + 1] - E[L] <= gt)) b->bordered = 0;
+      if ((L > 0 && E[L] - E[L - 1] <= win) || (L + 1 < n && E[L + 1] - E[L] <= win)) b->bordered = 0;
     }
     if (b->bordered) {
       s->solver = "bordered dense";
@@ -1448,14 +1470,20 @@ static int series_group(lvs_series *s, sbuild *b, size_t g0, size_t g1, size_t g
 
 /* the groups of the sorted E0 (relative tolerance) that hold a wanted
  * level: counted first, then solved one by one */
+static double series_gtol(const lvs_series *s, const sbuild *b) {
+  size_t n = s->n;
+  const double *E = s->e0;
+  double big = 0;
+  for (size_t i = 0; i < n && !b->pvec; i++) big = fmax(big, fabs(E[i]));
+  return b->pvec ? b->sgtol : b->degen_tol * fmax(E[n - 1] - E[0], big);
+}
+
 static int series_groups(lvs_series *s, sbuild *b) {
   lvs_ctx *ctx = s->ctx;
   size_t n = s->n;
   const double *E = s->e0;
   const unsigned char *want = b->want;
-  double big = 0;
-  for (size_t i = 0; i < n && !b->pvec; i++) big = fmax(big, fabs(E[i]));
-  double gtol = b->pvec ? b->sgtol : b->degen_tol * fmax(E[n - 1] - E[0], big);
+  double gtol = series_gtol(s, b);
   size_t ngneed = 0, nlneed = 0;
   for (size_t g0 = 0; g0 < n;) {
     size_t g1 = g0 + 1;
@@ -1482,8 +1510,210 @@ static int series_groups(lvs_series *s, sbuild *b) {
   return LVS_OK;
 }
 
+
+/* ---- model spaces of nearly degenerate levels (mspace.c) -------------- */
+/* column j of V in the working basis, added to y (nk entries) */
+static int series_vcol(void *u, size_t j, dc *y) {
+  sbuild *b = u;
+  lvs_series *s = b->s;
+  if (!b->pvec) {
+    static const dc one = 1.0;
+    wop_apply(&b->w, &one, j, j + 1, y, 0);
+    return LVS_OK;
+  }
+  size_t n = s->n;
+  if (!b->cy && !(b->cy = lvsi_malloc(s->ctx, n * sizeof *b->cy)))
+    return lvsi_fail(s->ctx, LVS_ENOMEM, "perturb: out of memory (model spaces)");
+  int st = lvs_matrix_apply(b->vp, 1, (const double *)(b->pvec + j * n), (double *)b->cy);
+  if (st) return st;
+  for (size_t i = 0; i < n && isfinite(s->e0[i]); i++) {
+    const dc *p = b->pvec + i * n;
+    dc c = 0;
+    for (size_t r = 0; r < n; r++) c += conj(p[r]) * b->cy[r];
+    y[i] += c;
+  }
+  return LVS_OK;
+}
+
+static void series_nbnote(void *u, size_t g0, size_t g1, size_t nb, double gap, double kap) {
+  sbuild *b = u;
+  if (b->nnbn == b->nbncap) {
+    size_t nc = b->nbncap ? 2 * b->nbncap : 16;
+    struct nbnote *q = lvsi_malloc(b->ctx, nc * sizeof *q);
+    if (!q) return; /* the notes are diagnostics: without memory they stay unknown */
+    if (b->nbn) memcpy(q, b->nbn, b->nnbn * sizeof *q);
+    lvsi_free(b->ctx, b->nbn);
+    b->nbn = q;
+    b->nbncap = nc;
+  }
+  b->nbn[b->nnbn++] = (struct nbnote){g0, g1, nb, gap, kap};
+}
+
+/* the spaces the caller chose: each a union of exact groups, no overlaps */
+static int hand_spaces(lvs_series *s, sbuild *b, const lvsi_mspace_in *in) {
+  lvs_ctx *ctx = s->ctx;
+  const lvs_series_opts *o = b->o;
+  const double *E = in->E;
+  size_t nk = in->nk, off = 0;
+  if (!(s->ms = lvsi_calloc(ctx, o->nhand + 1, sizeof *s->ms))) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  for (size_t h = 0; h < o->nhand; off += o->hand_len[h], h++) {
+    const size_t *g = o->hand + off;
+    size_t d = o->hand_len[h];
+    if (d == 0) return lvsi_fail(ctx, LVS_EINVAL, "groups[%zu] is empty", h + 1);
+    lvsi_mspace *m = &s->ms[s->nms];
+    if (!(m->lev = lvsi_malloc(ctx, d * sizeof *m->lev))) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    memcpy(m->lev, g, d * sizeof *g);
+    m->d = d;
+    m->hand = 1;
+    s->nms++;
+    for (size_t i = 1; i < d; i++) /* insertion sort: groups are small */
+      for (size_t j = i; j > 0 && m->lev[j - 1] > m->lev[j]; j--) {
+        size_t t = m->lev[j];
+        m->lev[j] = m->lev[j - 1];
+        m->lev[j - 1] = t;
+      }
+    for (size_t i = 0; i < d; i++) {
+      size_t L = m->lev[i];
+      if (L >= s->n) return lvsi_fail(ctx, LVS_ERANGE, "groups[%zu]: level %zu is out of range 1..%zu", h + 1, L + 1, s->n);
+      if (L >= nk)
+        return lvsi_fail(ctx, LVS_ERANGE, "groups[%zu]: level %zu is above the %zu levels found by the Krylov path", h + 1,
+                         L + 1, nk);
+      if (i > 0 && m->lev[i - 1] == L) return lvsi_fail(ctx, LVS_EINVAL, "groups[%zu] names level %zu twice", h + 1, L + 1);
+      if (s->msof[L] >= 0)
+        return lvsi_fail(ctx, LVS_EINVAL, "groups[%zu] and groups[%d] overlap (level %zu)", h + 1, s->msof[L] + 1, L + 1);
+      s->msof[L] = (int)h;
+    }
+    /* every exact group touched must come along whole */
+    for (size_t i = 0; i < d; i++) {
+      size_t L = m->lev[i], g0 = L, g1 = L + 1;
+      while (g0 > 0 && E[g0] - E[g0 - 1] <= in->gtol) g0--;
+      while (g1 < nk && E[g1] - E[g1 - 1] <= in->gtol) g1++;
+      for (size_t q = g0; q < g1; q++)
+        if (s->msof[q] != (int)h)
+          return lvsi_fail(ctx, LVS_EINVAL,
+                           "groups[%zu] cuts the degenerate group of levels %zu..%zu: level %zu must come along", h + 1,
+                           g0 + 1, g1, q + 1);
+    }
+    m->nsub = 0;
+    for (size_t i = 0; i < d; i++)
+      if (i == 0 || E[m->lev[i]] - E[m->lev[i - 1]] > in->gtol || m->lev[i] != m->lev[i - 1] + 1) m->nsub++;
+    snprintf(m->why, sizeof m->why, "chosen by hand (groups[%zu])", h + 1);
+  }
+  return LVS_OK;
+}
+
+/* the model spaces (before the groups are solved: members become wanted) */
+static int series_spaces(lvs_series *s, sbuild *b) {
+  lvs_ctx *ctx = s->ctx;
+  const lvs_series_opts *o = b->o;
+  size_t n = s->n, nk = n;
+  if (!(s->msof = lvsi_malloc(ctx, n * sizeof *s->msof))) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  for (size_t i = 0; i < n; i++) s->msof[i] = -1;
+  if (b->bordered) return LVS_OK; /* no neighbour within the joining window (series_basis) */
+  if (b->pvec)
+    for (nk = 0; nk < n && isfinite(s->e0[nk]);) nk++;
+  lvsi_mspace_in in = {nk, s->e0, series_gtol(s, b), b->want, s->lambda_max, s->near_factor, s->vnorm,
+                       o->near_max ? o->near_max : 16, o->groups == LVS_GROUPS_AUTO, series_vcol, series_nbnote, b};
+  int st;
+  if (o->groups == LVS_GROUPS_HAND) {
+    st = hand_spaces(s, b, &in);
+  } else {
+    st = lvsi_mspace_find(ctx, &in, &s->ms, &s->nms, s->note, sizeof s->note);
+    for (size_t i = 0; i < s->nms && !st; i++)
+      for (size_t q = 0; q < s->ms[i].d; q++) s->msof[s->ms[i].lev[q]] = (int)i;
+  }
+  for (size_t i = 0; i < s->nms && !st; i++)
+    for (size_t q = 0; q < s->ms[i].d; q++) b->want[s->ms[i].lev[q]] = 1;
+  return st;
+}
+
+/* each space's effective Hamiltonian (effective.c), the members' nearest
+ * level outside their space, and the neighbour notes onto the levels */
+static int series_space_terms(lvs_series *s, sbuild *b) {
+  lvs_ctx *ctx = s->ctx;
+  int st = LVS_OK;
+  for (size_t i = 0; i < s->nms && !st; i++) {
+    lvsi_mspace *m = &s->ms[i];
+    size_t d = m->d, dd = d * d;
+    int Ke = s->K < 50 ? s->K : 50;
+    lvs_effective *e = NULL;
+    if ((st = lvs_effective_new(b->h0, b->v, m->lev, d, Ke, &e))) break;
+    m->K = Ke;
+    m->real = 1;
+    if (!(m->terms = lvsi_malloc(ctx, (size_t)(Ke + 1) * dd * sizeof *m->terms)))
+      st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+    for (int k = 0; k <= Ke && !st; k++) {
+      lvs_matrix *t = NULL;
+      if ((st = lvs_effective_term(e, k, &t))) break;
+      for (size_t c = 0; c < d; c++)
+        for (size_t r = 0; r < d; r++) {
+          dc x = lvsi_mat_at(t, r, c);
+          if (cimag(x) != 0) m->real = 0;
+          m->terms[(size_t)k * dd + c * d + r] = x;
+        }
+      lvs_matrix_free(t);
+    }
+    lvs_effective_free(e);
+    for (size_t q = 0; q < d && !st; q++) { /* nearest non-member */
+      size_t L = m->lev[q];
+      double md = INFINITY;
+      for (size_t x = L; x-- > 0;) { /* below */
+        if (s->msof[x] == (int)i) continue;
+        md = fabs(s->e0[L] - s->e0[x]);
+        break;
+      }
+      for (size_t x = L + 1; x < s->n; x++) {
+        if (s->msof[x] == (int)i) continue;
+        if (isfinite(s->e0[x])) md = fmin(md, fabs(s->e0[x] - s->e0[L]));
+        break;
+      }
+      if (s->slot[L] >= 0) s->lev[s->slot[L]].mind = md;
+    }
+  }
+  for (size_t i = 0; i < s->nlev; i++) s->lev[i].nb = SIZE_MAX, s->lev[i].nbgap = INFINITY, s->lev[i].nbkap = NAN;
+  for (size_t q = 0; q < b->nnbn; q++) {
+    const struct nbnote *nt = &b->nbn[q];
+    for (size_t L = nt->g0; L < nt->g1; L++)
+      if (s->slot[L] >= 0 && s->msof[L] < 0) {
+        slevel *lv = &s->lev[s->slot[L]];
+        lv->nb = nt->nb, lv->nbgap = nt->gap, lv->nbkap = nt->kap;
+      }
+  }
+  return st;
+}
+
+void lvs_series_opts_init(lvs_series_opts *o) {
+  memset(o, 0, sizeof *o);
+  o->degen_tol = 1e-10;
+  o->groups = LVS_GROUPS_AUTO;
+  o->lambda_max = 1.0;
+  o->near_factor = 4.0;
+  o->near_max = 16;
+}
+
+static int check_opts(lvs_ctx *ctx, const lvs_series_opts *o) {
+  if (!(o->lambda_max > 0) || !isfinite(o->lambda_max))
+    return lvsi_fail(ctx, LVS_EINVAL, "lambda_max must be a positive finite number, got %g", o->lambda_max);
+  if (!(o->near_factor >= 0) || !isfinite(o->near_factor))
+    return lvsi_fail(ctx, LVS_EINVAL, "near_factor must be a finite number >= 0, got %g", o->near_factor);
+  if (o->groups != LVS_GROUPS_AUTO && o->groups != LVS_GROUPS_EXACT && o->groups != LVS_GROUPS_HAND)
+    return lvsi_fail(ctx, LVS_EINVAL, "groups mode %d is unknown", o->groups);
+  if (o->groups == LVS_GROUPS_HAND && o->nhand && (!o->hand || !o->hand_len))
+    return lvsi_fail(ctx, LVS_EINVAL, "groups chosen by hand need their members");
+  return LVS_OK;
+}
+
 int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels,
                    double degen_tol, int flags, lvs_series **out) {
+  lvs_series_opts o;
+  lvs_series_opts_init(&o);
+  o.degen_tol = degen_tol;
+  o.flags = flags;
+  return lvs_series_new_ex(h0, v, order, levels, nlevels, &o, out);
+}
+
+int lvs_series_new_ex(const lvs_matrix *h0, const lvs_matrix *v, int order, const size_t *levels, size_t nlevels,
+                      const lvs_series_opts *o, lvs_series **out) {
   lvs_ctx *ctx = h0->ctx;
   *out = NULL;
   sbuild b;
@@ -1491,18 +1721,24 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
   b.ctx = ctx;
   b.h0 = h0;
   b.v = v;
-  b.degen_tol = degen_tol;
+  b.o = o;
+  b.degen_tol = o->degen_tol;
+  int flags = o->flags;
   lvs_series *s = NULL;
-  int st = series_inputs(&b, order, levels, nlevels);
+  int st = check_opts(ctx, o);
+  if (!st) st = series_inputs(&b, order, levels, nlevels);
   if (st) goto fail;
   size_t n = lvs_matrix_rows(h0);
   if (!(s = lvsi_calloc(ctx, 1, sizeof *s))) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
     goto fail;
   }
+  b.s = s;
   s->ctx = ctx;
   s->n = n;
   s->K = order;
+  s->lambda_max = o->lambda_max;
+  s->near_factor = o->near_factor;
   s->normalized = (flags & LVS_SERIES_NORMALIZED) != 0;
   s->states = (flags & LVS_SERIES_NO_STATES) == 0;
   s->e0 = lvsi_malloc(ctx, n * sizeof *s->e0);
@@ -1513,13 +1749,15 @@ int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order, const s
     st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
     goto fail;
   }
-  if ((st = series_basis(s, &b, levels, nlevels))) goto fail;
   s->vnorm = colnorm1(b.vp);
+  if ((st = series_basis(s, &b, levels, nlevels))) goto fail;
   if (nlevels == 0)
     memset(b.want, 1, n);
   else
     for (size_t i = 0; i < nlevels; i++) b.want[levels[i]] = 1;
+  if ((st = series_spaces(s, &b))) goto fail;
   if ((st = series_groups(s, &b))) goto fail;
+  if ((st = series_space_terms(s, &b))) goto fail;
   sbuild_free(&b);
   *out = s;
   return LVS_OK;
@@ -1583,12 +1821,81 @@ int lvs_series_energy(const lvs_series *s, size_t level, int k, double *e) {
 }
 
 int lvs_series_at(const lvs_series *s, size_t level, double lambda, double *e) {
+  return lvs_series_at_order(s, level, lambda, s->K, e);
+}
+
+/* a member of a model space: the matching eigenvalue (members ranked by
+ * ascending value) of the space's order-k effective Hamiltonian at lambda;
+ * any other level: its series summed to order k */
+int lvs_series_at_order(const lvs_series *s, size_t level, double lambda, int k, double *e) {
   int st = lev_ok(s, level);
   if (st) return st;
+  if (k < 0 || k > s->K) return lvsi_fail(s->ctx, LVS_ERANGE, "order %d is out of range 0..%d", k, s->K);
+  if (!isfinite(lambda)) return lvsi_fail(s->ctx, LVS_EINVAL, "lambda must be finite");
+  int sp = s->msof ? s->msof[level] : -1;
+  if (sp >= 0) {
+    const lvsi_mspace *m = &s->ms[sp];
+    double *w = lvsi_malloc(s->ctx, m->d * sizeof *w);
+    if (!w) return lvsi_fail(s->ctx, LVS_ENOMEM, "perturb: out of memory");
+    st = lvsi_mspace_eigvals(s->ctx, m, lambda, k, w);
+    size_t r = 0;
+    while (r < m->d && m->lev[r] != level) r++;
+    if (!st) *e = w[r];
+    lvsi_free(s->ctx, w);
+    return st;
+  }
   const double *c = LEV(s, level)->e;
   double acc = 0;
-  for (int k = s->K; k >= 0; k--) acc = acc * lambda + c[k];
+  for (int j = k; j >= 0; j--) acc = acc * lambda + c[j];
   *e = acc;
+  return LVS_OK;
+}
+
+size_t lvs_series_nspaces(const lvs_series *s) { return s->nms; }
+int lvs_series_space_of(const lvs_series *s, size_t level) {
+  return s->msof && level < s->n ? s->msof[level] : -1;
+}
+int lvs_series_space(const lvs_series *s, size_t i, const size_t **members, size_t *d, int *order, int *hand,
+                     const char **why) {
+  if (i >= s->nms) return lvsi_fail(s->ctx, LVS_ERANGE, "model space %zu is out of range 1..%zu", i + 1, s->nms);
+  const lvsi_mspace *m = &s->ms[i];
+  if (members) *members = m->lev;
+  if (d) *d = m->d;
+  if (order) *order = m->K;
+  if (hand) *hand = m->hand;
+  if (why) *why = m->why;
+  return LVS_OK;
+}
+int lvs_series_space_term(const lvs_series *s, size_t i, int k, lvs_matrix **out) {
+  *out = NULL;
+  if (i >= s->nms) return lvsi_fail(s->ctx, LVS_ERANGE, "model space %zu is out of range 1..%zu", i + 1, s->nms);
+  const lvsi_mspace *m = &s->ms[i];
+  if (k < 0 || k > m->K) return lvsi_fail(s->ctx, LVS_ERANGE, "order %d is out of range 0..%d", k, m->K);
+  size_t d = m->d;
+  int st = lvs_matrix_new(s->ctx, d, d, !m->real, out);
+  for (size_t c = 0; c < d && !st; c++)
+    for (size_t r = 0; r < d && !st; r++) {
+      dc x = m->terms[(size_t)k * d * d + c * d + r];
+      st = lvs_matrix_set(*out, r, c, creal(x), cimag(x));
+    }
+  if (st) {
+    lvs_matrix_free(*out);
+    *out = NULL;
+  }
+  return st;
+}
+const char *lvs_series_notes(const lvs_series *s) { return s->note; }
+void lvs_series_grouping(const lvs_series *s, double *lambda_max, double *near_factor) {
+  if (lambda_max) *lambda_max = s->lambda_max;
+  if (near_factor) *near_factor = s->near_factor;
+}
+int lvs_series_neighbour(const lvs_series *s, size_t level, size_t *nb, double *gap, double *kappa) {
+  int st = lev_ok(s, level);
+  if (st) return st;
+  const slevel *L = LEV(s, level);
+  *nb = L->nb;
+  *gap = L->nbgap;
+  *kappa = L->nbkap;
   return LVS_OK;
 }
 
