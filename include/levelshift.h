@@ -370,7 +370,7 @@ LVS_API int lvs_series_new(const lvs_matrix *h0, const lvs_matrix *v, int order,
  * LVS_GROUPS_HAND: nhand groups, group h has hand_len[h] levels (0-based)
  * at hand + sum of the earlier lengths, each a union of exact groups.
  * lvs_series_opts_init sets degen_tol 1e-10, AUTO, lambda_max 1,
- * near_factor 4, near_max 16. lvs_series_new is lvs_series_new_ex with
+ * near_factor 4, near_max 8. lvs_series_new is lvs_series_new_ex with
  * those defaults. */
 #define LVS_GROUPS_AUTO 0
 #define LVS_GROUPS_EXACT 1
@@ -401,6 +401,7 @@ LVS_API int lvs_series_space(const lvs_series *s, size_t i, const size_t **membe
 LVS_API int lvs_series_space_term(const lvs_series *s, size_t i, int k, lvs_matrix **out);
 LVS_API const char *lvs_series_notes(const lvs_series *s); /* "" when none; BORROWED */
 LVS_API void lvs_series_grouping(const lvs_series *s, double *lambda_max, double *near_factor);
+LVS_API int lvs_series_groups_mode(const lvs_series *s); /* LVS_GROUPS_* */
 /* the nearest exact group left outside the level's own within the joining
  * window: its first level (SIZE_MAX: none), gap and coupling kappa (NaN:
  * not looked at -- a member of a model space, hand-chosen groups, or a few

@@ -61,7 +61,7 @@ static void opt_groups(lua_State *L, size_t n, lvs_series_opts *o) {
     lua_pushfstring(L, "near_factor must be a finite number >= 0, got %f", o->near_factor);
     luaL_argerror(L, 3, lua_tostring(L, -1));
   }
-  lua_Integer nm = lvsL_optfield_int(L, 3, "near_max", 16, "perturb", 3);
+  lua_Integer nm = lvsL_optfield_int(L, 3, "near_max", 8, "perturb", 3);
   if (nm < 2 || nm > 4096) {
     lua_pushfstring(L, "near_max must be from 2 to 4096, got %d", (int)nm);
     luaL_argerror(L, 3, lua_tostring(L, -1));
@@ -462,13 +462,16 @@ static int s_group_term(lua_State *L) {
   return 1;
 }
 
-/* s:grouping() -> lambda_max, near_factor (the joining rule's numbers) */
+/* s:grouping() -> lambda_max, near_factor (the joining rule's numbers), mode ("auto", "exact", "hand") */
 static int s_grouping(lua_State *L) {
   double lm, nf;
-  lvs_series_grouping(checkseries(L, 1), &lm, &nf);
+  lvs_series *s = checkseries(L, 1);
+  lvs_series_grouping(s, &lm, &nf);
   lua_pushnumber(L, lm);
   lua_pushnumber(L, nf);
-  return 2;
+  lua_pushstring(L, lvs_series_groups_mode(s) == LVS_GROUPS_EXACT ? "exact"
+                    : lvs_series_groups_mode(s) == LVS_GROUPS_HAND ? "hand" : "auto");
+  return 3;
 }
 
 /* s:notes() -> why no model space was formed where one was looked for ("" none) */

@@ -23,9 +23,10 @@
  * groups within c * lambda_max * ||V||_1 of a member (||V||_1 >= ||V||_2
  * >= kappa), found by bisection in the sorted energies, so the cost is a
  * few columns of V per member, not O(n^2). A closure of more than nmax
- * levels (or of every known level) is not a model space:
- * the coupling is then strong against the whole spectrum, the exact groups
- * are kept and a note says why.
+ * levels (or of every known level) means the coupling at lambda_max is
+ * strong against the whole spectrum: c is halved for that closure until
+ * it fits (only the closest levels are joined), up to 12 times, then the
+ * exact groups are kept; a note says which happened.
  *
  * The effective Hamiltonian of each space is effective.c's (des Cloizeaux
  * form: Hermitian, so its eigenvalues are real at every order); this file
@@ -59,6 +60,7 @@ static size_t lower_bound(const double *E, size_t nk, double x) {
 typedef struct {
   lvs_ctx *ctx;
   const lvsi_mspace_in *in;
+  double factor; /* the rule's c: lowered for a closure that grew past the cap */
   size_t ng;
   size_t *gs;    /* group g: levels [gs[g], gs[g+1]) */
   size_t *gof;   /* level -> group */
@@ -121,7 +123,7 @@ static int ms_component(msfind *f, size_t g, int cid, size_t cap, size_t *nq, si
   const lvsi_mspace_in *in = f->in;
   lvs_ctx *ctx = f->ctx;
   size_t nk = in->nk;
-  double cl = in->factor * in->lambda_max, window = cl * in->vnorm;
+  double cl = f->factor * in->lambda_max, window = cl * in->vnorm;
   size_t head = 0;
   *nq = 0;
   f->queue[(*nq)++] = g;
@@ -184,8 +186,8 @@ static int ms_emit(msfind *f, size_t nq, size_t size, const lvsi_mspace_note *wh
   m->nsub = nq;
   snprintf(m->why, sizeof m->why,
            "levels %zu and %zu: gap %.4g below %.4g x lambda_max (%.4g) x coupling %.4g = %.4g",
-           why->a + 1, why->b + 1, why->gap, f->in->factor, f->in->lambda_max, why->kappa,
-           f->in->factor * f->in->lambda_max * why->kappa);
+           why->a + 1, why->b + 1, why->gap, f->factor, f->in->lambda_max, why->kappa,
+           f->factor * f->in->lambda_max * why->kappa);
   return LVS_OK;
 }
 
@@ -212,16 +214,26 @@ int lvsi_mspace_find(lvs_ctx *ctx, const lvsi_mspace_in *in, lvsi_mspace **out, 
     if (!wanted || f.comp[g] >= 0) continue;
     size_t nq, size;
     lvsi_mspace_note why;
-    if ((st = ms_component(&f, g, cid++, cap, &nq, &size, &why))) break;
-    if (nq < 2 || !in->join) continue;
-    if (size > cap) {
-      if (note && notelen && !note[0])
-        snprintf(note, notelen,
-                 "coupling at lambda_max = %.4g joins more than %zu levels from level %zu on (closest: levels %zu "
-                 "and %zu, gap %.4g, coupling %.4g): exact groups kept; give lambda_max for the strengths you use",
-                 in->lambda_max, cap, f.gs[g] + 1, why.a + 1, why.b + 1, why.gap, why.kappa);
-      continue;
+    /* a closure past the cap: the coupling is strong against the whole
+     * spectrum; the rule is tightened (c halved) until only the closest
+     * levels are joined, and a note says so */
+    f.factor = in->factor;
+    int tries = 0;
+    for (;;) {
+      if ((st = ms_component(&f, g, cid++, cap, &nq, &size, &why))) break;
+      if (size <= cap || nq < 2 || !in->join || ++tries > 12) break;
+      for (size_t q = 0; q < nq; q++) f.comp[f.queue[q]] = -1;
+      f.factor *= 0.5;
     }
+    if (st) break;
+    if (tries && note && notelen && !note[0])
+      snprintf(note, notelen,
+               "coupling at lambda_max = %.4g joins more than %zu levels from level %zu on: near_factor lowered from "
+               "%g to %g there%s; give lambda_max for the strengths you use",
+               in->lambda_max, cap, f.gs[g] + 1, in->factor, f.factor,
+               size > cap ? " and still too many: exact groups kept" : "");
+    if (nq < 2 || !in->join) continue;
+    if (size > cap) continue; /* its groups stay marked: examined, not a space */
     if (nsp == spcap) {
       size_t nc = spcap ? 2 * spcap : 4;
       lvsi_mspace *ns = lvsi_calloc(ctx, nc, sizeof *ns);

@@ -114,6 +114,7 @@ struct lvs_series {
   size_t nms;
   int *msof;      /* per level: its model space, or -1 */
   double lambda_max, near_factor;
+  int gmode;      /* LVS_GROUPS_* */
   char note[512]; /* why no model space was formed where one was looked for ("" none) */
 };
 
@@ -1613,7 +1614,7 @@ static int series_spaces(lvs_series *s, sbuild *b) {
   if (b->pvec)
     for (nk = 0; nk < n && isfinite(s->e0[nk]);) nk++;
   lvsi_mspace_in in = {nk, s->e0, series_gtol(s, b), b->want, s->lambda_max, s->near_factor, s->vnorm,
-                       o->near_max ? o->near_max : 16, o->groups == LVS_GROUPS_AUTO, series_vcol, series_nbnote, b};
+                       o->near_max ? o->near_max : 8, o->groups == LVS_GROUPS_AUTO, series_vcol, series_nbnote, b};
   int st;
   if (o->groups == LVS_GROUPS_HAND) {
     st = hand_spaces(s, b, &in);
@@ -1688,7 +1689,7 @@ void lvs_series_opts_init(lvs_series_opts *o) {
   o->groups = LVS_GROUPS_AUTO;
   o->lambda_max = 1.0;
   o->near_factor = 4.0;
-  o->near_max = 16;
+  o->near_max = 8;
 }
 
 static int check_opts(lvs_ctx *ctx, const lvs_series_opts *o) {
@@ -1739,6 +1740,7 @@ int lvs_series_new_ex(const lvs_matrix *h0, const lvs_matrix *v, int order, cons
   s->K = order;
   s->lambda_max = o->lambda_max;
   s->near_factor = o->near_factor;
+  s->gmode = o->groups;
   s->normalized = (flags & LVS_SERIES_NORMALIZED) != 0;
   s->states = (flags & LVS_SERIES_NO_STATES) == 0;
   s->e0 = lvsi_malloc(ctx, n * sizeof *s->e0);
@@ -1885,6 +1887,7 @@ int lvs_series_space_term(const lvs_series *s, size_t i, int k, lvs_matrix **out
   return st;
 }
 const char *lvs_series_notes(const lvs_series *s) { return s->note; }
+int lvs_series_groups_mode(const lvs_series *s) { return s->gmode; }
 void lvs_series_grouping(const lvs_series *s, double *lambda_max, double *near_factor) {
   if (lambda_max) *lambda_max = s->lambda_max;
   if (near_factor) *near_factor = s->near_factor;

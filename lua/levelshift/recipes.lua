@@ -378,7 +378,7 @@ local function report(m, show_levels, show_order, show_exact)
   end
   local head = string.format("%5s  %16s", "level", "E0")
   for k = 1, show_order do head = head .. string.format("  %14s", "E" .. k) end
-  head = head .. string.format("  %16s", "sum to order " .. show_order)
+  head = head .. string.format("  %16s ", "sum to order " .. show_order)
   if E then head = head .. string.format("  %16s", "exact (H0+V)") end
   w(head .. "\n")
   -- corrections below rounding level of the energies print as 0
@@ -397,10 +397,12 @@ local function report(m, show_levels, show_order, show_exact)
     if s then
       for k = 0, show_order do
         local e = s:energy(i, k)
-        sum = sum + e
         if k > 0 then line = line .. string.format("  %14.7g", clip(e)) end
       end
-      line = line .. string.format("  %16.10g", sum + 0.0)
+      -- s:at: the plain sum, or for a member of a model space of nearly
+      -- degenerate levels the eigenvalue of its effective Hamiltonian
+      sum = s:at(i, 1)
+      line = line .. string.format("  %16.10g%s", sum + 0.0, s:info(i).model_space and "*" or " ")
       sums[#sums + 1] = sum
       if math.abs(sum - e0) > shift then shift = math.abs(sum - e0) end
     else
@@ -411,6 +413,15 @@ local function report(m, show_levels, show_order, show_exact)
     w(line .. "\n")
   end
   if serr then w("perturbation series not available: " .. serr .. "\n") end
+  if s then
+    for _, grp in ipairs(s:groups()) do
+      if grp.kind == "near" then
+        w(string.format("* levels %s are nearly degenerate (%s): their sums are the eigenvalues of the model space's " ..
+          "order-%d effective Hamiltonian; E1..E%d are their plain series\n", table.concat(grp.members, ", "), grp.why,
+          show_order, show_order))
+      end
+    end
+  end
   if E and #sums == count and count > 0 then
     -- compare the sums with the exact levels, both in ascending order
     table.sort(sums)

@@ -39,9 +39,34 @@ return function(ls, core)
 
   --- Ratio test on the last nonzero coefficients: radius ~ |a_{k-1}/a_k|.
   -- Returns the estimate (or nil when the coefficients vanish) and a note.
+  -- a member of a model space: the ratio test on the norms of its effective
+  -- Hamiltonian's terms, the series that s:at sums
+  local function space_norms(s, level)
+    local sp = s:info(level).model_space
+    if not sp then return nil end
+    for g, grp in ipairs(s:groups()) do
+      if grp.model_space == sp then
+        local a = {}
+        for k = 0, grp.order do
+          local t, acc = s:group_term(g, k), 0
+          local d = t:dim()
+          for i = 1, d do
+            for j = 1, d do
+              local re, im = t:get(i, j)
+              acc = acc + re * re + im * im
+            end
+          end
+          a[k] = math.sqrt(acc)
+        end
+        return a, grp.order
+      end
+    end
+  end
+
   function methods.radius(s, level)
     argcheck_level(s, level, "radius")
-    local a, K = coeffs(s, level), s:order()
+    local a, K = space_norms(s, level)
+    if not a then a, K = coeffs(s, level), s:order() end
     local r = {}
     -- consecutive nonzero coefficients a_j, a_k: radius ~ |a_j/a_k|^(1/(k-j))
     -- (handles series in lambda^2)
@@ -158,12 +183,25 @@ return function(ls, core)
       local err = val - E[lev]
       local row = { level = lev, series = val, exact = E[lev], error = err }
       local aK, aK1 = s:energy(lev, K), K > 1 and s:energy(lev, K - 1) or 0
-      if aK ~= 0 and aK1 ~= 0 then
+      if aK ~= 0 and aK1 ~= 0 and not s:info(lev).model_space then -- a member's tail is not its plain series'
         local r = math.abs(aK / aK1 * lambda)
         if r < 0.5 then row.tail = math.abs(aK * lambda ^ K) * r / (1 - r) end
       end
-      local info = s:info(lev)
-      if info.min_denominator < math.abs(lambda) * vn then
+        local info = s:info(lev)
+      local nb = info.neighbour
+      if nb and nb.level then
+        -- the nearest level left outside, judged by the coupling that
+        -- connects it (the joining rule at this lambda)
+        local lm, nf, mode = s:grouping()
+        local al = math.abs(lambda)
+        if nb.gap < nf * al * nb.coupling then
+          local why = mode == "exact" and "groups = \"exact\"" or string.format("lambda_max = %g < |lambda| = %g", lm, al)
+          row.warning = string.format("level %d is %.3g away, coupled by %.3g: the gap is below %g x |lambda| x coupling" ..
+            " = %.3g: series unreliable; it was left outside a model space because %s; give lambda_max = %g" ..
+            " (or groups = {{...}})", nb.level, nb.gap, nb.coupling, nf, nf * al * nb.coupling, why, al)
+        end
+      elseif not nb and info.min_denominator < math.abs(lambda) * vn then
+        -- not looked at (a model space's member, hand-chosen groups): the norm rule
         row.warning = string.format("small denominator %.3g below |lambda|*||V|| = %.3g: series unreliable",
           info.min_denominator, math.abs(lambda) * vn)
       end
@@ -208,6 +246,7 @@ return function(ls, core)
     for _, lev in ipairs(s:chosen()) do
       local info = s:info(lev)
       local split = info.split_order == 0 and "-" or (info.split_order < 0 and "none" or tostring(info.split_order))
+      if info.model_space then split = "near" .. info.model_space end
       local row = { string.format("%6d%s %5d %6s %14.8g", lev, lab(lev), info.group, split, info.E0) }
       for k = 1, show do row[#row + 1] = string.format("%14.7g", s:energy(lev, k)) end
       lines[#lines + 1] = table.concat(row, " ")
@@ -218,6 +257,14 @@ return function(ls, core)
     end
     if K > show then lines[#lines + 1] = string.format("(orders %d..%d: s:energy(level, k))", show + 1, K) end
     lines[#lines + 1] = "split: order at which a degenerate level separated ('-' non-degenerate, 'none' not within the order)"
+    for g, grp in ipairs(s:groups()) do
+      if grp.kind == "near" then
+        lines[#lines + 1] = string.format("near%d: levels %s form a model space (%s); s:at gives the eigenvalues of its" ..
+          " effective Hamiltonian, the E(k) columns are their plain series", grp.model_space,
+          table.concat(grp.members, ", "), grp.why)
+      end
+    end
+    if s:notes() ~= "" then lines[#lines + 1] = "note: " .. s:notes() end
     if lw > 0 then lines[#lines + 1] = "state: the unperturbed basis state ('~': largest component of a degenerate member's combination)" end
     if #warn > 0 then
       lines[#lines + 1] = "warnings:"

@@ -113,9 +113,19 @@ describe("documented errors", function()
     -- invented models, each built to trip one warning (common practice)
     local H0 = ls.matrix { { 0, 0, 0 }, { 0, 1e-9, 0 }, { 0, 0, 1 } }
     local V = ls.matrix { { 0, 1, 0.5 }, { 1, 0, 0.5 }, { 0.5, 0.5, 0 } }
-    local s = ls.perturb(H0, V, { order = 3, degen_tol = 1e-12 })
+    -- levels 1 and 2 (gap 1e-9, coupling 1) form a model space by default;
+    -- kept apart by groups = "exact" they draw the warnings
+    local s = ls.perturb(H0, V, { order = 3, degen_tol = 1e-12, groups = "exact" })
     assert.truthy(tostring(s):find("level 1: small denominator 1e-09 (||V|| = 1.5)", 1, true))
-    assert.truthy(s:check(0.1).levels[1].warning:find("below |lambda|*||V|| = 0.15: series unreliable", 1, true))
+    assert.truthy(s:check(0.1).levels[1].warning:find("level 2 is 1e-09 away, coupled by 1: the gap is below 4 x " ..
+      "|lambda| x coupling = 0.4: series unreliable; it was left outside a model space because groups = \"exact\"",
+      1, true), s:check(0.1).levels[1].warning)
+    local sa = ls.perturb(H0, V, { order = 3, degen_tol = 1e-12 })
+    assert.equal("near", sa:groups()[1].kind)
+    assert.is_nil(sa:check(0.1).levels[1].warning)
+    -- a model space's member is judged by its distance to the levels outside
+    local sh = ls.perturb(H0, V, { order = 3, degen_tol = 1e-12, groups = { { 1, 2 } } })
+    assert.truthy(sh:check(2).levels[1].warning:find("below |lambda|*||V|| = 3: series unreliable", 1, true))
     local o = ls.oscillator(30)
     local _, note = ls.perturb(o.number + 0.5, o.x ^ 4, { order = 12, levels = { 1 } }):radius(1)
     assert.truthy(note:find("ratios still falling (radius may be 0)", 1, true), note)
