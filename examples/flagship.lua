@@ -46,13 +46,22 @@ end
 
 -- 2. Perturbation theory in the field. Without a field every level of H0 is
 -- a Kramers pair (time reversal, half-integer total spin): the series finds
--- the degenerate pairs and lifts them at first order, in C.
+-- the degenerate pairs and lifts them at first order, in C. The two m = +-1
+-- pairs are only 15 MHz apart while the field couples them by ~14 MHz per
+-- mT: the series takes them together as one model space of nearly
+-- degenerate levels and diagonalizes its effective Hamiltonian, so the
+-- values hold at the working field (the plain series of each level would
+-- diverge there: groups = "exact" shows it).
 local K = 6
 local s = ls.perturb(H0, V, { order = K })
 print(string.format("\n== 2. Rayleigh-Schroedinger series in B (order %d), degenerate pairs of H0 lifted by the field", K))
 for _, g in ipairs(s:groups()) do
-  print(string.format("   degenerate group {%s} split at order %s", table.concat(g.members, ", "),
-    g.split_order and tostring(g.split_order) or "?"))
+  if g.kind == "near" then
+    print(string.format("   nearly degenerate levels {%s}: one model space (%s)", table.concat(g.members, ", "), g.why))
+  elseif g.kind == "exact" then
+    print(string.format("   degenerate group {%s} split at order %s", table.concat(g.members, ", "),
+      g.split_order and tostring(g.split_order) or "?"))
+  end
 end
 for _, b in ipairs({ 0.05, B_mT }) do
   local c = s:check(b)

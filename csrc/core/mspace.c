@@ -163,7 +163,19 @@ static int ms_component(msfind *f, size_t g, int cid, size_t cap, size_t *nq, si
       }
     }
   }
-  /* the wanted group's nearest neighbour left outside (within the window) */
+  /* the wanted group's nearest neighbour left outside: the closest coupled
+   * group inside the window, else the adjacent groups below and above
+   * (warnings at a lambda past lambda_max need them). Y holds g's columns
+   * only while g is the last group examined. */
+  if (in->note && nb == SIZE_MAX && *nq == 1)
+    for (int side = 0; side < 2; side++) {
+      size_t H;
+      if (side == 0 && g > 0) H = g - 1;
+      else if (side == 1 && g + 1 < f->ng) H = g + 1;
+      else continue;
+      double gap = fabs(f->ge[H] - f->ge[g]), kap = ms_kappa(f, g, H);
+      if (kap > 0 && gap < nbgap) nbgap = gap, nbkap = kap, nb = f->gs[H];
+    }
   if (in->note) in->note(in->u, f->gs[g], f->gs[g + 1], nb, nbgap, nbkap);
   return LVS_OK;
 }

@@ -1384,25 +1384,44 @@ static int add_series(lvs_sweep *s, const lvs_sweep_spec *spec) {
   }
   for (size_t a = 0; a < count; a++) lev[a] = a;
   lvs_series *ps = NULL;
-  int st = lvs_series_new(spec->h0, spec->v, spec->series_order, lev, count, 1e-10, 0, &ps);
+  /* model spaces for the strengths the sweep reaches (lambda_max: the
+   * largest |p| on the grid), so nearly degenerate levels follow the exact
+   * curves through a near-crossing of the unperturbed levels */
+  lvs_series_opts so;
+  lvs_series_opts_init(&so);
+  so.lambda_max = fmax(fabs(s->from), fabs(s->to));
+  if (!(so.lambda_max > 0)) so.lambda_max = 1.0;
+  int st = lvs_series_new_ex(spec->h0, spec->v, spec->series_order, lev, count, &so, &ps);
   if (!st) {
-    /* grid point nearest p = 0 */
+    /* pairing by continuity: at the grid point nearest p = 0 that is not
+     * p = 0 itself (there degenerate levels of H0 have no order), the
+     * series values and the tracked levels are both ranked, and rank meets
+     * rank; series and tracked curves then run on together */
     size_t k0 = 0;
     double best = INFINITY;
     for (size_t k = 0; k < npts; k++) {
       double d = fabs(grid_p(s->from, s->to, npts - 1, k));
-      if (d < best) { best = d; k0 = k; }
+      if (d > 0 && d < best) { best = d; k0 = k; }
     }
-    for (size_t a = 0; a < count; a++) {
+    ranked *sr = lvsi_malloc(ctx, count * sizeof *sr);
+    if (!sr) st = lvsi_fail(ctx, LVS_ENOMEM, "sweep: out of memory for the series");
+    double p0 = grid_p(s->from, s->to, npts - 1, k0);
+    for (size_t a = 0; a < count && !st; a++) {
       srt[a].e = s->e[a * npts + k0];
       srt[a].a = a;
+      sr[a].a = a;
+      st = lvs_series_at(ps, a, p0, &sr[a].e);
     }
-    qsort(srt, count, sizeof *srt, cmp_ranked);
+    if (!st) {
+      qsort(srt, count, sizeof *srt, cmp_ranked);
+      qsort(sr, count, sizeof *sr, cmp_ranked);
+    }
     for (size_t r = 0; r < count && !st; r++) {
-      size_t a = srt[r].a;
+      size_t a = srt[r].a, lev = sr[r].a;
       for (size_t k = 0; k < npts && !st; k++)
-        st = lvs_series_at(ps, r, grid_p(s->from, s->to, npts - 1, k), &s->ser[a * npts + k]);
+        st = lvs_series_at(ps, lev, grid_p(s->from, s->to, npts - 1, k), &s->ser[a * npts + k]);
     }
+    lvsi_free(ctx, sr);
   }
   lvs_series_free(ps);
   lvsi_free(ctx, lev);
