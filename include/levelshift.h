@@ -137,6 +137,9 @@ LVS_API int lvs_matrix_adj(const lvs_matrix *a, lvs_matrix **out);
 /* Largest |A_ij - conj(A_ji)| over the visible block, and where (0-based). */
 LVS_API double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *i,
                                            size_t *j);
+/* Largest |A_ij| over the stored entries (for a padded op these include the
+ * hidden levels: a scale, at least the visible block's); NaN if one is NaN. */
+LVS_API double lvs_matrix_max_abs(const lvs_matrix *a);
 /* A plain (unpadded) copy of the visible block; dense if want_dense. */
 LVS_API int lvs_matrix_visible(const lvs_matrix *a, int want_dense,
                                lvs_matrix **out);
@@ -401,6 +404,9 @@ LVS_API int lvs_series_space(const lvs_series *s, size_t i, const size_t **membe
 LVS_API int lvs_series_space_term(const lvs_series *s, size_t i, int k, lvs_matrix **out);
 LVS_API const char *lvs_series_notes(const lvs_series *s); /* "" when none; BORROWED */
 LVS_API void lvs_series_grouping(const lvs_series *s, double *lambda_max, double *near_factor);
+/* the spacing scale of H0's levels: the median of the gaps above rounding
+ * between its known levels (0: none); degen_tol is relative to it */
+LVS_API double lvs_series_spacing(const lvs_series *s);
 LVS_API int lvs_series_groups_mode(const lvs_series *s); /* LVS_GROUPS_* */
 /* the nearest exact group left outside the level's own within the joining
  * window: its first level (SIZE_MAX: none), gap and coupling kappa (NaN:

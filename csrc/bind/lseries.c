@@ -462,7 +462,8 @@ static int s_group_term(lua_State *L) {
   return 1;
 }
 
-/* s:grouping() -> lambda_max, near_factor (the joining rule's numbers), mode ("auto", "exact", "hand") */
+/* s:grouping() -> lambda_max, near_factor (the joining rule's numbers), mode ("auto", "exact", "hand"),
+ * spacing (the median gap of H0's levels, the scale degen_tol is relative to) */
 static int s_grouping(lua_State *L) {
   double lm, nf;
   lvs_series *s = checkseries(L, 1);
@@ -471,7 +472,8 @@ static int s_grouping(lua_State *L) {
   lua_pushnumber(L, nf);
   lua_pushstring(L, lvs_series_groups_mode(s) == LVS_GROUPS_EXACT ? "exact"
                     : lvs_series_groups_mode(s) == LVS_GROUPS_HAND ? "hand" : "auto");
-  return 3;
+  lua_pushnumber(L, lvs_series_spacing(s));
+  return 4;
 }
 
 /* s:notes() -> why no model space was formed where one was looked for ("" none) */

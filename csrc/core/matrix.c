@@ -1316,6 +1316,17 @@ static double sparse_defect(const lvs_matrix *a, size_t *wi, size_t *wj) {
   return worst;
 }
 
+double lvs_matrix_max_abs(const lvs_matrix *a) {
+  size_t cnt = a->sparse ? a->nnz : a->rows * a->cols;
+  double big = 0;
+  for (size_t k = 0; k < cnt; k++) {
+    double m = a->cplx ? hypot(a->a[2 * k], a->a[2 * k + 1]) : fabs(a->a[k]);
+    if (isnan(m)) return NAN;
+    big = fmax(big, m);
+  }
+  return big;
+}
+
 double lvs_matrix_hermitian_defect(const lvs_matrix *a, size_t *pi, size_t *pj) {
   double worst = 0.0;
   size_t wi = 0, wj = 0;

@@ -276,6 +276,12 @@ int lvsi_mspace_find(lvs_ctx *ctx, const lvsi_mspace_in *in, lvsi_mspace **out, 
 int lvsi_mspace_eigvals(lvs_ctx *ctx, const lvsi_mspace *m, double lambda, int order, double *w) {
   size_t d = m->d, dd = d * d;
   if (order < 0 || order > m->K) order = m->K;
+  for (int k = 0; k <= order; k++)
+    for (size_t i = 0; i < dd; i++)
+      if (!isfinite(creal(m->terms[(size_t)k * dd + i])) || !isfinite(cimag(m->terms[(size_t)k * dd + i])))
+        return lvsi_fail(ctx, LVS_ERANGE,
+                         "a model space's term of order %d is not finite (the terms overflowed); sum to order %d at most",
+                         k, k - 1);
   dc *h = lvsi_calloc(ctx, dd, sizeof *h);
   if (!h) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
   for (int k = order; k >= 0; k--)

@@ -39,6 +39,7 @@
  */
 #include <cblas.h>
 #include <complex.h>
+#include <float.h>
 #include <lapacke.h>
 #include <math.h>
 #include <stdint.h>
@@ -110,6 +111,7 @@ struct lvs_series {
   size_t solves;  /* sparse path: resolvent solves; MINRES iterations in `iters` */
   size_t iters;
   double vnorm;   /* max column 1-norm of V */
+  double spacing; /* median gap of H0's known levels above rounding (0: none) */
   lvsi_mspace *ms; /* model spaces of nearly degenerate levels (mspace.c) */
   size_t nms;
   int *msof;      /* per level: its model space, or -1 */
@@ -554,28 +556,22 @@ static int es_rotate(eswork *e) {
   return LVS_OK;
 }
 
-/* subgroups of equal eigenvalues of M(0): sg[i], their means; the
- * tolerance is relative to M(0)'s spread and to the size of the whole
- * series, so tiny rounding eigenvalues of an all-zero block count as equal */
-static void es_subgroups(eswork *e, double tol) {
+/* subgroups of equal eigenvalues of M(0): sg[i], their means. Two
+ * eigenvalues are equal when they differ by no more than tol times M(0)'s
+ * own scale (its eigenvalues, spread and entries) plus noise, the absolute
+ * rounding level of M(0)'s entries that the caller knows. Only M(0) sets
+ * the scale: the higher orders have other units (V^(k+1) / gap^k), and
+ * letting them in made the tolerance grow with the order until distinct
+ * first-order values merged (V large against the gaps, high order). */
+static void es_subgroups(eswork *e, double tol, double noise) {
   size_t d = e->d, dd = e->dd;
-  int Kp = e->Kp;
   const double *m = e->m;
   double scale = 0;
   for (size_t i = 0; i < d; i++) scale = fmax(scale, fabs(m[i]));
   scale = fmax(scale, m[d - 1] - m[0]);
   double ms = 0;
-  /* a scale only: max(|re|, |im|) is within sqrt 2 of |z| and much cheaper */
-#define MAG(z) (fabs(creal(z)) > fabs(cimag(z)) ? fabs(creal(z)) : fabs(cimag(z)))
-  for (size_t q = 0; q < dd; q++)
-    if (MAG(e->M[q]) > ms) ms = MAG(e->M[q]);
-  for (size_t q = 0; !e->hizero && q < (size_t)(e->lastblocks ? Kp - 1 : Kp) * dd; q++)
-    if (MAG(e->R[q]) > ms) ms = MAG(e->R[q]);
-  if (e->lastblocks) /* RB(Kp) holds M[Kp] C: take the scale from M[Kp] itself */
-    for (size_t q = 0; q < dd; q++)
-      if (MAG(e->M[(size_t)Kp * dd + q]) > ms) ms = MAG(e->M[(size_t)Kp * dd + q]);
-#undef MAG
-  e->atol = tol * fmax(scale, ms) + 1e-14 * ms;
+  for (size_t q = 0; q < dd; q++) ms = fmax(ms, cabs(e->M[q]));
+  e->atol = tol * fmax(scale, ms) + noise;
   size_t ng = 0;
   for (size_t g0 = 0; g0 < d;) {
     size_t g1 = g0 + 1;
@@ -629,13 +625,27 @@ static int es_bloch(eswork *e) {
   return LVS_OK;
 }
 
-static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, int ord0, double *mu, dc *z,
-                     int *split, int *zord);
+static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, double noise, int ord0, double *mu,
+                     dc *z, int *split, int *zord);
+
+/* rounding level of a subgroup's M(0) = its block of W(1) = C^H M(1) C:
+ * the products' own rounding, plus M(1) times the error of C's subspaces,
+ * which is M(0)'s noise over the smallest gap between its subgroups
+ * (Davis & Kahan, SIAM J. Numer. Anal. 7, 1 (1970): the sin-theta bound) */
+static double es_child_noise(const eswork *e, double noise) {
+  size_t d = e->d, dd = e->dd;
+  double m1 = 0, gap = INFINITY;
+  for (size_t q = 0; q < dd; q++) m1 = fmax(m1, cabs(e->M[dd + q]));
+  for (size_t i = 1; i < d; i++)
+    if (e->sg[i] != e->sg[i - 1]) gap = fmin(gap, e->m[i] - e->m[i - 1]);
+  double sub = isfinite(gap) && gap > 0 ? fmin(1.0, noise / gap) : 0.0;
+  return 16.0 * (double)(d + 1) * DBL_EPSILON * m1 + m1 * sub;
+}
 
 /* per subgroup: energies, split orders and u_k (eigenvector series in the
  * basis of M(0)'s eigenvectors), UU[k] column i; a subgroup of several
  * members runs its own eigseries on its block of WA */
-static int es_recurse(eswork *e, double tol, int ord0, double *mu, int has_z, int *split, int *zord) {
+static int es_recurse(eswork *e, double tol, double noise, int ord0, double *mu, int has_z, int *split, int *zord) {
   lvs_ctx *ctx = e->ctx;
   size_t d = e->d, dd = e->dd, nk = e->nk;
   int Kp = e->Kp, st = LVS_OK;
@@ -672,7 +682,7 @@ static int es_recurse(eswork *e, double tol, int ord0, double *mu, int has_z, in
     for (int k = 1; k <= Kp; k++)
       for (size_t b = 0; b < gd; b++)
         for (size_t a = 0; a < gd; a++) sM[(size_t)(k - 1) * gg + b * gd + a] = WAB(e, k)[(g0 + b) * d + g0 + a];
-    if ((st = eigseries(ctx, gd, Kp - 1, sM, tol, ord0 + 1, smu, sz, ss, szo))) break;
+    if ((st = eigseries(ctx, gd, Kp - 1, sM, tol, es_child_noise(e, noise), ord0 + 1, smu, sz, ss, szo))) break;
     for (size_t i = 0; i < gd; i++) {
       size_t a = g0 + i;
       mu[a * nk] = e->mean[sg[g0]];
@@ -702,8 +712,8 @@ static int es_recurse(eswork *e, double tol, int ord0, double *mu, int has_z, in
   return st;
 }
 
-static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, int ord0, double *mu, dc *z,
-                     int *split, int *zord) {
+static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, double noise, int ord0, double *mu,
+                     dc *z, int *split, int *zord) {
   /* z == NULL: eigenvalues only (no eigenvector series) */
   eswork e;
   memset(&e, 0, sizeof e);
@@ -717,7 +727,7 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
   if (!st) st = es_m0(&e);
   if (!st) st = es_rotate(&e);
   if (st) goto done;
-  es_subgroups(&e, tol);
+  es_subgroups(&e, tol, noise);
   size_t nk = e.nk;
   if (Kp == 0 || e.eonly) { /* eonly: higher orders all vanish, nothing splits later */
     for (size_t i = 0; i < d; i++) {
@@ -731,7 +741,7 @@ static int eigseries(lvs_ctx *ctx, size_t d, int Kp, const dc *M, double tol, in
     }
     goto done;
   }
-  if ((st = es_bloch(&e)) || (st = es_recurse(&e, tol, ord0, mu, z != NULL, split, zord))) goto done;
+  if ((st = es_bloch(&e)) || (st = es_recurse(&e, tol, noise, ord0, mu, z != NULL, split, zord))) goto done;
   /* z_k = C u_k */
   for (int k = 0; z && k <= Kp; k++) {
     if ((st = gemm(ctx, e.real, 0, d, d, d, 1.0, e.c, d, e.UU + (size_t)k * e.dd, d, 0.0, e.T, d))) goto done;
@@ -1267,6 +1277,7 @@ typedef struct {
   int bordered, bheld;         /* bheld: BLAS threads to restore (blas_hold1) */
   dc *pvec;                    /* sparse path: the lowest levels' vectors, n x m */
   double sgtol, degen_tol;
+  double gtol;                 /* dense paths: degeneracy tolerance on E (spacing_tol) */
   unsigned char *want;
   dc *W, *zz;
   double *mu;
@@ -1328,6 +1339,36 @@ static int series_inputs(sbuild *b, int order, const size_t *levels, size_t nlev
 
 /* the working basis: s->e0 sorted, s->perm, V in that basis (b->w), or the
  * sparse path's levels and vectors, or the bordered dense route */
+/* The tolerance under which adjacent unperturbed levels count as one
+ * degenerate group: degen_tol times the spacing scale of the spectrum (the
+ * median of its gaps above rounding), never below the rounding of the
+ * energies themselves (rnd: a few ulps of their size for a diagonal H0,
+ * more when H0 was diagonalized). Relative to the spacing, not to the
+ * largest energy: one far level or a constant offset must not merge
+ * levels that are distinct on their own scale. */
+static int spacing_tol(lvs_ctx *ctx, const double *E, size_t n, double degen_tol, double rnd, double *out,
+                       double *spacing) {
+  double big = 0;
+  for (size_t i = 0; i < n; i++)
+    if (isfinite(E[i])) big = fmax(big, fabs(E[i]));
+  double floor = rnd * DBL_EPSILON * big;
+  *out = floor;
+  *spacing = 0;
+  if (n < 2) return LVS_OK;
+  double *g = lvsi_malloc(ctx, (n - 1) * sizeof *g);
+  if (!g) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
+  size_t m = 0;
+  for (size_t i = 1; i < n; i++)
+    if (E[i] - E[i - 1] > floor && isfinite(E[i])) g[m++] = E[i] - E[i - 1];
+  if (m > 0) {
+    qsort(g, m, sizeof *g, cmp_dbl);
+    *spacing = g[m / 2];
+    *out = fmax(floor, degen_tol * g[m / 2]);
+  }
+  lvsi_free(ctx, g);
+  return LVS_OK;
+}
+
 static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t nlevels) {
   lvs_ctx *ctx = s->ctx;
   size_t n = s->n;
@@ -1342,6 +1383,7 @@ static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t n
     for (size_t i = 0; i < n; i++) E[i] = raw[i].e, s->perm[i] = raw[i].i;
     lvsi_free(ctx, raw);
     s->solver = "diagonal";
+    if ((st = spacing_tol(ctx, E, n, b->degen_tol, 4.0, &b->gtol, &s->spacing))) return st;
     return wop_permuted(ctx, vp, s->perm, &b->w);
   }
   for (size_t i = 0; i < n; i++) s->perm[i] = i;
@@ -1349,14 +1391,15 @@ static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t n
     size_t top = 0;
     for (size_t i = 0; i < nlevels; i++) top = levels[i] > top ? levels[i] : top;
     s->solver = "bordered LU";
-    return sparse_levels(hp, top, b->degen_tol, E, &b->pvec, &b->sgtol);
+    if ((st = sparse_levels(hp, top, b->degen_tol, E, &b->pvec, &b->sgtol))) return st;
+    double unused;
+    return spacing_tol(ctx, E, n, b->degen_tol, 64.0, &unused, &s->spacing);
   }
   /* a few explicit, non-degenerate levels of a real H0: solve, do not diagonalize */
   if (!hp->cplx && nlevels >= 1 && nlevels <= 8) {
     if ((st = tri_new(ctx, hp, E, &b->t))) return st;
-    double big0 = 0;
-    for (size_t i = 0; i < n; i++) big0 = fmax(big0, fabs(E[i]));
-    double gt = b->degen_tol * fmax(E[n - 1] - E[0], big0);
+    if ((st = spacing_tol(ctx, E, n, b->degen_tol, fmax(64.0, 4.0 * (double)n), &b->gtol, &s->spacing))) return st;
+    double gt = b->gtol;
     b->bordered = b->o->groups != LVS_GROUPS_HAND;
     /* a neighbour close enough to be joined into a model space needs V in
      * the eigenbasis: no bordered route then */
@@ -1373,6 +1416,7 @@ static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t n
     tri_free(ctx, &b->t);
   }
   if ((st = lvs_eigen(hp, 0, 1, E, &s->U))) return st;
+  if ((st = spacing_tol(ctx, E, n, b->degen_tol, fmax(64.0, 4.0 * (double)n), &b->gtol, &s->spacing))) return st;
   /* columns to apply V to: the wanted levels' groups, counted loosely
    * (a group is found only after the eigenvalues are known) */
   size_t applies = (nlevels ? nlevels : n) * (size_t)s->K;
@@ -1403,7 +1447,9 @@ static int group_energies(lvs_series *s, sbuild *b, sgroup *g) {
     dc *zz = s->states ? (g->zbuf = lvsi_calloc(ctx, d * kp * d, sizeof *zz)) : NULL;
     if (!b->mu || !b->sp || !b->zo || (s->states && !zz)) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
     double stol = b->degen_tol > 0 ? b->degen_tol : 1e-10;
-    if ((st = eigseries(ctx, d, K - 1, W, stol, 1, b->mu, zz, b->sp, b->zo))) return st;
+    /* W(1) = P V P: rounding of V's entries and of H0's eigenvectors */
+    double noise = 16.0 * (double)(d + 1) * DBL_EPSILON * s->vnorm;
+    if ((st = eigseries(ctx, d, K - 1, W, stol, noise, 1, b->mu, zz, b->sp, b->zo))) return st;
     for (size_t i = 0; i < d; i++) {
       slevel *L = &s->lev[s->slot[g0 + i]];
       for (int k = 1; k <= K; k++) L->e[k] = b->mu[i * kp + (size_t)(k - 1)];
@@ -1472,11 +1518,8 @@ static int series_group(lvs_series *s, sbuild *b, size_t g0, size_t g1, size_t g
 /* the groups of the sorted E0 (relative tolerance) that hold a wanted
  * level: counted first, then solved one by one */
 static double series_gtol(const lvs_series *s, const sbuild *b) {
-  size_t n = s->n;
-  const double *E = s->e0;
-  double big = 0;
-  for (size_t i = 0; i < n && !b->pvec; i++) big = fmax(big, fabs(E[i]));
-  return b->pvec ? b->sgtol : b->degen_tol * fmax(E[n - 1] - E[0], big);
+  (void)s;
+  return b->pvec ? b->sgtol : b->gtol;
 }
 
 static int series_groups(lvs_series *s, sbuild *b) {
@@ -1847,6 +1890,11 @@ int lvs_series_at_order(const lvs_series *s, size_t level, double lambda, int k,
     return st;
   }
   const double *c = LEV(s, level)->e;
+  for (int j = 0; j <= k; j++) /* overflowed coefficients: say where, sum nothing */
+    if (!isfinite(c[j]))
+      return lvsi_fail(s->ctx, LVS_ERANGE,
+                       "level %zu: coefficient E(%d) is not finite (the terms overflowed); sum to order %d at most",
+                       level + 1, j, j - 1);
   double acc = 0;
   for (int j = k; j >= 0; j--) acc = acc * lambda + c[j];
   *e = acc;
@@ -1888,6 +1936,7 @@ int lvs_series_space_term(const lvs_series *s, size_t i, int k, lvs_matrix **out
 }
 const char *lvs_series_notes(const lvs_series *s) { return s->note; }
 int lvs_series_groups_mode(const lvs_series *s) { return s->gmode; }
+double lvs_series_spacing(const lvs_series *s) { return s->spacing; }
 void lvs_series_grouping(const lvs_series *s, double *lambda_max, double *near_factor) {
   if (lambda_max) *lambda_max = s->lambda_max;
   if (near_factor) *near_factor = s->near_factor;

@@ -243,16 +243,34 @@ return function(ls, core)
     lines[#lines + 1] = table.concat(head, " ")
     local warn = {}
     local vn = s:vnorm()
+    local lm, nf, mode, spacing = s:grouping()
     for _, lev in ipairs(s:chosen()) do
       local info = s:info(lev)
       local split = info.split_order == 0 and "-" or (info.split_order < 0 and "none" or tostring(info.split_order))
       if info.model_space then split = "near" .. info.model_space end
       local row = { string.format("%6d%s %5d %6s %14.8g", lev, lab(lev), info.group, split, info.E0) }
-      for k = 1, show do row[#row + 1] = string.format("%14.7g", s:energy(lev, k)) end
+      for k = 1, show do
+        local c = s:energy(lev, k)
+        row[#row + 1] = c == c and math.abs(c) < math.huge and string.format("%14.7g", c) or string.format("%14s", "overflow")
+      end
       lines[#lines + 1] = table.concat(row, " ")
-      if info.min_denominator < 1e-6 * math.max(1, math.abs(info.E0)) then
-        warn[#warn + 1] = string.format("  level %d: small denominator %.3g (||V|| = %.3g)", lev,
-          info.min_denominator, vn)
+      for k = 1, K do
+        local c = s:energy(lev, k)
+        if not (math.abs(c) < math.huge) then
+          warn[#warn + 1] = string.format("  level %d: E(%d) and later are not finite (the terms overflowed);" ..
+            " s:at sums to order %d at most", lev, k, k - 1)
+          break
+        end
+      end
+      local nb = info.neighbour
+      if nb and nb.level and nb.gap < nf * lm * nb.coupling then
+        warn[#warn + 1] = string.format("  level %d: level %d is %.3g away, coupled by %.3g, left outside a model space" ..
+          " (%s): the series is unreliable at lambda = %g", lev, nb.level, nb.gap, nb.coupling,
+          mode == "exact" and "groups = \"exact\"" or mode == "hand" and "hand-chosen groups"
+            or "the space would pass near_max: see the note", lm)
+      elseif spacing > 0 and info.min_denominator < 1e-6 * spacing then
+        warn[#warn + 1] = string.format("  level %d: small denominator %.3g against the level spacing %.3g (||V|| = %.3g)",
+          lev, info.min_denominator, spacing, vn)
       end
     end
     if K > show then lines[#lines + 1] = string.format("(orders %d..%d: s:energy(level, k))", show + 1, K) end
