@@ -388,6 +388,17 @@ local function report(m, show_levels, show_order, show_exact)
     if math.abs(e0) > scale then scale = math.abs(e0) end
   end
   local function clip(e) return math.abs(e) < 1e-13 * scale and 0.0 or e + 0.0 end
+  -- the exact level each series level continues into (s:check pairs by the
+  -- series states' overlaps), so the columns stand side by side even where
+  -- levels cross; ascending rank when that is not available
+  local paired
+  if E and s then
+    local okc, c = pcall(s.check, s, 1)
+    if okc and c.pairing == "overlap" then
+      paired = {}
+      for _, r in ipairs(c.levels) do paired[r.level] = r.exact end
+    end
+  end
   local sums, shift = {}, 0
   for i = 1, count do
     local e0 = s and s:energy(i, 0) or (E0 and E0[i])
@@ -409,7 +420,7 @@ local function report(m, show_levels, show_order, show_exact)
       for _ = 1, show_order do line = line .. string.format("  %14s", "-") end
       line = line .. string.format("  %16s", "-")
     end
-    if E then line = line .. string.format("  %16.10g", E[i] + 0.0) end
+    if E then line = line .. string.format("  %16.10g", (paired and paired[i] or E[i]) + 0.0) end
     w(line .. "\n")
   end
   if serr then w("perturbation series not available: " .. serr .. "\n") end
@@ -423,10 +434,14 @@ local function report(m, show_levels, show_order, show_exact)
     end
   end
   if E and #sums == count and count > 0 then
-    -- compare the sums with the exact levels, both in ascending order
-    table.sort(sums)
+    -- compare the sums with their exact levels (paired, or both ascending)
     local miss = 0
-    for i = 1, count do miss = math.max(miss, math.abs(sums[i] - E[i])) end
+    if paired then
+      for i = 1, count do miss = math.max(miss, math.abs(sums[i] - paired[i])) end
+    else
+      table.sort(sums)
+      for i = 1, count do miss = math.max(miss, math.abs(sums[i] - E[i])) end
+    end
     if miss > 1e-2 * shift and miss > 1e-9 * math.max(scale, 1e-300) then
       w(string.format("warning: the order-%d sums miss the exact levels by up to %.4g (%.0f%% of the largest shift): " ..
         "the perturbation is past the series' range here; trust the exact column, or lower the perturbation\n",
@@ -434,7 +449,8 @@ local function report(m, show_levels, show_order, show_exact)
     end
   end
   if E then
-    w("levels numbered by ascending E0 (series) and by ascending exact energy (last column)\n")
+    w(paired and "levels numbered by ascending E0; the exact column is the level each one continues into (by overlap)\n"
+      or "levels numbered by ascending E0 (series) and by ascending exact energy (last column)\n")
   elseif n > EXACT_LIMIT then
     w(string.format("levels numbered by ascending E0; exact levels skipped above %d states (show_exact=true forces them)\n",
       EXACT_LIMIT))

@@ -161,33 +161,130 @@ return function(ls, core)
     return p / q
   end
 
-  --- s:check(lambda) -> {lambda=, levels={ {level=, series=, exact=, error=, tail=, warning=}... }, max_error=}
-  -- Exact values from diagonalizing H0 + lambda V; level i is compared with
-  -- the i-th exact eigenvalue (ascending), valid while levels do not cross.
+  -- The series' state of a level at lambda, summed to the orders kept
+  -- (at most K - 1); nil when no states were kept.
+  local function series_state(s, lev, lambda)
+    local info = s:info(lev)
+    local top = math.min(s:order() - 1, info.state_orders or -1)
+    if top < 0 then return nil end
+    local psi = s:state(lev, 0)
+    local f = 1
+    for k = 1, top do
+      f = f * lambda
+      psi = psi + f * s:state(lev, k)
+    end
+    return psi
+  end
+
+  -- Pair each chosen level with the exact level it continues into (issue:
+  -- ascending rank is wrong as soon as levels cross): a level alone by the
+  -- overlap of its series state with the exact vectors; a model space's d
+  -- members with the d exact levels of largest weight on the members'
+  -- unperturbed states, ranked ascending as its eigenvalues are. Greedy by
+  -- descending weight (the weights are near a permutation wherever the
+  -- series means anything; common practice). Returns pair[lev] = {i, w}.
+  local function pair_levels(s, chosen, E, U, lambda)
+    local units, spaces = {}, {}
+    for _, lev in ipairs(chosen) do
+      local sp = s:info(lev).model_space
+      if sp then
+        if not spaces[sp] then
+          spaces[sp] = { members = {}, vecs = {} }
+          units[#units + 1] = spaces[sp]
+        end
+        local u = spaces[sp]
+        u.members[#u.members + 1] = lev
+        u.vecs[#u.vecs + 1] = s:state(lev, 0)
+      else
+        local psi = series_state(s, lev, lambda)
+        if not psi then return nil end
+        local nrm = math.sqrt(psi:dot(psi))
+        units[#units + 1] = { members = { lev }, vecs = { psi / nrm } }
+      end
+    end
+    -- weights: |<x_i | v>|^2 summed over each unit's vectors
+    local cols = {}
+    for _, u in ipairs(units) do
+      for _, v in ipairs(u.vecs) do cols[#cols + 1] = v end
+    end
+    local O = (U:adj() * ls.blocks { cols }):totable()
+    local cand, c = {}, 0
+    for ui, u in ipairs(units) do
+      u.w, u.got = {}, {}
+      for i = 1, #E do u.w[i] = 0 end
+      for _ = 1, #u.vecs do
+        c = c + 1
+        for i = 1, #E do
+          local z = O[i][c]
+          -- a number (real op) or a {re, im} pair (complex op)
+          u.w[i] = u.w[i] + (type(z) == "number" and z * z or z[1] * z[1] + z[2] * z[2])
+        end
+      end
+      for i = 1, #E do cand[#cand + 1] = { u.w[i], ui, i } end
+    end
+    table.sort(cand, function(a, b)
+      if a[1] ~= b[1] then return a[1] > b[1] end
+      if a[2] ~= b[2] then return a[2] < b[2] end
+      return a[3] < b[3]
+    end)
+    local taken = {}
+    for _, t in ipairs(cand) do
+      local u = units[t[2]]
+      if not taken[t[3]] and #u.got < #u.members then
+        taken[t[3]] = true
+        u.got[#u.got + 1] = t[3]
+      end
+    end
+    local pair = {}
+    for _, u in ipairs(units) do
+      if #u.got < #u.members then return nil end
+      table.sort(u.got)
+      local mem = {}
+      for r, lev in ipairs(u.members) do mem[r] = { lev, s:at(lev, lambda) } end
+      table.sort(mem, function(a, b) return a[2] < b[2] end)
+      for r, m in ipairs(mem) do pair[m[1]] = { u.got[r], u.w[u.got[r]] } end
+    end
+    return pair
+  end
+
+  --- s:check(lambda) -> {lambda=, pairing=, levels={ {level=, series=, exact=, exact_level=, overlap=, error=,
+  ---   tail=, warning=}... }, max_error=}
+  -- Exact values from diagonalizing H0 + lambda V; each level is compared
+  -- with the exact level it continues into (pairing = "overlap"), or with
+  -- the exact level of the same ascending rank when no states were kept
+  -- (pairing = "rank": valid while levels do not cross).
   function methods.check(s, lambda)
     argcheck_lambda(lambda, "check", 1)
     local H0, V = s:operators()
-    -- only the levels up to the highest one checked: a large sparse H goes
-    -- to the Krylov path instead of a full dense spectrum
+    local chosen = s:chosen()
+    local n = s:dim()
+    -- only the levels up to the highest one checked, with room for levels
+    -- that cross: a large sparse H goes to the Krylov path instead of a full
+    -- dense spectrum
     local top = 0
-    for _, lev in ipairs(s:chosen()) do top = math.max(top, lev) end
-    local ok, E = pcall(function() return ls.eigen(H0 + lambda * V, { count = top, vectors = false }) end)
+    for _, lev in ipairs(chosen) do top = math.max(top, lev) end
+    local states = s:info(chosen[1]).state_orders >= 0
+    local count = states and math.min(n, top + math.max(8, top)) or top
+    local ok, E, U = pcall(function() return ls.eigen(H0 + lambda * V, { count = count, vectors = states }) end)
     if not ok then -- e.g. lambda so large that H0 + lambda V overflows
       error("bad argument #1 to 'check' (exact diagonalization of H0 + lambda V at lambda = "
         .. tostring(lambda) .. " failed: " .. (tostring(E):gsub("^[^:]*:%d+: ", "")) .. ")", 2)
     end
-    local out = { lambda = lambda, levels = {}, max_error = 0 }
+    local pair = states and pair_levels(s, chosen, E, U, lambda) or nil
+    local out = { lambda = lambda, levels = {}, max_error = 0, pairing = pair and "overlap" or "rank" }
     local K, vn = s:order(), s:vnorm()
-    for _, lev in ipairs(s:chosen()) do
+    for _, lev in ipairs(chosen) do
       local val = s:at(lev, lambda)
-      local err = val - E[lev]
-      local row = { level = lev, series = val, exact = E[lev], error = err }
+      local ei = pair and pair[lev][1] or lev
+      local err = val - E[ei]
+      local row = { level = lev, series = val, exact = E[ei], exact_level = ei, error = err,
+        overlap = pair and pair[lev][2] or nil }
       local aK, aK1 = s:energy(lev, K), K > 1 and s:energy(lev, K - 1) or 0
       if aK ~= 0 and aK1 ~= 0 and not s:info(lev).model_space then -- a member's tail is not its plain series'
         local r = math.abs(aK / aK1 * lambda)
         if r < 0.5 then row.tail = math.abs(aK * lambda ^ K) * r / (1 - r) end
       end
-        local info = s:info(lev)
+      local info = s:info(lev)
       local nb = info.neighbour
       if nb and nb.level then
         -- the nearest level left outside, judged by the coupling that
@@ -204,6 +301,16 @@ return function(ls, core)
         -- not looked at (a model space's member, hand-chosen groups): the norm rule
         row.warning = string.format("small denominator %.3g below |lambda|*||V|| = %.3g: series unreliable",
           info.min_denominator, math.abs(lambda) * vn)
+      end
+      -- a row whose own error is large says so, whatever the rules above said
+      local shift = math.abs(E[ei] - info.E0)
+      if not row.warning and math.abs(err) > 0.1 * shift and math.abs(err) > 1e-9 * math.max(1, math.abs(info.E0)) then
+        row.warning = string.format("error %.3g is more than a tenth of the level's shift %.3g: the series at order %d" ..
+          " does not describe this level at lambda = %g", err, shift, K, lambda)
+      end
+      if not row.warning and row.overlap and row.overlap < 0.5 then
+        row.warning = string.format("paired with exact level %d by an overlap of only %.3g: the series state is far" ..
+          " from every exact state", ei, row.overlap)
       end
       out.levels[#out.levels + 1] = row
       if math.abs(err) > out.max_error then out.max_error = math.abs(err) end

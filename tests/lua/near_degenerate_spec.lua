@@ -191,4 +191,52 @@ describe("nearly degenerate levels", function()
     assert.truthy(sq:notes():find("joins more than 8 levels from level 1 on: near_factor lowered from 4", 1, true),
       sq:notes())
   end)
+
+  -- High field: H0 = Zeeman, V = A S.I (23Na, I = 3/2, 1 T; A = 885.813 MHz
+  -- and the nuclear g 1.4784 from memory: Arimondo, Inguscio & Violino, Rev.
+  -- Mod. Phys. 49, 31 (1977)). First order A m_S m_I reverses the order of
+  -- the upper manifold's four levels, so the exact level of the same rank is
+  -- the wrong one; s:check pairs by the series states' overlaps. The levels
+  -- themselves: the Breit-Rabi formula (Breit & Rabi, Phys. Rev. 38, 2082
+  -- (1931)), E = -A/4 + g_I' B m +- (dE/2) sqrt(1 + 4 m x / (2I + 1) + x^2),
+  -- dE = A (I + 1/2), x = (g mu_B + g_n mu_N) B / dE, g_I' B = -g_n mu_N B,
+  -- and A I/2 +- (g mu_B B / 2 - g_n mu_N B I) for the stretched states.
+  it("pairs each level with the exact level it continues into (high-field hyperfine)", function()
+    local A, I, gn = 885.813, 1.5, 1.4784
+    local m = ls.recipe("hyperfine", { nuclear_spin = I, hyperfine = A, nuclear_g = gn, field = 1 })
+    local s = ls.perturb(m.V, m.H0, { order = 6 })
+    local c = s:check(1)
+    assert.equal("overlap", c.pairing)
+    assert.is_true(c.max_error < 1e-3, c.max_error)
+    local perm = false
+    for _, r in ipairs(c.levels) do
+      assert.is_nil(r.warning) -- V couples no crossing pair: nothing to warn about
+      assert.is_true(r.overlap > 0.99)
+      if r.exact_level ~= r.level then perm = true end
+    end
+    assert.is_true(perm) -- the ranks did change
+    assert.is_nil(tostring(s):find("warnings:", 1, true))
+    -- the closed form
+    local muB = ls.units.convert(1, "T", "MHz")
+    local muN = muB * ls.units.mu_N / ls.units.mu_B
+    local g = 2.00231930436256
+    local dE, br = A * (I + 0.5), {}
+    local x = (g * muB + gn * muN) / dE
+    for mf = -(I - 0.5), I - 0.5 do
+      for _, sg in ipairs { -1, 1 } do
+        br[#br + 1] = -A / 4 - gn * muN * mf + sg * dE / 2 * math.sqrt(1 + 4 * mf * x / (2 * I + 1) + x * x)
+      end
+    end
+    for _, sg in ipairs { -1, 1 } do br[#br + 1] = A * I / 2 + sg * (g * muB / 2 - gn * muN * I) end
+    table.sort(br)
+    local got = {}
+    for lev = 1, 8 do got[lev] = s:at(lev, 1) end
+    table.sort(got)
+    for i = 1, 8 do assert.near(br[i], got[i], 1e-3) end
+    -- without states the pairing falls back to ranks, and says so
+    local s0 = ls.perturb(m.V, m.H0, { order = 6, states = false })
+    local c0 = s0:check(1)
+    assert.equal("rank", c0.pairing)
+    assert.is_true(c0.max_error > 100)
+  end)
 end)
