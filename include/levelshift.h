@@ -350,6 +350,9 @@ LVS_API int lvs_effective_term(const lvs_effective *e, int k, lvs_matrix **out);
 /* sum_k lambda^k term(k) through order (order < 0: all) */
 LVS_API int lvs_effective_at(const lvs_effective *e, double lambda, int order, lvs_matrix **out);
 LVS_API const char *lvs_effective_warnings(const lvs_effective *e); /* "" when none; owned */
+/* the smallest gap between the group and the levels outside, and the
+ * coupling max|V_am| the gap warning judges it by (at lambda: |lambda| x it) */
+LVS_API void lvs_effective_gap(const lvs_effective *e, double *gap, double *coupling);
 /* ---- perturbation series (series.c) ----------------------------------
  * RS series of the levels of H0 under lambda*V to order K (1..1000),
  * degenerate groups (relative tolerance degen_tol on H0's spectrum) lifted

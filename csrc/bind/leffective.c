@@ -216,7 +216,17 @@ static int e_at(lua_State *L) {
   }
   lvs_matrix **out = lvsL_newmatrix(L);
   lvsL_check(L, lvsL_ctx(L), lvs_effective_at(e, lam, (int)k, out), "at");
-  return 1;
+  /* the gap rule at this lambda: a second result, nil when it holds */
+  double gap, coup;
+  lvs_effective_gap(e, &gap, &coup);
+  if (fabs(lam) * coup > 0.25 * gap) {
+    lua_pushfstring(L, "at lambda = %f the coupling |lambda| max|V_am| = %f is not small against the gap %f between "
+                    "the group and the other levels (ratio %f): the series may not converge here; compare with ls.eigen",
+                    lam, fabs(lam) * coup, gap, fabs(lam) * coup / gap);
+    return 2;
+  }
+  lua_pushnil(L);
+  return 2;
 }
 
 static int e_levels(lua_State *L) {

@@ -57,6 +57,7 @@ struct lvs_effective {
   cplx *terms;    /* (order+1) blocks of d*d, column-major */
   int complex_result;
   char *warn;     /* "" when none; lines separated by '\n' */
+  double gap, coup; /* smallest gap to the levels outside, max|V_am| (gap_warning) */
 };
 
 #define T(e, k) ((e)->terms + (size_t)(k) * (e)->d * (e)->d)
@@ -323,6 +324,8 @@ static int gap_warning(lvs_effective *e, ework *w) {
     if (i > 0 && E[L] - E[i - 1] < gap) gap = E[L] - E[i - 1];
     if (j + 1 < n && E[j + 1] - E[L] < gap) gap = E[j + 1] - E[L];
   }
+  e->gap = gap;
+  e->coup = w->coup;
   if (w->coup > 0.25 * gap) {
     char buf[320];
     snprintf(buf, sizeof buf,
@@ -917,6 +920,10 @@ int lvs_level_of_state(const lvs_matrix *h0, size_t state, size_t *level) {
   return LVS_OK;
 }
 const char *lvs_effective_warnings(const lvs_effective *e) { return e->warn ? e->warn : ""; }
+void lvs_effective_gap(const lvs_effective *e, double *gap, double *coupling) {
+  if (gap) *gap = e->gap;
+  if (coupling) *coupling = e->coup;
+}
 
 static int to_matrix(const lvs_effective *e, const cplx *blk, lvs_matrix **out) {
   int st = lvs_matrix_new(e->ctx, e->d, e->d, e->complex_result, out);

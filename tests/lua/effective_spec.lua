@@ -403,4 +403,18 @@ describe("effective", function()
         "the group cuts through a degenerate level of H0", 1, true)
     end)
   end)
+  -- the gap rule (coupling below a quarter of the gap; common practice)
+  -- judged at the lambda h:at is evaluated at
+  it("warns from h:at at a lambda where the coupling is not small", function()
+    local h = ls.effective(ls.matrix { { 0, 0, 0 }, { 0, 0, 0 }, { 0, 0, 1 } },
+      ls.matrix { { 0, 0, 1 }, { 0, 0, 1 }, { 1, 1, 0 } }, { levels = { 1, 2 }, order = 4 })
+    local m, w = h:at(0.1)
+    assert.is_nil(w)
+    -- two-level closed form of the group's effective coupling at second
+    -- order: -lambda^2 |V|^2 / gap on every entry (common practice)
+    assert.near(-0.01, m:get(1, 2), 1e-3)
+    local _, w2 = h:at(0.5)
+    assert.truthy(w2 and w2:find("is not small against the gap 1.0 between the group and the other levels (ratio 0.5)",
+      1, true), w2)
+  end)
 end)
