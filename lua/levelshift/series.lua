@@ -63,35 +63,6 @@ return function(ls, core)
     end
   end
 
-  function methods.radius(s, level)
-    argcheck_level(s, level, "radius")
-    local a, K = space_norms(s, level)
-    if not a then a, K = coeffs(s, level), s:order() end
-    local r = {}
-    -- consecutive nonzero coefficients a_j, a_k: radius ~ |a_j/a_k|^(1/(k-j))
-    -- (handles series in lambda^2)
-    local prev
-    -- rounding noise is judged against the first nonzero coefficient (a[1]
-    -- vanishes whenever V has no diagonal element, e.g. g x on an oscillator)
-    local ref = 0
-    for k = 1, K do if a[k] ~= 0 then ref = a[k]; break end end
-    for k = 1, K do
-      if a[k] ~= 0 and math.abs(a[k]) > 1e-13 * math.abs(ref) then
-        if prev then r[#r + 1] = math.abs(a[prev] / a[k]) ^ (1 / (k - prev)) end
-        prev = k
-      end
-    end
-    if #r == 0 then return nil, "coefficients vanish: no finite radius estimate" end
-    local last = r[#r]
-    local note = "ratio test |a(K-1)/a(K)|"
-    if #r >= 3 then
-      local d1, d2 = r[#r] - r[#r - 1], r[#r - 1] - r[#r - 2]
-      if d1 * d2 < 0 then note = note .. "; ratios oscillate, estimate unreliable" end
-      if r[#r] < r[#r - 1] and r[#r - 1] < r[#r - 2] then note = note .. "; ratios still falling (radius may be 0)" end
-    end
-    return last, note
-  end
-
   --- Solve a small dense linear system with partial pivoting (A is rows).
   local function solve(A, b)
     local n = #b
@@ -118,6 +89,74 @@ return function(ls, core)
       x[r] = acc / A[r][r]
     end
     return x
+  end
+
+  -- The growth rate of |a_k| over orders [lo, hi]: the upper envelope of
+  -- log|a_k| (its convex hull from above, so vanishing or oscillating
+  -- coefficients do not pull it down), its longest edge's slope -log R
+  -- (Cauchy-Hadamard: 1/R = limsup |a_k|^(1/k); common practice).
+  local function envelope_radius(a, lo, hi, noise)
+    local pts = {}
+    for k = lo, hi do
+      if a[k] ~= 0 and math.abs(a[k]) > noise(k) and math.abs(a[k]) < math.huge then
+        pts[#pts + 1] = { k, math.log(math.abs(a[k])) }
+      end
+    end
+    if #pts < 2 then return nil end
+    local hull = {}
+    for _, p in ipairs(pts) do
+      while #hull >= 2 do
+        local o, q = hull[#hull - 1], hull[#hull]
+        if (q[1] - o[1]) * (p[2] - o[2]) - (q[2] - o[2]) * (p[1] - o[1]) >= 0 then hull[#hull] = nil else break end
+      end
+      hull[#hull + 1] = p
+    end
+    local best, slope = -1, nil
+    for i = 2, #hull do
+      local len = hull[i][1] - hull[i - 1][1]
+      if len > best then best, slope = len, (hull[i][2] - hull[i - 1][2]) / len end
+    end
+    return math.exp(-slope)
+  end
+
+  --- s:radius(level) -> estimate, note: the radius of convergence in lambda
+  -- from the growth of the coefficients over the upper half of the orders,
+  -- and how sure it is (the orders K/4..K/2 give a second estimate).
+  function methods.radius(s, level)
+    argcheck_level(s, level, "radius")
+    local a, K = space_norms(s, level)
+    if not a then a, K = coeffs(s, level), s:order() end
+    -- rounding noise of a(k): 1e-13 of the first nonzero coefficient,
+    -- grown by (||V|| / gap)^k, the bound on the terms' growth (a[1]
+    -- vanishes whenever V has no diagonal element, e.g. g x on an
+    -- oscillator; a terminating series leaves only this noise)
+    local ref, kref = 0, 1
+    for k = 1, K do if a[k] ~= 0 then ref, kref = a[k], k; break end end
+    if ref == 0 then return nil, "coefficients vanish: no finite radius estimate" end
+    local gap = s:info(level).min_denominator
+    local q = (gap > 0 and gap < math.huge) and math.max(1e-300, s:vnorm() / gap) or 1
+    -- (a coefficient above 1e-3 of the first is never taken for noise: the
+    -- bound can be far above a large V's real growth)
+    local function noise(k) return math.min(1e-13 * math.abs(ref) * q ^ (k - kref), 1e-3 * math.abs(ref)) end
+    local ref = noise
+    local mid = math.max(1, K // 2)
+    local late = envelope_radius(a, mid, K, ref)
+    if not late then late = envelope_radius(a, 1, K, ref) end
+    if not late then return nil, "coefficients vanish: no finite radius estimate" end
+    local note = string.format("growth of |a(k)| over orders %d..%d", mid, K)
+    local early = K >= 8 and envelope_radius(a, math.max(1, K // 4), mid, ref) or nil
+    if not early then
+      note = note .. "; too few orders for a second estimate: uncertain"
+    elseif late < 0.8 * early then
+      note = note .. string.format("; ratios still falling (radius may be smaller still, or 0): orders %d..%d gave %.4g",
+        math.max(1, K // 4), mid, early)
+    elseif late > 1.25 * early then
+      note = note .. string.format("; still rising: orders %d..%d gave %.4g, uncertain", math.max(1, K // 4), mid, early)
+    else
+      note = note .. string.format("; orders %d..%d agree within %.0f%%", math.max(1, K // 4), mid,
+        100 * math.abs(late - early) / late)
+    end
+    return late, note
   end
 
   --- s:pade(level, lambda [, L, M]) -> value of the [L/M] Pade approximant
@@ -307,6 +346,13 @@ return function(ls, core)
       if not row.warning and math.abs(err) > 0.1 * shift and math.abs(err) > 1e-9 * math.max(1, math.abs(info.E0)) then
         row.warning = string.format("error %.3g is more than a tenth of the level's shift %.3g: the series at order %d" ..
           " does not describe this level at lambda = %g", err, shift, K, lambda)
+      end
+      if not row.warning then
+        local okr, rad, rnote = pcall(methods.radius, s, lev)
+        if okr and rad and math.abs(lambda) > rad then
+          row.warning = string.format("|lambda| = %g is beyond the series' estimated radius %.4g (%s)", math.abs(lambda),
+            rad, rnote)
+        end
       end
       if not row.warning and row.overlap and row.overlap < 0.5 then
         row.warning = string.format("paired with exact level %d by an overlap of only %.3g: the series state is far" ..

@@ -239,4 +239,44 @@ describe("nearly degenerate levels", function()
     assert.equal("rank", c0.pairing)
     assert.is_true(c0.max_error > 100)
   end)
+
+  -- Breit-Rabi (Breit & Rabi, Phys. Rev. 38, 2082 (1931)): every level but
+  -- the stretched two holds sqrt(1 + 4 m x / (2I + 1) + x^2), whose branch
+  -- points lie on |x| = 1 for |m| <= 1 (I = 3/2), so the Zeeman series in B
+  -- has radius dE / (g mu_B + g_n mu_N) = 63.19 mT for 23Na (constants as
+  -- above). s:radius finds it and says how sure it is; s:check warns past it.
+  it("estimates the radius of the 23Na Zeeman series and warns beyond it", function()
+    local A, I, gn = 885.813, 1.5, 1.4784
+    local m = ls.recipe("hyperfine", { nuclear_spin = I, hyperfine = A, nuclear_g = gn, field = 1, field_unit = "mT" })
+    local muB = ls.units.convert(1, "mT", "MHz")
+    local R0 = A * (I + 0.5) / (2.00231930436256 * muB + gn * muB * ls.units.mu_N / ls.units.mu_B)
+    assert.near(63.19, R0, 0.01)
+    local s = ls.perturb(m.H0, m.V, { order = 40 })
+    local seen = 0
+    for lev = 1, 8 do
+      local r, note = s:radius(lev)
+      if r then
+        seen = seen + 1
+        assert.is_true(math.abs(r - R0) < 0.08 * R0, string.format("level %d: %g", lev, r))
+        assert.truthy(note:find("agree within", 1, true), note)
+      else
+        assert.truthy(note:find("coefficients vanish", 1, true)) -- the stretched states: linear in B
+      end
+    end
+    assert.equal(6, seen)
+    -- at 75 mT every level that is not linear in B is off and says so
+    -- (by the radius, or first by the neighbour rule at this lambda)
+    local c = s:check(75)
+    for _, row in ipairs(c.levels) do
+      if math.abs(row.error) > 1 then assert.is_string(row.warning) end
+    end
+    -- groups by hand (no neighbour rule): the radius rule alone
+    local sh = ls.perturb(m.H0, m.V, { order = 40, groups = { { 1, 2, 3 }, { 4, 5, 6, 7, 8 } } })
+    local warned = 0
+    for _, row in ipairs(sh:check(75).levels) do
+      if row.warning and row.warning:find("beyond the series' estimated radius", 1, true) then warned = warned + 1 end
+    end
+    assert.is_true(warned >= 1)
+    for _, row in ipairs(s:check(30).levels) do assert.is_nil(row.warning) end
+  end)
 end)
