@@ -1276,8 +1276,8 @@ typedef struct {
   tri t;                       /* bordered dense route */
   int bordered, bheld;         /* bheld: BLAS threads to restore (blas_hold1) */
   dc *pvec;                    /* sparse path: the lowest levels' vectors, n x m */
-  double sgtol, degen_tol;
-  double gtol;                 /* dense paths: degeneracy tolerance on E (spacing_tol) */
+  double degen_tol;
+  double gtol;                 /* degeneracy tolerance on E: spacing_tol, or sparse_levels' */
   unsigned char *want;
   dc *W, *zz;
   double *mu;
@@ -1337,8 +1337,6 @@ static int series_inputs(sbuild *b, int order, const size_t *levels, size_t nlev
   return lvsi_check_hermitian(b->vp, LVS_DEFAULT_HERM_TOL, "V");
 }
 
-/* the working basis: s->e0 sorted, s->perm, V in that basis (b->w), or the
- * sparse path's levels and vectors, or the bordered dense route */
 /* The tolerance under which adjacent unperturbed levels count as one
  * degenerate group: degen_tol times the spacing scale of the spectrum (the
  * median of its gaps above rounding), never below the rounding of the
@@ -1346,13 +1344,15 @@ static int series_inputs(sbuild *b, int order, const size_t *levels, size_t nlev
  * more when H0 was diagonalized). Relative to the spacing, not to the
  * largest energy: one far level or a constant offset must not merge
  * levels that are distinct on their own scale. */
-static int spacing_tol(lvs_ctx *ctx, const double *E, size_t n, double degen_tol, double rnd, double *out,
+/* ulps of the largest |E| that a computed eigenvalue of an n x n H0 may be off */
+#define EIG_ROUNDING(n) fmax(64.0, 4.0 * (double)(n))
+static int spacing_tol(lvs_ctx *ctx, const double *E, size_t n, double degen_tol, double rnd, double *gtol,
                        double *spacing) {
   double big = 0;
   for (size_t i = 0; i < n; i++)
     if (isfinite(E[i])) big = fmax(big, fabs(E[i]));
   double floor = rnd * DBL_EPSILON * big;
-  *out = floor;
+  *gtol = floor;
   *spacing = 0;
   if (n < 2) return LVS_OK;
   double *g = lvsi_malloc(ctx, (n - 1) * sizeof *g);
@@ -1363,12 +1363,14 @@ static int spacing_tol(lvs_ctx *ctx, const double *E, size_t n, double degen_tol
   if (m > 0) {
     qsort(g, m, sizeof *g, cmp_dbl);
     *spacing = g[m / 2];
-    *out = fmax(floor, degen_tol * g[m / 2]);
+    *gtol = fmax(floor, degen_tol * g[m / 2]);
   }
   lvsi_free(ctx, g);
   return LVS_OK;
 }
 
+/* the working basis: s->e0 sorted, s->perm, V in that basis (b->w), or the
+ * sparse path's levels and vectors, or the bordered dense route */
 static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t nlevels) {
   lvs_ctx *ctx = s->ctx;
   size_t n = s->n;
@@ -1391,14 +1393,14 @@ static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t n
     size_t top = 0;
     for (size_t i = 0; i < nlevels; i++) top = levels[i] > top ? levels[i] : top;
     s->solver = "bordered LU";
-    if ((st = sparse_levels(hp, top, b->degen_tol, E, &b->pvec, &b->sgtol))) return st;
-    double unused;
-    return spacing_tol(ctx, E, n, b->degen_tol, 64.0, &unused, &s->spacing);
+    if ((st = sparse_levels(hp, top, b->degen_tol, E, &b->pvec, &b->gtol))) return st;
+    double own; /* the spacing only: the Krylov levels keep the Gershgorin-scaled tolerance */
+    return spacing_tol(ctx, E, n, b->degen_tol, 64.0, &own, &s->spacing);
   }
   /* a few explicit, non-degenerate levels of a real H0: solve, do not diagonalize */
   if (!hp->cplx && nlevels >= 1 && nlevels <= 8) {
     if ((st = tri_new(ctx, hp, E, &b->t))) return st;
-    if ((st = spacing_tol(ctx, E, n, b->degen_tol, fmax(64.0, 4.0 * (double)n), &b->gtol, &s->spacing))) return st;
+    if ((st = spacing_tol(ctx, E, n, b->degen_tol, EIG_ROUNDING(n), &b->gtol, &s->spacing))) return st;
     double gt = b->gtol;
     b->bordered = b->o->groups != LVS_GROUPS_HAND;
     /* a neighbour close enough to be joined into a model space needs V in
@@ -1416,7 +1418,7 @@ static int series_basis(lvs_series *s, sbuild *b, const size_t *levels, size_t n
     tri_free(ctx, &b->t);
   }
   if ((st = lvs_eigen(hp, 0, 1, E, &s->U))) return st;
-  if ((st = spacing_tol(ctx, E, n, b->degen_tol, fmax(64.0, 4.0 * (double)n), &b->gtol, &s->spacing))) return st;
+  if ((st = spacing_tol(ctx, E, n, b->degen_tol, EIG_ROUNDING(n), &b->gtol, &s->spacing))) return st;
   /* columns to apply V to: the wanted levels' groups, counted loosely
    * (a group is found only after the eigenvalues are known) */
   size_t applies = (nlevels ? nlevels : n) * (size_t)s->K;
@@ -1515,19 +1517,14 @@ static int series_group(lvs_series *s, sbuild *b, size_t g0, size_t g1, size_t g
   return st;
 }
 
-/* the groups of the sorted E0 (relative tolerance) that hold a wanted
+/* the groups of the sorted E0 (within b->gtol) that hold a wanted
  * level: counted first, then solved one by one */
-static double series_gtol(const lvs_series *s, const sbuild *b) {
-  (void)s;
-  return b->pvec ? b->sgtol : b->gtol;
-}
-
 static int series_groups(lvs_series *s, sbuild *b) {
   lvs_ctx *ctx = s->ctx;
   size_t n = s->n;
   const double *E = s->e0;
   const unsigned char *want = b->want;
-  double gtol = series_gtol(s, b);
+  double gtol = b->gtol;
   size_t ngneed = 0, nlneed = 0;
   for (size_t g0 = 0; g0 < n;) {
     size_t g1 = g0 + 1;
@@ -1656,7 +1653,7 @@ static int series_spaces(lvs_series *s, sbuild *b) {
   if (b->bordered) return LVS_OK; /* no neighbour within the joining window (series_basis) */
   if (b->pvec)
     for (nk = 0; nk < n && isfinite(s->e0[nk]);) nk++;
-  lvsi_mspace_in in = {nk, s->e0, series_gtol(s, b), b->want, s->lambda_max, s->near_factor, s->vnorm,
+  lvsi_mspace_in in = {nk, s->e0, b->gtol, b->want, s->lambda_max, s->near_factor, s->vnorm,
                        o->near_max ? o->near_max : 8, o->groups == LVS_GROUPS_AUTO, series_vcol, series_nbnote, b};
   int st;
   if (o->groups == LVS_GROUPS_HAND) {

@@ -364,13 +364,24 @@ local function report(m, show_levels, show_order, show_exact)
     show_exact = n <= EXACT_LIMIT or (n <= EXACT_LIMIT_SPARSE and (m.H0 + m.V):storage() == "sparse")
   end
   w(string.format("H = H0 + V on %d states%s\n", n, m.units and (", energies in " .. m.units) or ""))
-  local E
-  if show_exact then E = ls.eigen(m.H0 + m.V, { count = count, vectors = false }) end
   local levels = {}
   for i = 1, count do levels[i] = i end
   local s, serr = nil, nil
   local ok, res = pcall(ls.perturb, m.H0, m.V, { order = show_order, levels = levels })
   if ok then s = res else serr = clean(res) end
+  -- E[i]: the exact level series level i continues into (s:check pairs by
+  -- the series states' overlaps and diagonalizes H0 + V once), so the
+  -- columns stand side by side even where levels cross; paired = false:
+  -- ascending exact levels (no series, or no states)
+  local E, paired
+  if show_exact and s then
+    local okc, c = pcall(s.check, s, 1)
+    if okc and c.pairing == "overlap" then
+      E, paired = {}, true
+      for _, r in ipairs(c.levels) do E[r.level] = r.exact end
+    end
+  end
+  if show_exact and not paired then E = ls.eigen(m.H0 + m.V, { count = count, vectors = false }) end
   local E0
   if not s and show_exact then
     local ok0, r0 = pcall(ls.eigen, m.H0, { count = count, vectors = false })
@@ -388,17 +399,6 @@ local function report(m, show_levels, show_order, show_exact)
     if math.abs(e0) > scale then scale = math.abs(e0) end
   end
   local function clip(e) return math.abs(e) < 1e-13 * scale and 0.0 or e + 0.0 end
-  -- the exact level each series level continues into (s:check pairs by the
-  -- series states' overlaps), so the columns stand side by side even where
-  -- levels cross; ascending rank when that is not available
-  local paired
-  if E and s then
-    local okc, c = pcall(s.check, s, 1)
-    if okc and c.pairing == "overlap" then
-      paired = {}
-      for _, r in ipairs(c.levels) do paired[r.level] = r.exact end
-    end
-  end
   local sums, shift = {}, 0
   for i = 1, count do
     local e0 = s and s:energy(i, 0) or (E0 and E0[i])
@@ -420,7 +420,7 @@ local function report(m, show_levels, show_order, show_exact)
       for _ = 1, show_order do line = line .. string.format("  %14s", "-") end
       line = line .. string.format("  %16s", "-")
     end
-    if E then line = line .. string.format("  %16.10g", (paired and paired[i] or E[i]) + 0.0) end
+    if E then line = line .. string.format("  %16.10g", E[i] + 0.0) end
     w(line .. "\n")
   end
   if serr then w("perturbation series not available: " .. serr .. "\n") end
@@ -436,12 +436,8 @@ local function report(m, show_levels, show_order, show_exact)
   if E and #sums == count and count > 0 then
     -- compare the sums with their exact levels (paired, or both ascending)
     local miss = 0
-    if paired then
-      for i = 1, count do miss = math.max(miss, math.abs(sums[i] - paired[i])) end
-    else
-      table.sort(sums)
-      for i = 1, count do miss = math.max(miss, math.abs(sums[i] - E[i])) end
-    end
+    if not paired then table.sort(sums) end
+    for i = 1, count do miss = math.max(miss, math.abs(sums[i] - E[i])) end
     if miss > 1e-2 * shift and miss > 1e-9 * math.max(scale, 1e-300) then
       w(string.format("warning: the order-%d sums miss the exact levels by up to %.4g (%.0f%% of the largest shift): " ..
         "the perturbation is past the series' range here; trust the exact column, or lower the perturbation\n",

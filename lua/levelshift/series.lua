@@ -138,13 +138,11 @@ return function(ls, core)
     -- (a coefficient above 1e-3 of the first is never taken for noise: the
     -- bound can be far above a large V's real growth)
     local function noise(k) return math.min(1e-13 * math.abs(ref) * q ^ (k - kref), 1e-3 * math.abs(ref)) end
-    local ref = noise
     local mid = math.max(1, K // 2)
-    local late = envelope_radius(a, mid, K, ref)
-    if not late then late = envelope_radius(a, 1, K, ref) end
+    local late = envelope_radius(a, mid, K, noise) or envelope_radius(a, 1, K, noise)
     if not late then return nil, "coefficients vanish: no finite radius estimate" end
     local note = string.format("growth of |a(k)| over orders %d..%d", mid, K)
-    local early = K >= 8 and envelope_radius(a, math.max(1, K // 4), mid, ref) or nil
+    local early = K >= 8 and envelope_radius(a, math.max(1, K // 4), mid, noise) or nil
     if not early then
       note = note .. "; too few orders for a second estimate: uncertain"
     elseif late < 0.8 * early then
@@ -286,6 +284,48 @@ return function(ls, core)
     return pair
   end
 
+  -- The nearest level left outside the level's group, when it lies within
+  -- the joining rule at |lambda| (gap below near_factor |lambda| coupling):
+  -- the neighbour table and the rule's numbers; nil when it does not.
+  local function neighbour_within(s, info, lambda)
+    local nb = info.neighbour
+    if not (nb and nb.level) then return nil end
+    local lm, nf, mode = s:grouping()
+    if nb.gap < nf * math.abs(lambda) * nb.coupling then return nb, lm, nf, mode end
+  end
+
+  -- A check row's warning, the first rule that applies: a neighbour left
+  -- outside within the joining rule; the norm rule where no neighbour was
+  -- looked at (a member, hand-chosen groups); an error above a tenth of the
+  -- level's shift; lambda beyond the estimated radius; a poor pairing.
+  local function row_warning(s, lev, info, lambda, row)
+    local al, K = math.abs(lambda), s:order()
+    local nb, lm, nf, mode = neighbour_within(s, info, lambda)
+    if nb then
+      local why = mode == "exact" and "groups = \"exact\"" or string.format("lambda_max = %g < |lambda| = %g", lm, al)
+      return string.format("level %d is %.3g away, coupled by %.3g: the gap is below %g x |lambda| x coupling" ..
+        " = %.3g: series unreliable; it was left outside a model space because %s; give lambda_max = %g" ..
+        " (or groups = {{...}})", nb.level, nb.gap, nb.coupling, nf, nf * al * nb.coupling, why, al)
+    end
+    if not info.neighbour and info.min_denominator < al * s:vnorm() then
+      return string.format("small denominator %.3g below |lambda|*||V|| = %.3g: series unreliable",
+        info.min_denominator, al * s:vnorm())
+    end
+    local err, shift = row.error, math.abs(row.exact - info.E0)
+    if math.abs(err) > 0.1 * shift and math.abs(err) > 1e-9 * math.max(1, math.abs(info.E0)) then
+      return string.format("error %.3g is more than a tenth of the level's shift %.3g: the series at order %d" ..
+        " does not describe this level at lambda = %g", err, shift, K, lambda)
+    end
+    local okr, rad, rnote = pcall(methods.radius, s, lev)
+    if okr and rad and al > rad then
+      return string.format("|lambda| = %g is beyond the series' estimated radius %.4g (%s)", al, rad, rnote)
+    end
+    if row.overlap and row.overlap < 0.5 then
+      return string.format("paired with exact level %d by an overlap of only %.3g: the series state is far" ..
+        " from every exact state", row.exact_level, row.overlap)
+    end
+  end
+
   --- s:check(lambda) -> {lambda=, pairing=, levels={ {level=, series=, exact=, exact_level=, overlap=, error=,
   ---   tail=, warning=}... }, max_error=}
   -- Exact values from diagonalizing H0 + lambda V; each level is compared
@@ -311,53 +351,20 @@ return function(ls, core)
     end
     local pair = states and pair_levels(s, chosen, E, U, lambda) or nil
     local out = { lambda = lambda, levels = {}, max_error = 0, pairing = pair and "overlap" or "rank" }
-    local K, vn = s:order(), s:vnorm()
+    local K = s:order()
     for _, lev in ipairs(chosen) do
       local val = s:at(lev, lambda)
       local ei = pair and pair[lev][1] or lev
       local err = val - E[ei]
       local row = { level = lev, series = val, exact = E[ei], exact_level = ei, error = err,
         overlap = pair and pair[lev][2] or nil }
+      local info = s:info(lev)
       local aK, aK1 = s:energy(lev, K), K > 1 and s:energy(lev, K - 1) or 0
-      if aK ~= 0 and aK1 ~= 0 and not s:info(lev).model_space then -- a member's tail is not its plain series'
+      if aK ~= 0 and aK1 ~= 0 and not info.model_space then -- a member's tail is not its plain series'
         local r = math.abs(aK / aK1 * lambda)
         if r < 0.5 then row.tail = math.abs(aK * lambda ^ K) * r / (1 - r) end
       end
-      local info = s:info(lev)
-      local nb = info.neighbour
-      if nb and nb.level then
-        -- the nearest level left outside, judged by the coupling that
-        -- connects it (the joining rule at this lambda)
-        local lm, nf, mode = s:grouping()
-        local al = math.abs(lambda)
-        if nb.gap < nf * al * nb.coupling then
-          local why = mode == "exact" and "groups = \"exact\"" or string.format("lambda_max = %g < |lambda| = %g", lm, al)
-          row.warning = string.format("level %d is %.3g away, coupled by %.3g: the gap is below %g x |lambda| x coupling" ..
-            " = %.3g: series unreliable; it was left outside a model space because %s; give lambda_max = %g" ..
-            " (or groups = {{...}})", nb.level, nb.gap, nb.coupling, nf, nf * al * nb.coupling, why, al)
-        end
-      elseif not nb and info.min_denominator < math.abs(lambda) * vn then
-        -- not looked at (a model space's member, hand-chosen groups): the norm rule
-        row.warning = string.format("small denominator %.3g below |lambda|*||V|| = %.3g: series unreliable",
-          info.min_denominator, math.abs(lambda) * vn)
-      end
-      -- a row whose own error is large says so, whatever the rules above said
-      local shift = math.abs(E[ei] - info.E0)
-      if not row.warning and math.abs(err) > 0.1 * shift and math.abs(err) > 1e-9 * math.max(1, math.abs(info.E0)) then
-        row.warning = string.format("error %.3g is more than a tenth of the level's shift %.3g: the series at order %d" ..
-          " does not describe this level at lambda = %g", err, shift, K, lambda)
-      end
-      if not row.warning then
-        local okr, rad, rnote = pcall(methods.radius, s, lev)
-        if okr and rad and math.abs(lambda) > rad then
-          row.warning = string.format("|lambda| = %g is beyond the series' estimated radius %.4g (%s)", math.abs(lambda),
-            rad, rnote)
-        end
-      end
-      if not row.warning and row.overlap and row.overlap < 0.5 then
-        row.warning = string.format("paired with exact level %d by an overlap of only %.3g: the series state is far" ..
-          " from every exact state", ei, row.overlap)
-      end
+      row.warning = row_warning(s, lev, info, lambda, row)
       out.levels[#out.levels + 1] = row
       if math.abs(err) > out.max_error then out.max_error = math.abs(err) end
     end
@@ -415,8 +422,8 @@ return function(ls, core)
           break
         end
       end
-      local nb = info.neighbour
-      if nb and nb.level and nb.gap < nf * lm * nb.coupling then
+      local nb = neighbour_within(s, info, lm)
+      if nb then
         warn[#warn + 1] = string.format("  level %d: level %d is %.3g away, coupled by %.3g, left outside a model space" ..
           " (%s): the series is unreliable at lambda = %g", lev, nb.level, nb.gap, nb.coupling,
           mode == "exact" and "groups = \"exact\"" or mode == "hand" and "hand-chosen groups"
