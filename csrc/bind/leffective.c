@@ -29,6 +29,104 @@ static int argfail(lua_State *L, lvs_ctx *ctx, int argn) {
   return luaL_argerror(L, argn, lua_tostring(L, -1));
 }
 
+/* the group by labels: B:find(labels[i]) (protected, so a miss names this
+ * function), then the level of H0 that state is; lv GC-owned on the stack */
+static size_t *group_by_labels(lua_State *L, lvs_ctx *ctx, lvs_matrix *h0, size_t n, int bidx, int labidx,
+                               size_t *cnt) {
+  lua_getfield(L, 3, "levels");
+  lua_getfield(L, 3, "window");
+  int other = !lua_isnil(L, -1) || !lua_isnil(L, -2);
+  lua_pop(L, 2);
+  if (other) luaL_argerror(L, 3, "give one of 'levels', 'window' or 'labels'");
+  if (lua_isnil(L, bidx)) luaL_argerror(L, 3, "'labels' needs 'basis' = the basis H0 is written in");
+  if (!lua_istable(L, labidx)) luaL_argerror(L, 3, "'labels' must be a list of state labels");
+  lua_Integer len = (lua_Integer)lua_rawlen(L, labidx);
+  if (len == 0) luaL_argerror(L, 3, "the group of levels is empty");
+  if ((size_t)len > n) len = (lua_Integer)n + 1;
+  size_t *lv = lua_newuserdatauv(L, (size_t)len * sizeof(size_t), 0);
+  for (lua_Integer i = 1; i <= len; i++) {
+    lua_getfield(L, bidx, "find");
+    lua_pushvalue(L, bidx);
+    lua_rawgeti(L, labidx, i);
+    if (lua_pcall(L, 2, 1, 0) != LUA_OK || !lua_isinteger(L, -1)) {
+      lua_pushfstring(L, "'labels'[%I] matches no state of the basis", i);
+      luaL_argerror(L, 3, lua_tostring(L, -1));
+    }
+    size_t state = (size_t)lua_tointeger(L, -1) - 1, level;
+    lua_pop(L, 1);
+    if (lvs_level_of_state(h0, state, &level)) {
+      lua_pushfstring(L, "'labels' needs H0 diagonal in 'basis': %s", lvs_errmsg(ctx));
+      lvs_clear_error(ctx);
+      luaL_argerror(L, 3, lua_tostring(L, -1));
+    }
+    lv[(*cnt)++] = level;
+  }
+  return lv;
+}
+
+/* the group as level numbers, the table at idx; lv GC-owned on the stack */
+static size_t *group_by_levels(lua_State *L, int idx, size_t n, size_t *cnt) {
+  if (!lua_istable(L, idx)) luaL_argerror(L, 3, "'levels' must be a list of level numbers");
+  lua_Integer len = (lua_Integer)lua_rawlen(L, idx);
+  if (len == 0) luaL_argerror(L, 3, "the group of levels is empty");
+  if ((size_t)len > n) len = (lua_Integer)n + 1; /* a repeat or out-of-range entry must exist */
+  size_t *lv = lua_newuserdatauv(L, (size_t)len * sizeof(size_t), 0);
+  for (lua_Integer i = 1; i <= len; i++) {
+    lua_rawgeti(L, idx, i);
+    int isnum;
+    lua_Integer x = lua_tointegerx(L, -1, &isnum);
+    lua_pop(L, 1);
+    if (!isnum) {
+      lua_pushfstring(L, "'levels'[%I] must be an integer level number", i);
+      luaL_argerror(L, 3, lua_tostring(L, -1));
+    }
+    if (x < 1 || (lua_Unsigned)x > n) {
+      lua_pushfstring(L, "level %I is out of range 1..%d", x, (int)n);
+      luaL_argerror(L, 3, lua_tostring(L, -1));
+    }
+    lv[(*cnt)++] = (size_t)(x - 1);
+  }
+  return lv;
+}
+
+/* the group as the levels of H0 inside {lo, hi}, the table at idx */
+static size_t *group_by_window(lua_State *L, lvs_ctx *ctx, lvs_matrix *h0, size_t n, int idx, size_t *cnt) {
+  if (!lua_istable(L, idx)) luaL_argerror(L, 3, "'window' must be {lo, hi}");
+  lua_rawgeti(L, idx, 1);
+  lua_rawgeti(L, idx, 2);
+  if (!lua_isnumber(L, -2) || !lua_isnumber(L, -1)) luaL_argerror(L, 3, "'window' must be {lo, hi}");
+  double lo = lua_tonumber(L, -2), hi = lua_tonumber(L, -1);
+  lua_pop(L, 2);
+  if (!(lo <= hi)) luaL_argerror(L, 3, "'window' = {lo, hi} needs lo <= hi");
+  double *w = lua_newuserdatauv(L, (n ? n : 1) * sizeof(double), 0);
+  int st = lvs_effective_spectrum(h0, w);
+  if (st == LVS_ENOTHERM || st == LVS_EINVAL) {
+    lua_pushfstring(L, "H0: %s", lvs_errmsg(ctx));
+    lvs_clear_error(ctx);
+    luaL_argerror(L, 1, lua_tostring(L, -1));
+  }
+  lvsL_check(L, ctx, st, "effective");
+  size_t *lv = lua_newuserdatauv(L, (n ? n : 1) * sizeof(size_t), 0);
+  for (size_t i = 0; i < n; i++)
+    if (w[i] >= lo && w[i] <= hi) lv[(*cnt)++] = i;
+  if (*cnt == 0) {
+    lua_pushfstring(L, "the group of levels is empty: no level of H0 in the window [%f, %f]", lo, hi);
+    luaL_argerror(L, 3, lua_tostring(L, -1));
+  }
+  return lv;
+}
+
+/* 'basis' (labels of the printout, choice by labels): nil or a basis of n states */
+static void check_basis(lua_State *L, int bidx, size_t n) {
+  if (lua_isnil(L, bidx)) return;
+  if (!luaL_testudata(L, bidx, LVS_BASIS_MT)) luaL_argerror(L, 3, "'basis' must be a basis");
+  lvs_basis *B = lvsL_checkbasis(L, bidx);
+  if (lvs_basis_dim(B) != n) {
+    lua_pushfstring(L, "'basis' has %d states but H0 is %dx%d", (int)lvs_basis_dim(B), (int)n, (int)n);
+    luaL_argerror(L, 3, lua_tostring(L, -1));
+  }
+}
+
 static int l_effective(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_matrix *h0 = lvsL_checkmatrix(L, 1);
@@ -46,105 +144,21 @@ static int l_effective(lua_State *L) {
     lua_pushfstring(L, "H0 must be square, got %dx%d", (int)n, (int)lvs_matrix_cols(h0));
     return luaL_argerror(L, 1, lua_tostring(L, -1));
   }
-  /* the basis (labels of the printout, choice by labels) */
   lua_getfield(L, 3, "basis");
   int bidx = lua_gettop(L);
-  if (!lua_isnil(L, bidx)) {
-    if (!luaL_testudata(L, bidx, LVS_BASIS_MT)) return luaL_argerror(L, 3, "'basis' must be a basis");
-    lvs_basis *B = lvsL_checkbasis(L, bidx);
-    if (lvs_basis_dim(B) != n) {
-      lua_pushfstring(L, "'basis' has %d states but H0 is %dx%d", (int)lvs_basis_dim(B), (int)n, (int)n);
-      return luaL_argerror(L, 3, lua_tostring(L, -1));
-    }
-  }
+  check_basis(L, bidx, n);
   lua_getfield(L, 3, "labels");
   int labidx = lua_gettop(L);
   int haslab = !lua_isnil(L, labidx);
   size_t *lv = NULL, cnt = 0;
-  if (haslab) {
-    lua_getfield(L, 3, "levels");
-    lua_getfield(L, 3, "window");
-    int other = !lua_isnil(L, -1) || !lua_isnil(L, -2);
-    lua_pop(L, 2);
-    if (other) return luaL_argerror(L, 3, "give one of 'levels', 'window' or 'labels'");
-    if (lua_isnil(L, bidx)) return luaL_argerror(L, 3, "'labels' needs 'basis' = the basis H0 is written in");
-    if (!lua_istable(L, labidx)) return luaL_argerror(L, 3, "'labels' must be a list of state labels");
-    lua_Integer len = (lua_Integer)lua_rawlen(L, labidx);
-    if (len == 0) return luaL_argerror(L, 3, "the group of levels is empty");
-    if ((size_t)len > n) len = (lua_Integer)n + 1;
-    lv = lua_newuserdatauv(L, (size_t)len * sizeof(size_t), 0); /* GC-owned */
-    for (lua_Integer i = 1; i <= len; i++) {
-      /* B:find(labels[i]) in protected mode, so a miss names this function */
-      lua_getfield(L, bidx, "find");
-      lua_pushvalue(L, bidx);
-      lua_rawgeti(L, labidx, i);
-      if (lua_pcall(L, 2, 1, 0) != LUA_OK || !lua_isinteger(L, -1)) {
-        lua_pushfstring(L, "'labels'[%I] matches no state of the basis", i);
-        return luaL_argerror(L, 3, lua_tostring(L, -1));
-      }
-      size_t state = (size_t)lua_tointeger(L, -1) - 1, level;
-      lua_pop(L, 1);
-      if (lvs_level_of_state(h0, state, &level)) {
-        lua_pushfstring(L, "'labels' needs H0 diagonal in 'basis': %s", lvs_errmsg(ctx));
-        lvs_clear_error(ctx);
-        return luaL_argerror(L, 3, lua_tostring(L, -1));
-      }
-      lv[cnt++] = level;
-    }
-  }
+  if (haslab) lv = group_by_labels(L, ctx, h0, n, bidx, labidx, &cnt);
   lua_getfield(L, 3, "levels");
   lua_getfield(L, 3, "window");
-  int haslev = !lua_isnil(L, -2), haswin = !lua_isnil(L, -1);
+  int top = lua_gettop(L), haslev = !lua_isnil(L, top - 1), haswin = !lua_isnil(L, top);
   if (!haslab && haslev == haswin)
     return luaL_argerror(L, 3, haslev ? "give either 'levels' or 'window', not both"
                                       : "give the group as 'levels' = {...}, 'window' = {lo, hi} or 'labels' = {...}");
-  if (haslab) {
-    /* chosen above */
-  } else if (haslev) {
-    if (!lua_istable(L, -2)) return luaL_argerror(L, 3, "'levels' must be a list of level numbers");
-    lua_Integer len = (lua_Integer)lua_rawlen(L, -2);
-    if (len == 0) return luaL_argerror(L, 3, "the group of levels is empty");
-    if ((size_t)len > n) len = (lua_Integer)n + 1; /* a repeat or out-of-range entry must exist */
-    lv = lua_newuserdatauv(L, (size_t)len * sizeof(size_t), 0); /* GC-owned */
-    for (lua_Integer i = 1; i <= len; i++) {
-      lua_rawgeti(L, -3, i);
-      int isnum;
-      lua_Integer x = lua_tointegerx(L, -1, &isnum);
-      lua_pop(L, 1);
-      if (!isnum) {
-        lua_pushfstring(L, "'levels'[%I] must be an integer level number", i);
-        return luaL_argerror(L, 3, lua_tostring(L, -1));
-      }
-      if (x < 1 || (lua_Unsigned)x > n) {
-        lua_pushfstring(L, "level %I is out of range 1..%d", x, (int)n);
-        return luaL_argerror(L, 3, lua_tostring(L, -1));
-      }
-      lv[cnt++] = (size_t)(x - 1);
-    }
-  } else {
-    if (!lua_istable(L, -1)) return luaL_argerror(L, 3, "'window' must be {lo, hi}");
-    lua_rawgeti(L, -1, 1);
-    lua_rawgeti(L, -2, 2);
-    if (!lua_isnumber(L, -2) || !lua_isnumber(L, -1)) return luaL_argerror(L, 3, "'window' must be {lo, hi}");
-    double lo = lua_tonumber(L, -2), hi = lua_tonumber(L, -1);
-    lua_pop(L, 2);
-    if (!(lo <= hi)) return luaL_argerror(L, 3, "'window' = {lo, hi} needs lo <= hi");
-    double *w = lua_newuserdatauv(L, (n ? n : 1) * sizeof(double), 0);
-    int st = lvs_effective_spectrum(h0, w);
-    if (st == LVS_ENOTHERM || st == LVS_EINVAL) {
-      lua_pushfstring(L, "H0: %s", lvs_errmsg(ctx));
-      lvs_clear_error(ctx);
-      return luaL_argerror(L, 1, lua_tostring(L, -1));
-    }
-    lvsL_check(L, ctx, st, "effective");
-    lv = lua_newuserdatauv(L, (n ? n : 1) * sizeof(size_t), 0);
-    for (size_t i = 0; i < n; i++)
-      if (w[i] >= lo && w[i] <= hi) lv[cnt++] = i;
-    if (cnt == 0) {
-      lua_pushfstring(L, "the group of levels is empty: no level of H0 in the window [%f, %f]", lo, hi);
-      return luaL_argerror(L, 3, lua_tostring(L, -1));
-    }
-  }
+  if (!haslab) lv = haslev ? group_by_levels(L, top - 1, n, &cnt) : group_by_window(L, ctx, h0, n, top, &cnt);
   lvs_effective **out = lua_newuserdatauv(L, sizeof *out, 1);
   *out = NULL;
   luaL_setmetatable(L, LVS_EFFECTIVE_MT);

@@ -249,6 +249,84 @@ static int gemm(lvs_ctx *ctx, int real, int conjA, size_t m, size_t nn, size_t k
 /* Fills g->om[1..nom] (om[0] is the identity on P, not stored) and W(k)
  * (d x d, column-major) at W + (k-1) d^2, k = 1..K. Omega(k) is written in
  * place: its row range is known before V is applied. */
+/* column a of the identity on P (d > 1: x0 is the caller's scratch of d) */
+static const dc *bg_unit(dc *x0, size_t d, size_t a) {
+  static const dc one1 = 1.0;
+  if (d == 1) return &one1;
+  if (a) x0[a - 1] = 0;
+  x0[a] = 1.0;
+  return x0;
+}
+
+/* rows [lo, hi) that Omega(k) occupies: V Omega(k-1)'s rows [ylo, yhi)
+ * joined with every earlier Omega(i)'s (P's rows alone when only W(k) is
+ * wanted) */
+static void bg_rows(const sgroup *g, int k, int last, size_t ylo, size_t yhi, size_t *plo, size_t *phi) {
+  size_t lo = ylo, hi = yhi;
+  if (last) {
+    lo = g->g0, hi = g->g0 + g->d;
+  } else {
+    if (lo >= hi) lo = SIZE_MAX, hi = 0;
+    for (int i = 1; i < k; i++)
+      if (g->lo[i] < g->hi[i]) {
+        if (g->lo[i] < lo) lo = g->lo[i];
+        if (g->hi[i] > hi) hi = g->hi[i];
+      }
+    if (lo >= hi) lo = hi = g->g0;
+  }
+  *plo = lo, *phi = hi;
+}
+
+/* ok (on x d, rows [lo, lo + on)) = V Omega(k-1); a product's rows outside
+ * the block go through the scratch column tmp (clip) */
+static void bg_product(const wop *V, const sgroup *g, int k, dc *x0, dc *tmp, int clip, size_t ylo, size_t yhi,
+                       size_t lo, size_t on, dc *ok) {
+  size_t d = g->d, plo = g->lo[k - 1], phi = g->hi[k - 1], pn = phi - plo;
+  for (size_t a = 0; a < d; a++) {
+    const dc *x = k == 1 ? bg_unit(x0, d, a) : g->om[k - 1] + a * pn;
+    if (!clip) {
+      wop_apply(V, x, plo, phi, ok + a * on + (ylo - lo), ylo);
+    } else {
+      memset(tmp, 0, (yhi - ylo) * sizeof *tmp);
+      wop_apply(V, x, plo, phi, tmp, ylo);
+      for (size_t r = lo; r < lo + on; r++)
+        if (r >= ylo && r < yhi) ok[a * on + (r - lo)] = tmp[r - ylo];
+    }
+  }
+}
+
+/* Omega(k) from ok = V Omega(k-1): minus sum_i Omega(i) W(k-i), divided by
+ * E_P - E_m off P and zero on P; an all-zero result gets an empty row range */
+static void bg_resolve(sgroup *g, int k, const dc *W, const double *E, dc *ok, size_t lo, size_t on) {
+  size_t d = g->d, g0 = g->g0, g1 = g0 + d, dd = d * d;
+  for (int i = 1; i < k; i++) {
+    size_t il = g->lo[i], in = g->hi[i] - il;
+    if (!in) continue;
+    const dc *oi = g->om[i], *wk = W + (size_t)(k - i - 1) * dd;
+    if (d == 1) {
+      dc c = wk[0];
+      dc *dst = ok + (il - lo);
+      for (size_t r = 0; r < in; r++) dst[r] -= oi[r] * c;
+    } else {
+      dc mone = -1.0, one = 1.0;
+      cblas_zgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, (int)in, (int)d, (int)d, &mone, oi, (int)in, wk, (int)d,
+                  &one, ok + (il - lo), (int)on);
+    }
+  }
+  for (size_t r = 0; r < on; r++) {
+    size_t m = lo + r;
+    if (m >= g0 && m < g1) {
+      for (size_t a = 0; a < d; a++) ok[r + a * on] = 0.0;
+    } else {
+      double den = g->ep - E[m];
+      for (size_t a = 0; a < d; a++) ok[r + a * on] /= den;
+    }
+  }
+  size_t nz = 0;
+  while (nz < on * d && ok[nz] == 0) nz++;
+  if (nz == on * d) g->hi[k] = g->lo[k];
+}
+
 static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, int K, dc *W) {
   size_t d = g->d, g0 = g->g0, g1 = g0 + d, dd = d * d;
   int st = LVS_OK;
@@ -260,39 +338,19 @@ static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, i
     if (!x0) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
   }
   for (int k = 1; k <= K && !st; k++) {
-    size_t plo = g->lo[k - 1], phi = g->hi[k - 1], pn = phi - plo, ylo, yhi;
+    size_t plo = g->lo[k - 1], phi = g->hi[k - 1], ylo, yhi, lo, hi;
     wop_range(V, plo, phi, &ylo, &yhi);
     dc *Wk = W + (size_t)(k - 1) * dd;
     int last = k > g->nom; /* only W(k) is wanted: P rows of V Omega(k-1) */
     /* Omega(k-1) identically zero (V does not leave P, e.g. a conserved
      * quantity): W(k) = P V Omega(k-1) = 0, and W is zeroed already */
     if (last && k > 1 && plo >= phi) continue;
-    size_t lo = ylo, hi = yhi;
-    if (last) {
-      lo = g0, hi = g1;
-    } else {
-      if (lo >= hi) lo = SIZE_MAX, hi = 0;
-      for (int i = 1; i < k; i++)
-        if (g->lo[i] < g->hi[i]) {
-          if (g->lo[i] < lo) lo = g->lo[i];
-          if (g->hi[i] > hi) hi = g->hi[i];
-        }
-      if (lo >= hi) lo = hi = g0;
-    }
+    bg_rows(g, k, last, ylo, yhi, &lo, &hi);
     if (!last && k == 1 && lo >= g0 && hi <= g1) {
       if (ylo >= yhi) ylo = yhi = g0; /* V has no entries in these columns */
       /* V maps P into P: Omega(1) (zero on P) vanishes, and W(1) = P V P is
        * the product itself, written straight into W(1) */
-      for (size_t a = 0; a < d; a++) {
-        if (d == 1) {
-          static const dc one1 = 1.0;
-          wop_apply(V, &one1, plo, phi, Wk + (ylo - g0), ylo);
-        } else {
-          if (a) x0[a - 1] = 0;
-          x0[a] = 1.0;
-          wop_apply(V, x0, plo, phi, Wk + a * d + (ylo - g0), ylo);
-        }
-      }
+      for (size_t a = 0; a < d; a++) wop_apply(V, bg_unit(x0, d, a), plo, phi, Wk + a * d + (ylo - g0), ylo);
       g->om[k] = NULL;
       g->lo[k] = g->hi[k] = g0;
       continue;
@@ -308,29 +366,7 @@ static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, i
       st = lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory (group of %zu levels, order %d)", d, K);
       break;
     }
-    for (size_t a = 0; a < d; a++) {
-      const dc *x;
-      if (k == 1) {
-        if (d == 1) {
-          static const dc one1 = 1.0;
-          x = &one1;
-        } else {
-          if (a) x0[a - 1] = 0;
-          x0[a] = 1.0;
-          x = x0;
-        }
-      } else {
-        x = g->om[k - 1] + a * pn;
-      }
-      if (!clip) {
-        wop_apply(V, x, plo, phi, ok + a * on + (ylo - lo), ylo);
-      } else {
-        memset(tmp, 0, (yhi - ylo) * sizeof *tmp);
-        wop_apply(V, x, plo, phi, tmp, ylo);
-        for (size_t r = lo; r < hi; r++)
-          if (r >= ylo && r < yhi) ok[a * on + (r - lo)] = tmp[r - ylo];
-      }
-    }
+    bg_product(V, g, k, x0, tmp, clip, ylo, yhi, lo, on, ok);
     for (size_t a = 0; a < d; a++)
       for (size_t b = 0; b < d; b++) {
         size_t r = g0 + b;
@@ -343,33 +379,7 @@ static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, i
     g->om[k] = ok;
     g->lo[k] = lo;
     g->hi[k] = hi;
-    for (int i = 1; i < k; i++) {
-      size_t il = g->lo[i], in = g->hi[i] - il;
-      if (!in) continue;
-      const dc *oi = g->om[i], *wk = W + (size_t)(k - i - 1) * dd;
-      if (d == 1) {
-        dc c = wk[0];
-        dc *dst = ok + (il - lo);
-        for (size_t r = 0; r < in; r++) dst[r] -= oi[r] * c;
-      } else {
-        dc mone = -1.0, one = 1.0;
-        cblas_zgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, (int)in, (int)d, (int)d, &mone, oi, (int)in, wk,
-                    (int)d, &one, ok + (il - lo), (int)on);
-      }
-    }
-    for (size_t r = 0; r < on; r++) {
-      size_t m = lo + r;
-      if (m >= g0 && m < g1) {
-        for (size_t a = 0; a < d; a++) ok[r + a * on] = 0.0;
-      } else {
-        double den = g->ep - E[m];
-        for (size_t a = 0; a < d; a++) ok[r + a * on] /= den;
-      }
-    }
-    /* an all-zero Omega(k) gets an empty row range: later orders skip it */
-    size_t nz = 0;
-    while (nz < on * d && ok[nz] == 0) nz++;
-    if (nz == on * d) g->hi[k] = g->lo[k];
+    bg_resolve(g, k, W, E, ok, lo, on);
   }
   lvsi_free(ctx, x0);
   lvsi_free(ctx, tmp);
