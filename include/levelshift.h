@@ -191,6 +191,9 @@ LVS_API size_t lvs_basis_nlabels(const lvs_basis *b);
 LVS_API const char *lvs_basis_label_name(const lvs_basis *b, size_t k);
 /* label k of state s (0-based) */
 LVS_API double lvs_basis_label(const lvs_basis *b, size_t s, size_t k);
+/* 1 and *idx (0-based) for the first state whose nlabels labels equal
+ * want[] (within 1e-9), 0 when none does */
+LVS_API int lvs_basis_find(const lvs_basis *b, const double *want, size_t *idx);
 /* The named standard operator of a basis ("x", "p", "number", "lower",
  * "raise"; "Sx", "Sy", "Sz", "Sp", "Sm"; "identity"). site is 0 for a
  * single basis, or 1..sites for a site of a product. */
@@ -200,6 +203,34 @@ LVS_API int lvs_basis_op(const lvs_basis *b, size_t site, const char *name,
  * space zero). */
 LVS_API int lvs_basis_embed(const lvs_basis *b, const lvs_matrix *plain,
                             lvs_matrix **out);
+
+/* ---- site sums: ops of a product basis kept as terms ------------------- */
+/* An op of a product basis (no padded site) held as a sum of terms
+ * c * f_1 (x) f_2 (x) ... (one small factor per site it acts on), combined
+ * by sums and products of the terms and written out into sparse storage
+ * once by lvs_localsum_matrix (no full-size intermediate; localsum.c).
+ * lvs_localsum_pays: 1 when the product is large enough for it to pay (and
+ * has no padded site). lvs_localsum_site: the named op of site (1-based) as
+ * lvs_basis_op names it ("identity": the identity term). _sum: sum_k
+ * coef[k] terms[k] (coef NULL: ones; terms[k] NULL: the identity);
+ * compatible: same site dimensions. Results hold at most
+ * LVS_LOCALSUM_MAX_TERMS terms (LVS_ECAP above). _matrix: the sparse op
+ * (dense only when small and full, as lvs_matrix_sum decides), entries
+ * merged per column with exact zeros dropped. */
+#define LVS_LOCALSUM_MAX_TERMS 65536
+typedef struct lvs_localsum lvs_localsum;
+LVS_API int lvs_localsum_pays(const lvs_basis *b);
+LVS_API int lvs_localsum_site(const lvs_basis *b, size_t site, const char *name, lvs_localsum **out);
+LVS_API int lvs_localsum_sum(lvs_ctx *ctx, size_t count, const double (*coef)[2],
+                             const lvs_localsum *const *terms, lvs_localsum **out);
+LVS_API int lvs_localsum_mul(const lvs_localsum *a, const lvs_localsum *b, lvs_localsum **out);
+LVS_API int lvs_localsum_compatible(const lvs_localsum *a, const lvs_localsum *b);
+LVS_API size_t lvs_localsum_terms(const lvs_localsum *s);
+LVS_API size_t lvs_localsum_dim(const lvs_localsum *s);
+LVS_API int lvs_localsum_is_complex(const lvs_localsum *s);
+LVS_API lvs_ctx *lvs_localsum_ctx(const lvs_localsum *s);
+LVS_API int lvs_localsum_matrix(const lvs_localsum *s, lvs_matrix **out);
+LVS_API void lvs_localsum_free(lvs_localsum *s);
 
 /* ---- exact spectra ----------------------------------------------------- */
 /* Eigenvalues (ascending) and eigenvectors of a Hermitian op (visible

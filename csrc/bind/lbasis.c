@@ -347,11 +347,8 @@ static size_t find_state(lua_State *L, int budx, lvs_basis *b, int idx, const ch
   } else {
     luaL_typeerror(L, argn, "table of labels");
   }
-  for (size_t s = 0; s < n; s++) {
-    size_t k = 0;
-    while (k < nl && fabs(lvs_basis_label(b, s, k) - want[k]) < 1e-9) k++;
-    if (k == nl) return s;
-  }
+  size_t s;
+  if (lvs_basis_find(b, want, &s)) return s;
   luaL_argerror(L, argn, "no state of the basis has these labels");
   return 0;
 }
@@ -375,10 +372,33 @@ static int b_state(lua_State *L) {
   return 1;
 }
 
+/* the op of a site; on a large product basis without padding it stays a
+ * site sum (localsum.c) until something needs its entries */
 static int push_op(lua_State *L, lvs_basis *b, size_t site, const char *name) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_matrix **out = lvsL_newmatrix(L);
+  if (site > 0 && lvs_localsum_pays(b)) {
+    lvs_localsum *s;
+    lvsL_check(L, ctx, lvs_localsum_site(b, site, name, &s), name);
+    out[2] = (lvs_matrix *)(void *)s;
+    return 1;
+  }
   lvsL_check(L, ctx, lvs_basis_op(b, site, name, out), name);
+  return 1;
+}
+
+/* ls._site_sum(P, i, name): the op of site i as a site sum whatever the
+ * basis size (for the specs: the same op both ways) */
+static int l_site_sum(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_basis *b = lvsL_checkbasis(L, 1);
+  lua_Integer i = luaL_checkinteger(L, 2);
+  const char *name = luaL_checkstring(L, 3);
+  luaL_argcheck(L, i >= 1, 2, "site index must be positive");
+  lvs_matrix **out = lvsL_newmatrix(L);
+  lvs_localsum *s;
+  lvsL_check(L, ctx, lvs_localsum_site(b, (size_t)i, name, &s), "_site_sum");
+  out[2] = (lvs_matrix *)(void *)s;
   return 1;
 }
 
@@ -465,6 +485,6 @@ void lvsL_open_basis(lua_State *L, int ctxidx) {
   lua_pop(L, 1);
 
   static const luaL_Reg fns[] = {{"basis", l_basis}, {"oscillator", l_oscillator}, {"spin", l_spin},
-                                 {"product", l_product}, {NULL, NULL}};
+                                 {"product", l_product}, {"_site_sum", l_site_sum}, {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);
 }

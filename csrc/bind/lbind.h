@@ -21,6 +21,11 @@ int lvsL_check(lua_State *L, lvs_ctx *ctx, int st, const char *fname);
 lvs_matrix **lvsL_newmatrix(lua_State *L);           /* pushes empty userdata */
 lvs_matrix *lvsL_checkmatrix(lua_State *L, int idx); /* type + closed check */
 lvs_matrix *lvsL_testmatrix(lua_State *L, int idx);  /* NULL if not a matrix */
+/* ops of a product basis held as site sums (localsum.c): check and test
+ * write one out on first use; pushlocalsum takes ownership of s;
+ * testlocalsum: the sum of a not yet written-out op, else NULL */
+void lvsL_pushlocalsum(lua_State *L, lvs_localsum *s);
+lvs_localsum *lvsL_testlocalsum(lua_State *L, int idx);
 /* a number or a levelshift.complex at idx: 1 and z set, else 0 */
 int lvsL_toscalar(lua_State *L, int idx, double z[2]);
 void lvsL_pushcomplex(lua_State *L, double re, double im);

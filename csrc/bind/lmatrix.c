@@ -37,28 +37,60 @@ int lvsL_toscalar(lua_State *L, int idx, double z[2]) {
 lvs_matrix **lvsL_newmatrix(lua_State *L) {
   lvsL_gcstep(L);
   /* p[0]: the matrix (NULL once closed); p[1]: one closed while a binding
-   * was running below, freed by __gc (see lvsL_inside_binding) */
-  lvs_matrix **p = lua_newuserdatauv(L, 2 * sizeof *p, 1);
-  p[0] = p[1] = NULL;
+   * was running below, freed by __gc (see lvsL_inside_binding); p[2]: an op
+   * of a product basis still held as a site sum (p[0] NULL until something
+   * needs its entries; see localsum.c) */
+  lvs_matrix **p = lua_newuserdatauv(L, 3 * sizeof *p, 1);
+  p[0] = p[1] = p[2] = NULL;
   luaL_setmetatable(L, LVS_MATRIX_MT);
   return p;
+}
+
+void lvsL_pushlocalsum(lua_State *L, lvs_localsum *s) {
+  lvs_matrix **p = lvsL_newmatrix(L);
+  p[2] = (lvs_matrix *)(void *)s;
+}
+
+lvs_localsum *lvsL_testlocalsum(lua_State *L, int idx) {
+  lvs_matrix **p = luaL_testudata(L, idx, LVS_MATRIX_MT);
+  return (p && !p[0]) ? (lvs_localsum *)(void *)p[2] : NULL;
+}
+
+/* the entries of a site sum, written out once (the op keeps them) */
+static lvs_matrix *written_out(lua_State *L, int idx, lvs_matrix **p) {
+  lvs_localsum *s = (lvs_localsum *)(void *)p[2];
+  lvs_matrix *m;
+  if (lvs_localsum_matrix(s, &m)) {
+    lvs_ctx *ctx = lvs_localsum_ctx(s);
+    lua_pushfstring(L, "writing out the operator: %s", lvs_errmsg(ctx));
+    lvs_clear_error(ctx);
+    luaL_argerror(L, lua_absindex(L, idx), lua_tostring(L, -1));
+  }
+  p[0] = m;
+  p[2] = NULL;
+  lvs_localsum_free(s);
+  return m;
 }
 
 lvs_matrix *lvsL_testmatrix(lua_State *L, int idx) {
   lvs_matrix **p = luaL_testudata(L, idx, LVS_MATRIX_MT);
   if (!p) return NULL;
+  if (!*p && p[2]) return written_out(L, idx, p);
   if (!*p) luaL_argerror(L, idx, "attempt to use a closed matrix");
   return *p;
 }
 
 lvs_matrix *lvsL_checkmatrix(lua_State *L, int idx) {
   lvs_matrix **p = luaL_checkudata(L, idx, LVS_MATRIX_MT);
+  if (!*p && p[2]) return written_out(L, idx, p);
   if (!*p) luaL_argerror(L, idx, "attempt to use a closed matrix");
   return *p;
 }
 
 static int l_close(lua_State *L) {
   lvs_matrix **p = luaL_checkudata(L, 1, LVS_MATRIX_MT);
+  lvs_localsum_free((lvs_localsum *)(void *)p[2]); /* no binding holds a site sum */
+  p[2] = NULL;
   if (*p && lvsL_inside_binding(L)) p[1] = *p; /* a caller below may hold it */
   else lvs_matrix_free(*p);
   *p = NULL;
@@ -70,7 +102,8 @@ static int l_gc(lua_State *L) {
   if (lvsL_gc_by_hand(L)) return l_close(L); /* a script's call: maybe in use */
   lvs_matrix_free(p[0]);
   lvs_matrix_free(p[1]);
-  p[0] = p[1] = NULL;
+  lvs_localsum_free((lvs_localsum *)(void *)p[2]);
+  p[0] = p[1] = p[2] = NULL;
   return 0;
 }
 
@@ -78,11 +111,71 @@ static void checkfinite(lua_State *L, const double z[2], int arg) {
   if (!isfinite(z[0]) || !isfinite(z[1])) luaL_argerror(L, arg, "scalar is NaN or infinite");
 }
 
+/* Arithmetic of site sums (ops of a product basis not yet written out):
+ * sums, differences, scalar multiples and products of two sums stay sums;
+ * 1 with the result pushed, 0 when the operands need the general path
+ * (a written-out op, another basis, a product past the term limit). */
+static int site_sum_arith(lua_State *L, char op, const char *name, int sa, const double za[2], int sb,
+                          const double zb[2]) {
+  lvs_localsum *a = sa ? NULL : lvsL_testlocalsum(L, 1);
+  lvs_localsum *b = sb ? NULL : lvsL_testlocalsum(L, 2);
+  if ((!a && !sa) || (!b && !sb) || (sa && sb)) return 0;
+  if (a && b && !lvs_localsum_compatible(a, b)) return 0;
+  if (op == '/' && (!sb || (zb[0] == 0.0 && zb[1] == 0.0))) return 0; /* the general path's errors */
+  if (op == '*' && a && b && lvs_localsum_terms(a) * lvs_localsum_terms(b) > 4096) return 0;
+  lvs_ctx *ctx = lvs_localsum_ctx(a ? a : b);
+  lvs_matrix **out = lvsL_newmatrix(L); /* first: nothing leaks if it raises */
+  const lvs_localsum *t[2] = {a, b};
+  double c[2][2] = {{1, 0}, {1, 0}};
+  if (sa) c[0][0] = za[0], c[0][1] = za[1];
+  if (sb) c[1][0] = zb[0], c[1][1] = zb[1];
+  lvs_localsum *r = NULL;
+  int st;
+  switch (op) {
+    case '-':
+      c[1][0] = -c[1][0];
+      c[1][1] = -c[1][1];
+      /* fall through */
+    case '+':
+      st = lvs_localsum_sum(ctx, 2, (const double (*)[2])c, t, &r);
+      break;
+    case '*':
+      if (a && b) {
+        st = lvs_localsum_mul(a, b, &r);
+      } else {
+        double z[2] = {sa ? za[0] : zb[0], sa ? za[1] : zb[1]};
+        const lvs_localsum *one[1] = {a ? a : b};
+        st = lvs_localsum_sum(ctx, 1, (const double (*)[2])&z, one, &r);
+      }
+      break;
+    default: { /* '/' by a nonzero scalar */
+      double d = zb[0] * zb[0] + zb[1] * zb[1];
+      double z[2] = {zb[0] / d, -zb[1] / d};
+      const lvs_localsum *one[1] = {a};
+      st = lvs_localsum_sum(ctx, 1, (const double (*)[2])&z, one, &r);
+      break;
+    }
+  }
+  if (st == LVS_ECAP) { /* past the term limit: the general path */
+    lvs_clear_error(ctx);
+    lua_pop(L, 1);
+    return 0;
+  }
+  lvsL_check(L, ctx, st, name);
+  out[2] = (lvs_matrix *)(void *)r;
+  return 1;
+}
+
 /* One arithmetic entry for both metatables: op is '+', '-', '*', '/'. */
 static int arith(lua_State *L, char op, const char *name) {
   lvs_ctx *ctx = lvsL_ctx(L);
   double za[2], zb[2];
   int sa = lvsL_toscalar(L, 1, za), sb = lvsL_toscalar(L, 2, zb);
+  if (!(sa && sb)) {
+    if (sa) checkfinite(L, za, 1);
+    if (sb) checkfinite(L, zb, 2);
+    if (site_sum_arith(L, op, name, sa, za, sb, zb)) return 1;
+  }
   lvs_matrix *a = sa ? NULL : lvsL_testmatrix(L, 1);
   lvs_matrix *b = sb ? NULL : lvsL_testmatrix(L, 2);
   if (!sa && !a) return luaL_typeerror(L, 1, "levelshift.matrix or number");
@@ -175,21 +268,61 @@ static int m_unm(lua_State *L) {
     lvsL_pushcomplex(L, -z[0], -z[1]);
     return 1;
   }
+  const double mone[2] = {-1, 0};
+  lvs_localsum *s = lvsL_testlocalsum(L, 1);
+  if (s) {
+    lvs_matrix **out = lvsL_newmatrix(L);
+    lvs_localsum *r;
+    const lvs_localsum *one[1] = {s};
+    lvsL_check(L, ctx, lvs_localsum_sum(lvs_localsum_ctx(s), 1, &mone, one, &r), "unm");
+    out[2] = (lvs_matrix *)(void *)r;
+    return 1;
+  }
   lvs_matrix *a = lvsL_checkmatrix(L, 1);
   lvs_matrix **out = lvsL_newmatrix(L);
-  const double mone[2] = {-1, 0};
   lvsL_check(L, ctx, lvs_matrix_scale(a, mone, out), "unm");
+  return 1;
+}
+
+/* a site sum to the power k >= 1 by repeated products; 0 when the terms
+ * would pass the limit (the general path then) */
+static int site_sum_pow(lua_State *L, lvs_localsum *s, lua_Integer k) {
+  lvs_ctx *ctx = lvs_localsum_ctx(s);
+  lvs_matrix **out = lvsL_newmatrix(L);
+  const double one[1][2] = {{1, 0}};
+  const lvs_localsum *self[1] = {s};
+  lvs_localsum *r = NULL, *t;
+  int st = lvs_localsum_sum(ctx, 1, one, self, &r);
+  for (lua_Integer q = 1; !st && q < k; q++) {
+    if (lvs_localsum_terms(r) * lvs_localsum_terms(s) > 4096) {
+      st = LVS_ECAP;
+      break;
+    }
+    st = lvs_localsum_mul(r, s, &t);
+    lvs_localsum_free(r);
+    r = st ? NULL : t;
+  }
+  if (st == LVS_ECAP) {
+    lvs_clear_error(ctx);
+    lvs_localsum_free(r);
+    lua_pop(L, 1);
+    return 0;
+  }
+  lvsL_check(L, ctx, st, "pow");
+  out[2] = (lvs_matrix *)(void *)r;
   return 1;
 }
 
 static int m_pow(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
-  lvs_matrix *a = lvsL_checkmatrix(L, 1);
   int ok;
   lua_Integer k = lua_tointegerx(L, 2, &ok);
   luaL_argcheck(L, ok, 2, "power must be an integer");
   luaL_argcheck(L, k >= 0, 2, "power must be non-negative");
   luaL_argcheck(L, k <= 10000, 2, "power is absurdly large (above 10000)");
+  lvs_localsum *s = lvsL_testlocalsum(L, 1);
+  if (s && k > 0 && k <= 64 && site_sum_pow(L, s, k)) return 1;
+  lvs_matrix *a = lvsL_checkmatrix(L, 1);
   if (lvs_matrix_rows(a) != lvs_matrix_cols(a))
     return luaL_argerror(L, 1, "power needs a square matrix");
   lvs_matrix **out = lvsL_newmatrix(L);
@@ -238,6 +371,12 @@ static int m_set(lua_State *L) {
 }
 
 static int m_dim(lua_State *L) {
+  lvs_localsum *s = lvsL_testlocalsum(L, 1);
+  if (s) { /* known without writing it out */
+    lua_pushinteger(L, (lua_Integer)lvs_localsum_dim(s));
+    lua_pushinteger(L, (lua_Integer)lvs_localsum_dim(s));
+    return 2;
+  }
   lvs_matrix *a = lvsL_checkmatrix(L, 1);
   lua_pushinteger(L, (lua_Integer)lvs_matrix_rows(a));
   lua_pushinteger(L, (lua_Integer)lvs_matrix_cols(a));
@@ -332,6 +471,7 @@ static void fmtnum(char *buf, size_t len, double re, double im, int cplx) {
 
 static int m_tostring(lua_State *L) {
   lvs_matrix **p = luaL_checkudata(L, 1, LVS_MATRIX_MT);
+  if (!*p && p[2]) lvsL_checkmatrix(L, 1); /* a site sum: written out */
   if (!*p) {
     lua_pushstring(L, "levelshift.matrix (closed)");
     return 1;
@@ -428,6 +568,43 @@ static int l_zeros(lua_State *L) {
 /* ls._sum_terms(list): the sum of a sequence of ops and scalars (a scalar
  * means scalar times the identity) in one pass (lvs_matrix_sum); ls.sum
  * hands it batches of its terms. */
+/* _sum_terms of site sums only (scalars as identity terms): a site sum;
+ * 0 when a term is anything else or lives on another basis */
+static int sum_site_terms(lua_State *L, lua_Integer n) {
+  const lvs_localsum *first = NULL;
+  for (lua_Integer k = 1; k <= n; k++) {
+    lua_rawgeti(L, 1, k);
+    double z[2];
+    const lvs_localsum *s = lvsL_toscalar(L, -1, z) ? NULL : lvsL_testlocalsum(L, -1);
+    int scalar = lvsL_toscalar(L, -1, z) && isfinite(z[0]) && isfinite(z[1]);
+    lua_pop(L, 1);
+    if (!s && !scalar) return 0;
+    if (s && first && !lvs_localsum_compatible(first, s)) return 0;
+    if (s && !first) first = s;
+  }
+  if (!first) return 0;
+  lvs_ctx *ctx = lvs_localsum_ctx(first);
+  lvs_matrix **out = lvsL_newmatrix(L);
+  const lvs_localsum **terms = lua_newuserdatauv(L, (size_t)n * sizeof *terms, 0);
+  double (*coef)[2] = lua_newuserdatauv(L, (size_t)n * sizeof *coef, 0);
+  for (lua_Integer k = 1; k <= n; k++) { /* the values stay referenced by the list */
+    lua_rawgeti(L, 1, k);
+    coef[k - 1][0] = 1.0;
+    coef[k - 1][1] = 0.0;
+    terms[k - 1] = lvsL_toscalar(L, -1, coef[k - 1]) ? NULL : lvsL_testlocalsum(L, -1);
+    lua_pop(L, 1);
+  }
+  lvs_localsum *r;
+  lvsL_check(L, ctx, lvs_localsum_sum(ctx, (size_t)n, (const double (*)[2])coef, terms, &r), "sum");
+  out[2] = (lvs_matrix *)(void *)r;
+  lua_pop(L, 2);
+  return 1;
+}
+
+/* ls._sum_terms(list): the sum of a sequence of ops and scalars (a scalar
+ * means scalar times the identity) in one pass (lvs_matrix_sum, or
+ * lvs_localsum_sum when every op is a site sum of one basis); ls.sum hands
+ * it batches of its terms. */
 static int l_sum_terms(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   luaL_checktype(L, 1, LUA_TTABLE);
@@ -435,6 +612,7 @@ static int l_sum_terms(lua_State *L) {
   luaL_argcheck(L, n > 0, 1, "needs at least one term");
   luaL_argcheck(L, (size_t)n <= ((size_t)-1) / (sizeof(lvs_matrix *) + 2 * sizeof(double)), 1,
                 "too many terms");
+  if (sum_site_terms(L, n)) return 1;
   /* scratch in userdata: nothing leaks when a check below raises */
   const lvs_matrix **terms = lua_newuserdatauv(L, (size_t)n * sizeof *terms, 0);
   double (*coef)[2] = lua_newuserdatauv(L, (size_t)n * sizeof *coef, 0);
@@ -451,11 +629,11 @@ static int l_sum_terms(lua_State *L) {
       coef[k - 1][1] = z[1];
     } else {
       lvs_matrix **p = luaL_testudata(L, -1, LVS_MATRIX_MT);
-      if (!p || !*p) {
+      if (!p || (!p[0] && !p[2])) {
         lua_pushfstring(L, "term %d is %s", (int)k, p ? "a closed matrix" : "not a matrix or a number");
         return luaL_argerror(L, 1, lua_tostring(L, -1));
       }
-      terms[k - 1] = *p;
+      terms[k - 1] = lvsL_testmatrix(L, -1); /* a site sum is written out */
       coef[k - 1][0] = 1.0;
       coef[k - 1][1] = 0.0;
     }
@@ -463,6 +641,12 @@ static int l_sum_terms(lua_State *L) {
   }
   lvs_matrix **out = lvsL_newmatrix(L);
   lvsL_check(L, ctx, lvs_matrix_sum(ctx, (size_t)n, (const double (*)[2])coef, terms, out), "sum");
+  return 1;
+}
+
+/* ls._is_site_sum(x): true for an op still held as a site sum */
+static int l_is_site_sum(lua_State *L) {
+  lua_pushboolean(L, lvsL_testlocalsum(L, 1) != NULL);
   return 1;
 }
 
@@ -523,7 +707,8 @@ void lvsL_open_matrix(lua_State *L, int ctxidx) {
   lua_pop(L, 1);
 
   static const luaL_Reg fns[] = {{"matrix", l_matrix}, {"zeros", l_zeros}, {"complex", l_complex},
-                                 {"_sum_terms", l_sum_terms}, {NULL, NULL}};
+                                 {"_sum_terms", l_sum_terms}, {"_is_site_sum", l_is_site_sum},
+                                 {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);
   lvsL_pushcomplex(L, 0.0, 1.0);
   lua_setfield(L, -2, "I");

@@ -34,7 +34,11 @@ struct lvs_basis {
   lvs_matrix **ops;
 };
 
-static int basis_alloc(lvs_ctx *ctx, lvs_basis_kind kind, size_t n, size_t nlab, lvs_basis **out) {
+/* stored: 0 for a product, whose labels are its sites' (lvs_basis_label
+ * finds them from the state's digits: a 20-site chain's labels would take
+ * 168 MB) */
+static int basis_alloc_ex(lvs_ctx *ctx, lvs_basis_kind kind, size_t n, size_t nlab, int stored,
+                          lvs_basis **out) {
   *out = NULL;
   if (nlab && n > SIZE_MAX / nlab / sizeof(double))
     return lvsi_fail(ctx, LVS_ECAP, "basis of %zu states is too large", n);
@@ -45,13 +49,17 @@ static int basis_alloc(lvs_ctx *ctx, lvs_basis_kind kind, size_t n, size_t nlab,
   b->n = b->m = n;
   b->nlab = nlab;
   b->names = lvsi_calloc(ctx, nlab ? nlab : 1, LABEL_LEN);
-  b->labels = lvsi_calloc(ctx, (n != 0 && nlab != 0) ? n * nlab : 1, sizeof(double));
+  b->labels = lvsi_calloc(ctx, (stored && n != 0 && nlab != 0) ? n * nlab : 1, sizeof(double));
   if (!b->names || !b->labels) {
     lvs_basis_free(b);
     return lvsi_fail(ctx, LVS_ENOMEM, "out of memory allocating basis labels for %zu states", n);
   }
   *out = b;
   return LVS_OK;
+}
+
+static int basis_alloc(lvs_ctx *ctx, lvs_basis_kind kind, size_t n, size_t nlab, lvs_basis **out) {
+  return basis_alloc_ex(ctx, kind, n, nlab, 1, out);
 }
 
 void lvs_basis_free(lvs_basis *b) {
@@ -122,11 +130,12 @@ int lvs_basis_spin(lvs_ctx *ctx, int twoS, lvs_basis **out) {
 }
 
 static int basis_copy(const lvs_basis *a, lvs_basis **out) {
-  int st = basis_alloc(a->ctx, a->kind, a->n, a->nlab, out);
+  int stored = a->kind != LVS_BASIS_PRODUCT;
+  int st = basis_alloc_ex(a->ctx, a->kind, a->n, a->nlab, stored, out);
   if (st) return st;
   lvs_basis *b = *out;
   memcpy(b->names, a->names, a->nlab * LABEL_LEN);
-  memcpy(b->labels, a->labels, a->n * a->nlab * sizeof(double));
+  if (stored) memcpy(b->labels, a->labels, a->n * a->nlab * sizeof(double));
   b->m = a->m;
   b->pad = a->pad;
   b->twoS = a->twoS;
@@ -179,7 +188,7 @@ int lvs_basis_product(lvs_ctx *ctx, const lvs_basis *const *sites, size_t count,
   }
   if (n > ((size_t)1 << 40))
     return lvsi_fail(ctx, LVS_ECAP, "product basis of %zu states is too large", n);
-  int st = basis_alloc(ctx, LVS_BASIS_PRODUCT, n, nlab, out);
+  int st = basis_alloc_ex(ctx, LVS_BASIS_PRODUCT, n, nlab, 0, out);
   if (st) return st;
   lvs_basis *b = *out;
   b->m = m;
@@ -197,9 +206,10 @@ int lvs_basis_product(lvs_ctx *ctx, const lvs_basis *const *sites, size_t count,
     b->vis = lvsi_malloc(ctx, n * sizeof(size_t));
     if (!b->vis) goto nomem;
   }
-  /* states in lexicographic order, first site slowest */
-  for (size_t s = 0; s < n; s++) {
-    size_t rem = s, stored = 0, col = 0;
+  /* states in lexicographic order, first site slowest: the stored index of
+   * each visible state (labels are found when asked for) */
+  for (size_t s = 0; b->vis && s < n; s++) {
+    size_t rem = s, stored = 0;
     size_t stride = n, sstride = m;
     for (size_t i = 0; i < count; i++) {
       const lvs_basis *f = sites[i];
@@ -208,10 +218,8 @@ int lvs_basis_product(lvs_ctx *ctx, const lvs_basis *const *sites, size_t count,
       size_t idx = rem / stride;
       rem %= stride;
       stored += (f->vis ? f->vis[idx] : idx) * sstride;
-      for (size_t l = 0; l < f->nlab; l++) b->labels[s * nlab + col + l] = f->labels[idx * f->nlab + l];
-      col += f->nlab;
     }
-    if (b->vis) b->vis[s] = stored;
+    b->vis[s] = stored;
   }
   return LVS_OK;
 nomem:
@@ -234,9 +242,51 @@ const char *lvs_basis_label_name(const lvs_basis *b, size_t k) {
   return k < b->nlab ? b->names[k] : NULL;
 }
 double lvs_basis_label(const lvs_basis *b, size_t s, size_t k) {
-  return (s < b->n && k < b->nlab) ? b->labels[s * b->nlab + k] : NAN;
+  if (s >= b->n || k >= b->nlab) return NAN;
+  if (b->kind != LVS_BASIS_PRODUCT) return b->labels[s * b->nlab + k];
+  size_t rem = s, stride = b->n, col = 0;
+  for (size_t i = 0; i < b->nsites; i++) {
+    const lvs_basis *f = b->sites[i];
+    stride /= f->n;
+    size_t idx = rem / stride;
+    rem %= stride;
+    if (k < col + f->nlab) return f->labels[idx * f->nlab + (k - col)];
+    col += f->nlab;
+  }
+  return NAN;
 }
+/* the first state whose labels match want (nlab values, within 1e-9),
+ * site by site for a product */
+static int labels_match(const double *have, const double *want, size_t nl) {
+  size_t k = 0;
+  while (k < nl && fabs(have[k] - want[k]) < 1e-9) k++;
+  return k == nl;
+}
+
+int lvs_basis_find(const lvs_basis *b, const double *want, size_t *idx) {
+  if (b->kind != LVS_BASIS_PRODUCT) {
+    for (size_t s = 0; s < b->n; s++)
+      if (labels_match(b->labels + s * b->nlab, want, b->nlab)) {
+        *idx = s;
+        return 1;
+      }
+    return 0;
+  }
+  size_t s = 0, col = 0;
+  for (size_t i = 0; i < b->nsites; i++) {
+    const lvs_basis *f = b->sites[i];
+    size_t j = 0;
+    while (j < f->n && !labels_match(f->labels + j * f->nlab, want + col, f->nlab)) j++;
+    if (j == f->n) return 0;
+    s = s * f->n + j;
+    col += f->nlab;
+  }
+  *idx = s;
+  return 1;
+}
+
 int lvsi_basis_twoS(const lvs_basis *b) { return b->twoS; }
+int lvsi_basis_padded(const lvs_basis *b) { return b->vis != NULL; }
 
 /* A basis of a kind defined in its own file (box.c, rotor.c): n states,
  * nlab labels named names[], all zero until lvsi_basis_set_label; op hands

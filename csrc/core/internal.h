@@ -124,6 +124,7 @@ LVSI int lvsi_basis_new_kind(lvs_ctx *ctx, lvs_basis_kind kind, size_t n, size_t
 LVSI void lvsi_basis_set_label(lvs_basis *b, size_t s, size_t k, double v);
 LVSI const double *lvsi_basis_par(const lvs_basis *b);
 LVSI lvs_ctx *lvsi_basis_ctx(const lvs_basis *b);
+LVSI int lvsi_basis_padded(const lvs_basis *b); /* a product with a padded site */
 
 
 /* mspace.c: model spaces of nearly degenerate levels for the series (see

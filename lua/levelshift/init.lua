@@ -11,6 +11,7 @@ local matrix_methods = core._matrix_methods
 local basis_methods = core._basis_methods
 
 local sum_terms = core._sum_terms
+local is_site_sum = core._is_site_sum
 local complex_mt = getmetatable(core.I)
 local function is_op(x) -- a levelshift.matrix (open or closed)
   local mt = type(x) == "userdata" and getmetatable(x)
@@ -42,6 +43,23 @@ function ls.sum(first, last, f)
   -- batch[1] is acc, batch[k] the term f(at[k]); held: entries of the terms
   -- (a scalar counts as the identity), budget: entries of acc
   local batch, at, nb, held, budget, dim = {}, {}, 0, 0, 0, 0
+  -- terms that are site sums (ops of a large product basis not yet written
+  -- out), and scalars after them, are collected and summed as terms: the
+  -- total is written out once, when something needs its entries
+  local sites, sat
+  local function flush_sites()
+    local r = sites[1]
+    if #sites > 1 then
+      local ok
+      ok, r = pcall(sum_terms, sites)
+      if not ok then
+        r = sites[1]
+        for k = 2, #sites do r = add_term(r, sites[k], sat[k], 4) end
+      end
+    end
+    sites, sat = nil, nil
+    return r
+  end
   local function merge()
     if nb == 0 then return end
     local ok, r = pcall(sum_terms, batch)
@@ -56,7 +74,12 @@ function ls.sum(first, last, f)
   end
   for i = first, last do
     local term = f(i)
-    if term ~= nil then
+    if term ~= nil and acc == nil and not sites and is_site_sum(term) then
+      sites, sat = { term }, { i }
+    elseif term ~= nil and sites and (is_site_sum(term) or math.type(term) or getmetatable(term) == complex_mt) then
+      sites[#sites + 1], sat[#sat + 1] = term, i
+    elseif term ~= nil then
+      if sites then acc = flush_sites() end
       if acc == nil then
         acc = term
       elseif is_op(acc) and (is_op(term) or math.type(term) or getmetatable(term) == complex_mt) then
@@ -85,6 +108,7 @@ function ls.sum(first, last, f)
       end
     end
   end
+  if sites then acc = flush_sites() end
   merge()
   if acc == nil then error("sum: empty range " .. first .. ".." .. last .. " (no terms)", 2) end
   -- the terms' temporaries (site operators, products, scaled copies) are
@@ -92,7 +116,7 @@ function ls.sum(first, last, f)
   -- sees the core's bytes only through its steps, so it would free them
   -- late, and the next large operator would grow the heap instead of
   -- reusing them (a 16-site chain: 50 MB held after a 9 MB bond sum)
-  if is_op(acc) then
+  if is_op(acc) and not is_site_sum(acc) then
     local ok, _, cnt = pcall(acc.storage, acc)
     if ok and cnt and cnt >= (1 << 18) then collectgarbage() end
   end
