@@ -279,4 +279,38 @@ describe("nearly degenerate levels", function()
     assert.is_true(warned >= 1)
     for _, row in ipairs(s:check(30).levels) do assert.is_nil(row.warning) end
   end)
+  it("takes a wanted degenerate group larger than the model-space cap (XX chain, half filling)", function()
+    -- H0 = sum Sz_i, V = XX coupling of an open 6-site chain: the Sz = 0
+    -- level (20 states) is wanted whole; V keeps Sz, so the first-order
+    -- energies are the XX chain's half-filling levels, sums of three of
+    -- the free-fermion energies cos(pi k / 7), k = 1..6 (Lieb, Schultz,
+    -- Mattis, Ann. Phys. 16, 407 (1961)), and the second order vanishes.
+    -- (A group alone past the cap once read V's columns that were never
+    -- loaded: a crash.)
+    local L = 6
+    local P = ls.product(ls.spin(0.5), L)
+    local H0 = ls.sum(1, L, function(i) return P:site(i).Sz end)
+    local V = ls.sum(1, L - 1, function(i)
+      local a, b = P:site(i), P:site(i + 1)
+      return 0.5 * (a.Sp * b.Sm + a.Sm * b.Sp)
+    end)
+    -- levels sorted by energy: Sz = -3, -2, -1 hold 1 + 6 + 15 = 22 below
+    local group = {}
+    for i = 1, 20 do group[i] = 22 + i end
+    local s = ls.perturb(H0, V, {order = 2, levels = group, states = false})
+    local eps = {}
+    for k = 1, L do eps[k] = math.cos(math.pi * k / (L + 1)) end
+    local want = {}
+    for a = 1, L do for b = a + 1, L do for c = b + 1, L do
+      want[#want + 1] = eps[a] + eps[b] + eps[c]
+    end end end
+    table.sort(want)
+    local got = {}
+    for i = 1, 20 do got[i] = s:energy(group[i], 1) end
+    table.sort(got)
+    for i = 1, 20 do
+      assert.is_true(math.abs(got[i] - want[i]) <= 1e-12, i .. ": " .. got[i] .. " vs " .. want[i])
+      assert.is_true(math.abs(s:energy(group[i], 2)) <= 1e-12)
+    end
+  end)
 end)
