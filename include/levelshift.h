@@ -276,6 +276,8 @@ typedef struct {
   const double *start; /* start vector (n values, 2n complex interleaved) or NULL:
                           a fixed pseudo-random one; restricted to each sector */
   struct lvs_eigen_stats *stats; /* NULL, or added to: what the solve cost */
+  int hermitian;       /* nonzero: the caller vouches that the op is Hermitian
+                          (checked once for a family, say), no check here */
 } lvs_eigen_opts;
 /* Counts a solve adds to (the caller zeroes them first): sectors of more
  * than one state solved by ARPACK and by LAPACK, products with H (or

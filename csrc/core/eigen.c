@@ -473,7 +473,7 @@ int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want
   }
   size_t *cc = NULL;
   splan pl = {0};
-  if ((st = lvsi_check_hermitian(a, LVS_DEFAULT_HERM_TOL, "matrix"))) goto done;
+  if (!(o && o->hermitian) && (st = lvsi_check_hermitian(a, LVS_DEFAULT_HERM_TOL, "matrix"))) goto done;
   if (!(cc = lvsi_malloc(ctx, (n ? n : 1) * sizeof(size_t)))) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory in eigen");
     goto done;

@@ -33,7 +33,7 @@
 #include <string.h>
 #include "internal.h"
 
-#define LVSI_KRYLOV_THREAD_NNZ 200000
+#define LVSI_KRYLOV_THREAD_NNZ 100000
 
 /* ---- the product y = H x ---------------------------------------------
  *
