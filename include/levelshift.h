@@ -52,7 +52,8 @@ typedef enum {
   LVS_ENOCONV = 5, /* an iteration did not converge */
   LVS_ELAPACK = 6, /* LAPACK reported a failure */
   LVS_ECAP = 7,    /* a dense allocation would exceed the configured cap */
-  LVS_ENOTHERM = 8 /* a matrix that must be Hermitian is not */
+  LVS_ENOTHERM = 8, /* a matrix that must be Hermitian is not */
+  LVS_ESTOP = 9     /* a host's deadline passed, or the host interrupted the run */
 } lvs_status;
 
 /* ---- context ---------------------------------------------------------- */
@@ -73,6 +74,23 @@ LVS_API int lvs_errcode(const lvs_ctx *ctx);         /* last status */
 LVS_API const char *lvs_errmsg(const lvs_ctx *ctx);  /* owned by ctx */
 LVS_API const char *lvs_strerror(int code);          /* static text */
 LVS_API void lvs_clear_error(lvs_ctx *ctx);
+
+/* Work fence: the core's long loops (Krylov products, series orders, sweep
+ * points, propagation steps, effective-Hamiltonian orders, iterative solves)
+ * poll it, and a dense LAPACK call whose cost cannot fit in the time left
+ * (its flop count at LVS_FENCE_FLOPS, faster than this kind of machine
+ * runs, so only hopeless calls are refused) is refused before it starts;
+ * either stops with LVS_ESTOP ("deadline of 1 s exceeded in eigen",
+ * "interrupted by the host in sweep"). interrupt may be set from any thread.
+ * deadline: lvs_monotonic() seconds at which work stops (0: none); seconds:
+ * its length, for the message. BORROWED by the context (NULL: no fence). */
+typedef struct lvs_fence {
+  volatile int interrupt;
+  double deadline, seconds;
+} lvs_fence;
+#define LVS_FENCE_FLOPS 5e10
+LVS_API void lvs_ctx_set_fence(lvs_ctx *ctx, lvs_fence *fence);
+LVS_API double lvs_monotonic(void); /* seconds of CLOCK_MONOTONIC */
 /* Cap, in bytes, on any single dense allocation (default
  * LVS_DEFAULT_DENSE_CAP). A request above it fails with LVS_ECAP. */
 #define LVS_DEFAULT_DENSE_CAP ((size_t)4 << 30)
@@ -761,12 +779,27 @@ typedef struct {
   int flags;                        /* LVS_HOST_GLOBAL | LVS_HOST_SANDBOX */
   size_t memory_cap;                /* bytes for Lua and the core together; 0 = none */
   unsigned long long instruction_budget; /* VM instructions per run call; 0 = none */
+  const char *write_dir;            /* sandbox: the one directory the library's writers
+                                       may create files in (NULL: none may) */
+  double deadline;                  /* wall-clock seconds per run call; 0 = none */
 } lvs_host_opts;
 /* CONSTRUCTOR with fences (opts NULL = lvs_host_new(0)). A script that
  * passes the memory cap gets "not enough memory" (or the core's "out of
  * memory"); one that passes the budget gets "instruction budget of N
- * exhausted"; in both cases the run returns nonzero and the host goes on. */
+ * exhausted"; one that runs past the deadline "deadline of S s exceeded"
+ * (in Lua, or in the core's long loops, or before a dense LAPACK call that
+ * cannot end in time: see lvs_fence); in every case the run returns nonzero
+ * and the host goes on. In a sandbox, modules and recipes are read only
+ * from the host's own directories (lvs_host_add_path, LVS_PATH, the
+ * library's); writers accept only paths inside write_dir; nothing starts a
+ * program. Returns NULL when the host cannot be set up whole (memory cap
+ * too small, a write_dir that is not a directory, a negative or NaN
+ * deadline, an infinite one): never a half-built sandbox. */
 LVS_API lvs_host *lvs_host_new_ex(const lvs_host_opts *opts);
+/* Stop the run in progress (from any thread, or a signal handler): it ends
+ * with "interrupted by the host" at the next check (Lua: every 1000
+ * instructions; the core: its long loops). The next run starts afresh. */
+LVS_API void lvs_host_interrupt(lvs_host *h);
 LVS_API size_t lvs_host_memory(const lvs_host *h); /* bytes in use now */
 /* BORROWED: the underlying lua_State* (as void* so this header needs no
  * Lua headers). */

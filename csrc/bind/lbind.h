@@ -70,6 +70,14 @@ int lvsL_inside_binding(lua_State *L);
 /* raises "FNAME: writing files is disabled in this sandboxed host" when the
  * host that made this state asked for LVS_HOST_SANDBOX; returns 0 otherwise */
 int lvsL_no_files(lua_State *L, const char *fname);
+/* in a sandboxed host: raise "FNAME: ..." unless the host granted a
+ * writable directory and path (NULL: only the grant is asked) names a
+ * regular file or a new one inside it (no '..', no link as the final
+ * component, its folder resolving inside the directory); 0 otherwise */
+int lvsL_may_write(lua_State *L, const char *fname, const char *path);
+/* 1 unless a sandboxed host's file at path resolves outside every
+ * directory the host reads modules and recipes from */
+int lvsL_may_read(lua_State *L, const char *path);
 void lvsL_gcstep(lua_State *L);
 /* 1 when the running __gc was called by a script (getmetatable(x).__gc(x)),
  * 0 when Lua's collector runs it (the object is then unreachable) */

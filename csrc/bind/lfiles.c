@@ -39,6 +39,11 @@ static int dir_gc(lua_State *L) {
 
 static int l_recipe_files(lua_State *L) {
   const char *dir = luaL_checkstring(L, 1);
+  if (!lvsL_may_read(L, dir)) { /* a sandbox lists only its host's folders */
+    luaL_pushfail(L);
+    lua_pushfstring(L, "%s: not a folder this host reads recipes from", dir);
+    return 2;
+  }
   DIR **p = lua_newuserdatauv(L, sizeof *p, 0);
   *p = NULL;
   if (luaL_newmetatable(L, "levelshift.dirhandle")) {
@@ -71,8 +76,8 @@ static int l_recipe_files(lua_State *L) {
  * used by the Lua writers (JSON of sweeps). Raises on failure. */
 static int l_write_file(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
-  lvsL_no_files(L, "write");
   const char *path = luaL_checkstring(L, 1);
+  lvsL_may_write(L, "write", path);
   size_t len;
   const char *text = luaL_checklstring(L, 2, &len);
   lvsL_check(L, ctx, lvs_write_file(ctx, path, text, len), "write");

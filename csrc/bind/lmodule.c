@@ -1,7 +1,11 @@
 /* lmodule.c -- luaopen_levelshift_core: the context, and each object's
  * functions. The context uses the Lua state's own allocator, so a memory cap
  * set on the state (embedding hosts) also bounds the core's allocations. */
+#include <errno.h>
+#include <limits.h>
+#include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <time.h>
 #include "bind/lbind.h"
 
@@ -27,12 +31,78 @@ static void *counting_alloc(void *ud, void *ptr, size_t osize, size_t nsize) {
   return q;
 }
 
-int lvsL_no_files(lua_State *L, const char *fname) {
+static int sandboxed(lua_State *L) {
   lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.sandbox");
-  int sandboxed = lua_toboolean(L, -1);
+  int s = lua_toboolean(L, -1);
   lua_pop(L, 1);
-  if (sandboxed) return luaL_error(L, "%s: writing files is disabled in this sandboxed host", fname);
+  return s;
+}
+
+int lvsL_no_files(lua_State *L, const char *fname) { return lvsL_may_write(L, fname, NULL); }
+
+/* 1 when dir (a resolved path) is root or inside it */
+static int inside(const char *dir, const char *root) {
+  size_t n = strlen(root);
+  if (n > 1 && root[n - 1] == '/') n--;
+  return !strncmp(dir, root, n) && (dir[n] == 0 || dir[n] == '/');
+}
+
+/* a ".." component anywhere in path */
+static int has_dotdot(const char *p) {
+  for (const char *s = p; (s = strstr(s, "..")) != NULL; s += 2)
+    if ((s == p || s[-1] == '/') && (s[2] == 0 || s[2] == '/')) return 1;
   return 0;
+}
+
+int lvsL_may_write(lua_State *L, const char *fname, const char *path) {
+  if (!sandboxed(L)) return 0;
+  lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.write_dir");
+  const char *root = lua_tostring(L, -1);
+  if (!root) return luaL_error(L, "%s: writing files is disabled in this sandboxed host", fname);
+  char root_copy[PATH_MAX];
+  snprintf(root_copy, sizeof root_copy, "%s", root);
+  lua_pop(L, 1);
+  if (!path) return 0;
+  size_t len = strlen(path);
+  if (len == 0 || len >= PATH_MAX - 1) return luaL_error(L, "%s: the path is empty or too long", fname);
+  if (has_dotdot(path)) return luaL_error(L, "%s: '%s' has a '..' component (not allowed in this sandboxed host)", fname, path);
+  char dir[PATH_MAX], real[PATH_MAX];
+  const char *slash = strrchr(path, '/');
+  const char *base = slash ? slash + 1 : path;
+  if (!*base || !strcmp(base, ".")) return luaL_error(L, "%s: '%s' names no file", fname, path);
+  if (slash == path) snprintf(dir, sizeof dir, "/");
+  else if (slash) snprintf(dir, sizeof dir, "%.*s", (int)(slash - path), path);
+  else snprintf(dir, sizeof dir, ".");
+  if (!realpath(dir, real) || !inside(real, root_copy))
+    return luaL_error(L, "%s: '%s' is outside %s, the one directory this host lets scripts write to", fname, path,
+                      root_copy);
+  struct stat sb;
+  if (lstat(path, &sb) == 0 && !S_ISREG(sb.st_mode))
+    return luaL_error(L, "%s: '%s' exists and is not a regular file (a link or a directory)", fname, path);
+  return 0;
+}
+
+int lvsL_may_read(lua_State *L, const char *path) {
+  if (!sandboxed(L)) return 1;
+  /* the folder holding the file, resolved (Debian's Lua modules are links
+   * into other folders: /usr/share/lua/5.4/dkjson.lua -> ../5.1/) */
+  char dir[PATH_MAX], real[PATH_MAX];
+  const char *slash = strrchr(path, '/');
+  struct stat sb;
+  if (slash && slash != path) snprintf(dir, sizeof dir, "%.*s", (int)(slash - path), path);
+  else snprintf(dir, sizeof dir, "%s", slash ? "/" : ".");
+  if (stat(path, &sb) == 0 && S_ISDIR(sb.st_mode)) snprintf(dir, sizeof dir, "%s", path);
+  if (!realpath(dir, real)) return 0;
+  int ok = 0, top = lua_gettop(L);
+  if (lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.read_roots") == LUA_TTABLE) {
+    lua_Integer n = (lua_Integer)lua_rawlen(L, -1);
+    for (lua_Integer k = 1; !ok && k <= n; k++) {
+      if (lua_rawgeti(L, -1, k) == LUA_TSTRING) ok = inside(real, lua_tostring(L, -1));
+      lua_pop(L, 1);
+    }
+  }
+  lua_settop(L, top);
+  return ok;
 }
 
 void lvsL_gcstep(lua_State *L) {
@@ -222,7 +292,19 @@ static int l_config(lua_State *L) {
   return 1;
 }
 
-__attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L) {
+/* The state's one context: made on the first load, kept in the registry
+ * until the state closes, and reused when the module is loaded again
+ * (package.loaded cleared and required anew): a second context would end,
+ * with the first module table, under objects still using it, and calls of
+ * the old module's functions would escape lvsL_inside_binding's guard. A
+ * host's work fence (registry "levelshift.fence", a light userdata) is set
+ * on it. Leaves the context userdata on the stack. */
+static lvs_ctx *state_ctx(lua_State *L) {
+  if (lua_getfield(L, LUA_REGISTRYINDEX, LVS_CTX_KEY) == LUA_TUSERDATA) {
+    ctx_ud *old = lua_touserdata(L, -1);
+    if (old && old->ctx) return old->ctx;
+  }
+  lua_pop(L, 1);
   void *ud;
   lua_Alloc f = lua_getallocf(L, &ud);
   ctx_ud *cu = lua_newuserdatauv(L, sizeof *cu, 0);
@@ -233,10 +315,18 @@ __attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L)
   lua_setfield(L, -2, "__gc");
   lua_setmetatable(L, -2);
   *p = lvs_ctx_new((lvs_alloc_fn)counting_alloc, cu);
-  if (!*p) return luaL_error(L, "levelshift: cannot allocate a context");
-  int ctxidx = lua_gettop(L);
-  lua_pushvalue(L, ctxidx);
+  if (!*p) luaL_error(L, "levelshift: cannot allocate a context");
+  if (lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.fence") == LUA_TLIGHTUSERDATA)
+    lvs_ctx_set_fence(*p, lua_touserdata(L, -1));
+  lua_pop(L, 1);
+  lua_pushvalue(L, -1);
   lua_setfield(L, LUA_REGISTRYINDEX, LVS_CTX_KEY); /* for lvsL_inside_binding */
+  return *p;
+}
+
+__attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L) {
+  state_ctx(L);
+  int ctxidx = lua_gettop(L);
   lua_newtable(L);
   static const luaL_Reg fns[] = {{"version", l_version}, {"config", l_config}, {"clock", l_clock},
                                   {"linalg", l_linalg}, {NULL, NULL}};

@@ -248,7 +248,7 @@ static void sweep_run_args(lua_State *L, int family, const lvs_matrix *h0, const
   lua_getfield(L, 1, "merge");
   int merge = lua_toboolean(L, -1);
   lua_pop(L, 1);
-  if (journal) lvsL_no_files(L, "sweep (journal, out=)");
+  if (journal) lvsL_may_write(L, "sweep (journal, out=)", journal);
   if ((shards || merge) && !journal)
     luaL_argerror(L, 1, "shards and merges need 'journal' (the output path)");
   if (shards && merge) luaL_argerror(L, 1, "a shard cannot merge");
@@ -388,7 +388,7 @@ static int m_write(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   lvs_sweep *s = checksweep(L, 1);
   const char *path = luaL_checkstring(L, 2);
-  lvsL_no_files(L, "sweep:write");
+  lvsL_may_write(L, "sweep:write", path);
   int st = lvs_sweep_write(s, path);
   lvsL_check(L, ctx, st, "sweep:write");
   return 0;

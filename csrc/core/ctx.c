@@ -1,5 +1,6 @@
 /* ctx.c -- contexts, allocation through the user's allocator, errors. */
 #include <stdint.h>
+#include <time.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -52,11 +53,44 @@ const char *lvs_strerror(int code) {
     case LVS_ELAPACK: return "LAPACK failure";
     case LVS_ECAP: return "dense size cap exceeded";
     case LVS_ENOTHERM: return "matrix is not Hermitian";
+    case LVS_ESTOP: return "stopped by the host's fence";
     default: return "unknown error";
   }
 }
 
 void lvs_ctx_set_dense_cap(lvs_ctx *ctx, size_t bytes) { ctx->dense_cap = bytes; }
+
+void lvs_ctx_set_fence(lvs_ctx *ctx, lvs_fence *fence) {
+  if (ctx) ctx->fence = fence;
+}
+
+double lvs_monotonic(void) {
+  struct timespec ts;
+  clock_gettime(CLOCK_MONOTONIC, &ts);
+  return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+int lvsi_fence(lvs_ctx *ctx, const char *where) {
+  lvs_fence *f = ctx ? ctx->fence : NULL;
+  if (!f) return LVS_OK;
+  if (f->interrupt) return lvsi_fail(ctx, LVS_ESTOP, "interrupted by the host in %s", where);
+  if (f->deadline > 0 && lvs_monotonic() >= f->deadline)
+    return lvsi_fail(ctx, LVS_ESTOP, "deadline of %g s exceeded in %s", f->seconds, where);
+  return LVS_OK;
+}
+
+int lvsi_fence_cost(lvs_ctx *ctx, double flops, const char *where) {
+  int st = lvsi_fence(ctx, where);
+  lvs_fence *f = ctx ? ctx->fence : NULL;
+  if (st || !f || !(f->deadline > 0)) return st;
+  double left = f->deadline - lvs_monotonic(), need = flops / LVS_FENCE_FLOPS;
+  if (need > left)
+    return lvsi_fail(ctx, LVS_ESTOP,
+                     "deadline of %g s: %s needs about %.3g s at %.3g flop/s (%.3g flop), more than the %.3g s left; "
+                     "refused before it started",
+                     f->seconds, where, need, LVS_FENCE_FLOPS, flops, left > 0 ? left : 0.0);
+  return LVS_OK;
+}
 size_t lvs_ctx_dense_cap(const lvs_ctx *ctx) { return ctx->dense_cap; }
 
 /* The one place every failure passes: set a breakpoint here. */

@@ -414,6 +414,7 @@ static int dense_path(lvs_effective *e, ework *w, const lvs_matrix *h0, const lv
     goto done;
   }
   for (int k = 1; k <= K; k++) {
+    if ((st = lvsi_fence(ctx, "effective"))) goto done;
     /* vom = V Omega(k-1) (n x d) */
     if (k == 1) {
       for (size_t a = 0; a < d; a++)
@@ -535,6 +536,7 @@ static int krylov_path(lvs_effective *e, ework *w) {
     if (!R[a] && (st = lvsi_resolvent_new(w->hp, P, d, w->E[p[a]], 1, &R[a]))) goto done;
   }
   for (int k = 1; k <= K; k++) {
+    if ((st = lvsi_fence(ctx, "effective"))) goto done;
     cplx *Wk = w->W + (size_t)k * dd;
     int keep = k < K; /* Omega(K) is not needed for H to order K */
     if (keep && !(om[k] = lvsi_malloc(ctx, n * d * sizeof(cplx)))) {
@@ -681,6 +683,7 @@ static int sparse_path(lvs_effective *e, ework *w) {
   if ((st = gap_warning(e, w))) goto done;
 
   for (int k = 1; k <= K; k++) {
+    if ((st = lvsi_fence(ctx, "effective"))) goto done;
     cplx *Wk = w->W + (size_t)k * dd;
     const cplx *prev = k > 1 ? om[k - 1] : NULL;
     size_t rp = r[k - 1];

@@ -19,6 +19,7 @@ struct lvs_ctx {
   char msg[512];
   size_t dense_cap;
   size_t refused; /* last block refused by lvsi_malloc for the cap (0: none) */
+  lvs_fence *fence; /* BORROWED from the host (NULL: none) */
 };
 
 /* Matrix storage. Stored size rows x cols; for a padded square operator the
@@ -46,6 +47,12 @@ LVSI int lvsi_fail(lvs_ctx *ctx, int code, const char *fmt, ...)
 LVSI void *lvsi_malloc(lvs_ctx *ctx, size_t size);
 LVSI void *lvsi_calloc(lvs_ctx *ctx, size_t n, size_t size);
 LVSI void lvsi_free(lvs_ctx *ctx, void *p);
+/* the work fence (ctx.c): LVS_ESTOP with "deadline of S s exceeded in WHERE"
+ * or "interrupted by the host in WHERE" once the host's deadline passed or
+ * it interrupted; _cost also refuses work of `flops` that cannot end before
+ * the deadline at LVS_FENCE_FLOPS; 0 otherwise (and always without fence) */
+LVSI int lvsi_fence(lvs_ctx *ctx, const char *where);
+LVSI int lvsi_fence_cost(lvs_ctx *ctx, double flops, const char *where);
 /* checks n*m*elem against overflow and the dense cap; what names the request */
 LVSI int lvsi_dense_ok(lvs_ctx *ctx, size_t n, size_t m, size_t elem,
                        const char *what);

@@ -338,6 +338,8 @@ static void default_start(double *r, size_t n, int cplx) {
 /* y = OP x: H x, or (H - sigma)^{-1} x */
 static int op_apply(kjob *j, const double *x, double *y) {
   j->products++;
+  int st = lvsi_fence(j->a->ctx, "eigen (Krylov)");
+  if (st) return st;
   if (j->near_mode) return lvsi_splu_solve(j->lu, x, y);
   sym_apply(&j->mv, x, y);
   return LVS_OK;

@@ -1059,7 +1059,10 @@ static int dense_mul(const lvs_matrix *a0, const lvs_matrix *b0, lvs_matrix **ou
       }
     goto done;
   }
-  /* both dense: BLAS */
+  /* both dense: BLAS (2 m n k flops, x4 complex) */
+  if ((st = lvsi_fence_cost(ctx, (cplx ? 8.0 : 2.0) * (double)a0->rows * (double)b0->cols * (double)a0->cols,
+                            "a dense matrix product")))
+    goto done;
   const lvs_matrix *a = a0, *b = b0;
   if (cplx) {
     if (!a->cplx) {

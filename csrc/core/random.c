@@ -69,6 +69,8 @@ int lvs_random_orthogonal(lvs_ctx *ctx, size_t n, uint64_t seed, lvs_matrix **ou
   if (n > (size_t)INT32_MAX) return lvsi_fail(ctx, LVS_EINVAL, "dimension %zu too large", n);
   int st = lvsi_dense_ok(ctx, n, n, sizeof(double), "random orthogonal matrix");
   if (st) return st;
+  /* QR and the explicit Q: 4n^3/3 flops each (Golub & Van Loan 2013, 5.2) */
+  if ((st = lvsi_fence_cost(ctx, 8.0 / 3.0 * (double)n * (double)n * (double)n, "random_orthogonal"))) return st;
   lvs_matrix *q = NULL;
   if ((st = lvsi_mat_alloc(ctx, n, n, 0, 0, 0, &q))) return st;
   double *tau = lvsi_malloc(ctx, n * sizeof(double));

@@ -224,6 +224,10 @@ static int minres(lvsi_resolvent *r, const dc *b, dc *x) {
   double tol = LVSI_RESOLVENT_TOL;
   size_t maxit = 20 * (size_t)sqrt((double)n) + 2000, it;
   for (it = 1; it <= maxit; it++) {
+    if ((it & 63) == 0) {
+      int st = lvsi_fence(r->ctx, "perturb (an iterative solve)");
+      if (st) return st;
+    }
     double s = 1.0 / beta;
     for (size_t i = 0; i < n; i++) v[i] = s * y[i];
     qop(r, v, y);

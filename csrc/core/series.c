@@ -338,6 +338,7 @@ static int bloch_group(lvs_ctx *ctx, const wop *V, const double *E, sgroup *g, i
     if (!x0) return lvsi_fail(ctx, LVS_ENOMEM, "perturb: out of memory");
   }
   for (int k = 1; k <= K && !st; k++) {
+    if ((st = lvsi_fence(ctx, "perturb"))) break;
     size_t plo = g->lo[k - 1], phi = g->hi[k - 1], ylo, yhi, lo, hi;
     wop_range(V, plo, phi, &ylo, &yhi);
     dc *Wk = W + (size_t)(k - 1) * dd;
@@ -790,6 +791,8 @@ static int tri_new(lvs_ctx *ctx, const lvs_matrix *h, double *E, tri *t) {
   size_t n = h->rows;
   int st = lvsi_dense_ok(ctx, n, n, sizeof(double), "perturb (H0)");
   if (st) return st;
+  /* the tridiagonal reduction: 4n^3/3 flops (Golub & Van Loan 2013, 8.3) */
+  if ((st = lvsi_fence_cost(ctx, 4.0 / 3.0 * (double)n * (double)n * (double)n, "perturb (reducing H0)"))) return st;
   t->n = n;
   t->a = lvsi_malloc(ctx, n * n * sizeof *t->a);
   t->d = lvsi_malloc(ctx, n * sizeof *t->d);
@@ -868,6 +871,7 @@ static int bordered_level(lvs_ctx *ctx, const tri *t, const lvs_matrix *hp, cons
   }
   for (size_t i = 0; i < n; i++) g->om[0][i] = z[i];
   for (int k = 1; k <= K; k++) {
+    if ((st = lvsi_fence(ctx, "perturb"))) goto done;
     if ((st = lvs_matrix_apply(vp, 1, (const double *)g->om[k - 1], (double *)y))) goto done;
     double ek = 0;
     for (size_t i = 0; i < n; i++) ek += z[i] * creal(y[i]);
@@ -988,6 +992,7 @@ static int bloch_sparse(lvs_ctx *ctx, const lvs_matrix *hp, const lvs_matrix *vp
   memcpy(g->om[0], P, n * d * sizeof(dc));
   if (g->nom >= 1 && (st = lvsi_resolvent_new(hp, g->om[0], d, g->ep, 1, &R))) goto done;
   for (int k = 1; k <= K; k++) {
+    if ((st = lvsi_fence(ctx, "perturb"))) goto done;
     dc *Wk = W + (size_t)(k - 1) * dd;
     int keep = k <= g->nom;
     if (keep && !(g->om[k] = lvsi_malloc(ctx, n * d * sizeof(dc)))) {

@@ -1005,6 +1005,7 @@ typedef struct {
   shared_out *so;
   int st;
   char msg[512];
+  lvs_fence *fence; /* the caller's context's (NULL: none) */
 } worker;
 
 /* point k by worker wk: solve, journal, progress; nonzero to stop */
@@ -1017,7 +1018,8 @@ static int work_point(worker *wk, lvs_ctx *tctx, band_scratch *bs, unsigned char
   /* Krylov path: inside a run, the previous point (computed just before by
    * this worker, or read from the journal) is the warm start */
   const double complex *warm = md->krylov && k % LVS_SWEEP_KRYLOV_RUN ? u - md->n * md->count : NULL;
-  int st = solve_point_bs(tctx, md, p, md->count, w, u, bs, wk->hmat ? wk->hmat + (k - wk->k0) * wk->hlen : NULL,
+  int st = lvsi_fence(tctx, "sweep");
+  if (!st) st = solve_point_bs(tctx, md, p, md->count, w, u, bs, wk->hmat ? wk->hmat + (k - wk->k0) * wk->hlen : NULL,
                           warm);
   if (st) {
     wk->st = st;
@@ -1080,6 +1082,7 @@ static void *work(void *arg) {
     return NULL;
   }
   lvs_ctx_set_dense_cap(tctx, wk->dense_cap);
+  lvs_ctx_set_fence(tctx, wk->fence);
   shared_out *so = wk->so;
   band_scratch bs = {0};
   unsigned char *rec = NULL;
@@ -1991,7 +1994,7 @@ static int block_points(sweep_job *jb, size_t k0, size_t k1) {
                           jb->hbuf + (jb->todo[t] - k0) * hlen)))
         return st;
   worker tmpl = {&jb->md, spec->from, spec->to, jb->steps, k0, jb->todo, ntodo, jb->md.family ? jb->hbuf : NULL,
-                 hlen, jb->wblk, jb->vblk, 0, 1, &jb->la, ctx->dense_cap, &jb->so, LVS_OK, {0}};
+                 hlen, jb->wblk, jb->vblk, 0, 1, &jb->la, ctx->dense_cap, &jb->so, LVS_OK, {0}, ctx->fence};
   return run_workers(ctx, &tmpl, jb->nthreads);
 }
 

@@ -1184,6 +1184,7 @@ static inline __attribute__((always_inline)) int rk4_loop(lvs_transition *tr, so
   double p0, pm, p1;
   int st = eval_scalar(se, tr->t0, &p0);
   for (size_t s = 0; s < m && !st; s++) {
+    if ((s & 255) == 255 && (st = lvsi_fence(tr->ctx, "transition (propagation)"))) break;
     double t = tr->t0 + (double)s * h;
     if ((st = eval_scalar(se, t + h / 2, &pm)) || (st = eval_scalar(se, s + 1 == m ? tr->t1 : t + h, &p1))) break;
     for (size_t q = 0; q < 2 * n; q++) acc[q] = 0;

@@ -12,7 +12,10 @@
 #include <lualib.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <math.h>
 #include <string.h>
+#include <sys/stat.h>
+#include "bind/lbind.h"
 #include "levelshift.h"
 
 LUALIB_API int luaopen_levelshift_core(lua_State *L);
@@ -22,6 +25,9 @@ struct lvs_host {
   char *err;
   size_t used, cap;                /* bytes through the allocator, cap (0 = none) */
   unsigned long long budget, spent; /* instruction budget per run (0 = none) */
+  double deadline;                  /* seconds per run (0 = none) */
+  lvs_fence fence;                  /* the core polls it (registry "levelshift.fence") */
+  int flags;
 };
 
 #define HOOK_STEP 1000
@@ -47,16 +53,36 @@ static int panic(lua_State *L) {
   return 0;
 }
 
+/* the fences of a run, charged `cost` instructions: raises when one is
+ * passed (and makes the hook raise at every instruction from then on, so a
+ * pcall that catches the error cannot go on) */
+static void fence_check(lua_State *L, lvs_host *h, unsigned long long cost) {
+  h->spent += cost;
+  char msg[96];
+  if (h->fence.interrupt) snprintf(msg, sizeof msg, "interrupted by the host");
+  else if (h->fence.deadline > 0 && lvs_monotonic() >= h->fence.deadline)
+    snprintf(msg, sizeof msg, "deadline of %g s exceeded", h->deadline);
+  else if (h->budget && h->spent > h->budget)
+    snprintf(msg, sizeof msg, "instruction budget of %llu exhausted", h->budget);
+  else return;
+  lua_sethook(L, lua_gethook(L), LUA_MASKCOUNT, 1); /* keep raising if caught */
+  luaL_error(L, "%s", msg);
+}
+
 static void count_hook(lua_State *L, lua_Debug *ar) {
   (void)ar;
-  lvs_host *h = *(lvs_host **)lua_getextraspace(L);
-  h->spent += HOOK_STEP;
-  if (h->spent > h->budget) {
-    lua_sethook(L, count_hook, LUA_MASKCOUNT, 1); /* keep raising if caught */
-    char msg[64];
-    snprintf(msg, sizeof msg, "instruction budget of %llu exhausted", h->budget);
-    luaL_error(L, "%s", msg);
-  }
+  fence_check(L, *(lvs_host **)lua_getextraspace(L), HOOK_STEP);
+}
+
+/* charged on every coroutine resume: the hook counts per coroutine, from
+ * zero, so 10,000 coroutines of 999 instructions each never reached it */
+static int charge_resume(lua_State *L) {
+  fence_check(L, *(lvs_host **)lua_getextraspace(L), HOOK_STEP);
+  return 0;
+}
+
+void lvs_host_interrupt(lvs_host *h) {
+  if (h) h->fence.interrupt = 1;
 }
 
 static void set_err(lvs_host *h, const char *msg) {
@@ -103,9 +129,23 @@ static int own_lua_dir(char *out, size_t len) {
   return ok;
 }
 
+static void add_root(lua_State *L, const char *dir);
+
+static int add_path_protected(lua_State *L) {
+  const char *dir = lua_touserdata(L, 1);
+  prepend_path(L, dir);
+  add_root(L, dir); /* a sandbox reads from it too */
+  return 0;
+}
+
 int lvs_host_add_path(lvs_host *h, const char *dir) {
   if (!h || !dir) return 1;
-  prepend_path(h->L, dir);
+  lua_pushcfunction(h->L, add_path_protected);
+  lua_pushlightuserdata(h->L, (void *)dir);
+  if (lua_pcall(h->L, 1, 0, 0) != LUA_OK) {
+    lua_pop(h->L, 1);
+    return 1;
+  }
   return 0;
 }
 
@@ -127,6 +167,10 @@ static int searcher_text(lua_State *L) {
     return 1;
   }
   const char *file = lua_tostring(L, -2);
+  if (!lvsL_may_read(L, file)) {
+    lua_pushfstring(L, "\n\tno file in this host's folders for '%s'", name);
+    return 1;
+  }
   if (luaL_loadfilex(L, file, "t") != LUA_OK)
     return luaL_error(L, "error loading module '%s' from file '%s':\n\t%s", name, file, lua_tostring(L, -1));
   lua_pushstring(L, file);
@@ -143,8 +187,12 @@ static int searcher_text(lua_State *L) {
  * metatable with __gc (only a __gc present at setmetatable time makes an
  * object finalizable). */
 static const char *const budget_lua =
+    "local charge = ...\n"
     "local rawpcall, rawsetmt, pack, unpack = pcall, setmetatable, table.pack, table.unpack\n"
-    "local function stop(e) return type(e) == 'string' and e:find('instruction budget of %d+ exhausted') end\n"
+    "local function stop(e)\n"
+    "  return type(e) == 'string' and (e:find('instruction budget of %d+ exhausted') or\n"
+    "    e:find('deadline of [^ ]+ s exceeded') or e:find('interrupted by the host', 1, true))\n"
+    "end\n"
     "xpcall = function(f, msgh, ...)\n"
     "  local r = pack(rawpcall(f, ...))\n"
     "  if r[1] then return unpack(r, 1, r.n) end\n"
@@ -153,9 +201,23 @@ static const char *const budget_lua =
     "end\n"
     "setmetatable = function(t, mt)\n"
     "  if type(mt) == 'table' and rawget(mt, '__gc') ~= nil then\n"
-    "    error('setmetatable: __gc metamethods are disabled under an instruction budget', 2)\n"
+    "    error('setmetatable: __gc metamethods are disabled under an instruction budget or a deadline', 2)\n"
     "  end\n"
     "  return rawsetmt(t, mt)\n"
+    "end\n"
+    "if coroutine then\n"
+    "  local create, resume, close, status = coroutine.create, coroutine.resume, coroutine.close, coroutine.status\n"
+    "  coroutine.resume = function(co, ...) charge() return resume(co, ...) end\n"
+    "  coroutine.wrap = function(f)\n"
+    "    local co = create(f)\n"
+    "    return function(...)\n"
+    "      charge()\n"
+    "      local r = pack(resume(co, ...))\n"
+    "      if r[1] then return unpack(r, 2, r.n) end\n"
+    "      if status(co) == 'dead' then close(co) end\n"
+    "      error(r[2], 0)\n"
+    "    end\n"
+    "  end\n"
     "end\n";
 
 static const char *const sandbox_lua =
@@ -166,28 +228,45 @@ static const char *const sandbox_lua =
     "package.searchers[4], package.searchers[3] = nil, nil\n";
 
 lvs_host *lvs_host_new(int flags) {
-  lvs_host_opts o = {flags, 0, 0};
+  lvs_host_opts o = {flags, 0, 0, NULL, 0};
   return lvs_host_new_ex(&o);
 }
 
 size_t lvs_host_memory(const lvs_host *h) { return h ? h->used : 0; }
 
-lvs_host *lvs_host_new_ex(const lvs_host_opts *opts) {
-  lvs_host_opts o = {0, 0, 0};
-  if (opts) o = *opts;
-  int flags = o.flags;
-  lvs_host *h = calloc(1, sizeof *h);
-  if (!h) return NULL;
-  h->cap = o.memory_cap;
-  h->budget = o.instruction_budget;
-  h->L = lua_newstate(capped_alloc, h);
-  if (!h->L) {
-    free(h);
-    return NULL;
+/* the roots a sandbox reads from: every directory put on the module path */
+static void add_root(lua_State *L, const char *dir) {
+  char real[PATH_MAX];
+  if (!realpath(dir, real)) return;
+  luaL_getsubtable(L, LUA_REGISTRYINDEX, "levelshift.read_roots");
+  lua_pushstring(L, real);
+  lua_rawseti(L, -2, (lua_Integer)lua_rawlen(L, -2) + 1);
+  lua_pop(L, 1);
+}
+
+/* package.searchpath of a sandbox: only files inside the host's folders
+ * (the stock one tells whether any file on the machine exists) */
+static int searchpath_sandbox(lua_State *L) {
+  int top = lua_gettop(L);
+  lua_pushvalue(L, lua_upvalueindex(1));
+  lua_insert(L, 1);
+  lua_call(L, top, 2);
+  if (lua_isstring(L, -2) && !lvsL_may_read(L, lua_tostring(L, -2))) {
+    lua_pushnil(L);
+    lua_pushfstring(L, "\n\tno file in this host's folders for '%s'", luaL_optstring(L, 1, "?"));
+    return 2;
   }
-  lua_State *L = h->L;
-  lua_atpanic(L, panic);
-  *(lvs_host **)lua_getextraspace(L) = h;
+  return 2;
+}
+
+static int run_chunk(lua_State *L, const char *code, const char *name, int nargs);
+
+/* everything that can raise (out of memory under a small cap), run
+ * protected by lvs_host_new_ex: a failure frees the host */
+static int host_setup(lua_State *L) {
+  lvs_host *h = lua_touserdata(L, 1);
+  const char *wdir = lua_tostring(L, 2);
+  int flags = h->flags;
   if (flags & LVS_HOST_SANDBOX) {
     static const luaL_Reg safe[] = {{LUA_GNAME, luaopen_base}, {LUA_LOADLIBNAME, luaopen_package},
                                     {LUA_COLIBNAME, luaopen_coroutine}, {LUA_TABLIBNAME, luaopen_table},
@@ -201,34 +280,105 @@ lvs_host *lvs_host_new_ex(const lvs_host_opts *opts) {
     lua_getfield(L, -1, "searchers");
     lua_pushcfunction(L, searcher_text);
     lua_rawseti(L, -2, 2);
-    lua_pop(L, 2);
+    lua_pop(L, 1);
+    lua_getfield(L, -1, "searchpath"); /* no probing of the file system */
+    lua_pushcclosure(L, searchpath_sandbox, 1);
+    lua_setfield(L, -2, "searchpath");
+    lua_pop(L, 1);
     lua_getglobal(L, LUA_STRLIBNAME); /* no bytecode out of functions either */
     lua_pushnil(L);
     lua_setfield(L, -2, "dump");
     lua_pop(L, 1);
+    lua_pushboolean(L, 1); /* the module's writers and readers ask (lvsL_may_write) */
+    lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.sandbox");
+    if (wdir) {
+      lua_pushstring(L, wdir);
+      lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.write_dir");
+    }
   } else {
     luaL_openlibs(L);
   }
+  /* Lua's own module folders (absolute ones: not "./"): Lua files only
+   * (no C modules in a sandbox), read-only libraries such as dkjson */
+  lua_getglobal(L, LUA_LOADLIBNAME);
+  lua_getfield(L, -1, "path");
+  const char *pp = lua_tostring(L, -1);
+  for (const char *t = pp; t && *t;) {
+    const char *e = strchr(t, ';'), *q = strchr(t, '?');
+    size_t len = e ? (size_t)(e - t) : strlen(t);
+    if (*t == '/' && q && q < t + len) {
+      char dir[PATH_MAX];
+      snprintf(dir, sizeof dir, "%.*s", (int)(q - t), t);
+      add_root(L, dir);
+    }
+    t += len + (e ? 1 : 0);
+  }
+  lua_pop(L, 2);
   /* configured install prefix last, then the source tree or the install
    * found next to this library, then LVS_PATH first */
   prepend_path(L, LVS_INSTALL_LUA);
+  add_root(L, LVS_INSTALL_LUA);
   char own[PATH_MAX];
-  if (own_lua_dir(own, sizeof own)) prepend_path(L, own);
-  else prepend_path(L, LVS_SOURCE_DIR);
+  if (own_lua_dir(own, sizeof own)) prepend_path(L, own), add_root(L, own);
+  else prepend_path(L, LVS_SOURCE_DIR), add_root(L, LVS_SOURCE_DIR);
   const char *env = getenv("LVS_PATH");
-  if (env && *env) prepend_path(L, env);
-  if (flags & LVS_HOST_SANDBOX) { /* the module's writers read this (lvsL_no_files) */
-    lua_pushboolean(L, 1);
-    lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.sandbox");
-  }
+  if (env && *env) prepend_path(L, env), add_root(L, env);
+  lua_pushlightuserdata(L, &h->fence); /* the core's context polls it */
+  lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.fence");
   luaL_getsubtable(L, LUA_REGISTRYINDEX, LUA_PRELOAD_TABLE);
   lua_pushcfunction(L, luaopen_levelshift_core);
   lua_setfield(L, -2, "levelshift.core");
   lua_pop(L, 1);
-  if ((flags & LVS_HOST_SANDBOX) && lvs_host_dostring(h, sandbox_lua, "=sandbox") != 0) return h;
-  if (h->budget && lvs_host_dostring(h, budget_lua, "=budget") != 0) return h;
-  if (flags & LVS_HOST_GLOBAL) {
-    if (lvs_host_dostring(h, "ls = require 'levelshift'", "=init") != 0) return h;
+  if ((flags & LVS_HOST_SANDBOX) && run_chunk(L, sandbox_lua, "=sandbox", 0)) return lua_error(L);
+  if (h->budget || h->deadline > 0 || (flags & LVS_HOST_SANDBOX)) {
+    lua_pushcfunction(L, charge_resume);
+    if (run_chunk(L, budget_lua, "=budget", 1)) return lua_error(L);
+  }
+  if ((flags & LVS_HOST_GLOBAL) && run_chunk(L, "ls = require 'levelshift'", "=init", 0)) return lua_error(L);
+  return 0;
+}
+
+/* load and call code with the nargs values below it as arguments; 0 or
+ * nonzero with the message on the stack */
+static int run_chunk(lua_State *L, const char *code, const char *name, int nargs) {
+  if (luaL_loadbuffer(L, code, strlen(code), name)) return 1;
+  lua_insert(L, -1 - nargs);
+  return lua_pcall(L, nargs, 0, 0) != LUA_OK;
+}
+
+lvs_host *lvs_host_new_ex(const lvs_host_opts *opts) {
+  lvs_host_opts o = {0, 0, 0, NULL, 0};
+  if (opts) o = *opts;
+  if (!(o.deadline >= 0) || !isfinite(o.deadline)) return NULL; /* NaN, negative, infinite */
+  char wdir[PATH_MAX];
+  if (o.write_dir) {
+    struct stat sb;
+    if (!realpath(o.write_dir, wdir) || stat(wdir, &sb) != 0 || !S_ISDIR(sb.st_mode)) return NULL;
+  }
+  lvs_host *h = calloc(1, sizeof *h);
+  if (!h) return NULL;
+  h->flags = o.flags;
+  h->cap = o.memory_cap;
+  h->budget = o.instruction_budget;
+  h->deadline = o.deadline;
+  h->L = lua_newstate(capped_alloc, h);
+  if (!h->L) {
+    free(h);
+    return NULL;
+  }
+  lua_State *L = h->L;
+  lua_atpanic(L, panic);
+  *(lvs_host **)lua_getextraspace(L) = h;
+  /* pushing a C function and a light userdata allocates nothing */
+  lua_pushcfunction(L, host_setup);
+  lua_pushlightuserdata(L, h);
+  int ok = lua_checkstack(L, 2);
+  if (ok && o.write_dir) ok = lua_pushstring(L, wdir) != NULL; /* may raise: checked below */
+  else if (ok) lua_pushnil(L);
+  if (!ok || lua_pcall(L, 2, 0, 0) != LUA_OK) {
+    if (getenv("LVS_DEBUG_HOST")) fprintf(stderr, "levelshift: host set-up failed: %s\n", lua_tostring(L, -1));
+    lvs_host_free(h);
+    return NULL;
   }
   return h;
 }
@@ -243,13 +393,18 @@ void lvs_host_free(lvs_host *h) {
 static int run(lvs_host *h, int status) {
   lua_State *L = h->L;
   h->spent = 0;
-  if (h->budget) lua_sethook(L, count_hook, LUA_MASKCOUNT, HOOK_STEP);
+  h->fence.interrupt = 0;
+  h->fence.seconds = h->deadline;
+  h->fence.deadline = h->deadline > 0 ? lvs_monotonic() + h->deadline : 0;
+  lua_sethook(L, count_hook, LUA_MASKCOUNT, HOOK_STEP); /* budget, deadline, interrupt */
   if (status == LUA_OK) {
     lua_pushcfunction(L, traceback);
     lua_insert(L, -2);
     status = lua_pcall(L, 0, 0, -2);
   }
   lua_sethook(L, NULL, 0, 0);
+  h->fence.deadline = 0;
+  h->fence.interrupt = 0;
   if (status != LUA_OK) {
     set_err(h, lua_tostring(L, -1) ? lua_tostring(L, -1) : "(error object is not a string)");
     lua_settop(L, 0);

@@ -14,7 +14,7 @@ static void expect(lvs_host *h, const char *code, int want_error, const char *te
 }
 
 int main(void) {
-  lvs_host_opts o = {LVS_HOST_GLOBAL | LVS_HOST_SANDBOX, 64u << 20, 20000000ull};
+  lvs_host_opts o = {LVS_HOST_GLOBAL | LVS_HOST_SANDBOX, 64u << 20, 20000000ull, NULL, 0};
   lvs_host *h = lvs_host_new_ex(&o);
   if (!h) return 1;
   expect(h, "assert(#ls.eigen(ls.spin(1).Sz) == 3)", 0, NULL);
@@ -26,16 +26,33 @@ int main(void) {
   {
     lvs_host *plain = lvs_host_new(0);
     expect(plain,
-           "local f = assert(io.open('/tmp/lvs_fence_bc.lua', 'wb')) "
-           "f:write(string.dump(function() return 42 end)) f:close()",
+           "os.execute('mkdir -p /tmp/lvs_fence_mods'); "
+           "local f = assert(io.open('/tmp/lvs_fence_mods/lvs_fence_bc.lua', 'wb')) "
+           "f:write(string.dump(function() return 42 end)) f:close(); "
+           "f = assert(io.open('/tmp/lvs_fence_probe_secret.lua', 'w')) f:write('secret_token = 1') f:close()",
            0, NULL);
     lvs_host_free(plain);
   }
+  /* a folder the host put on the module path: text chunks only */
+  lvs_host_add_path(h, "/tmp/lvs_fence_mods");
   expect(h,
-         "local saved = package.path; package.path = '/tmp/?.lua'; "
+         "local saved = package.path; package.path = '/tmp/lvs_fence_mods/?.lua'; "
          "local ok, e = pcall(require, 'lvs_fence_bc'); package.path = saved; error(e)",
          1, "attempt to load a binary chunk");
-  remove("/tmp/lvs_fence_bc.lua");
+  /* elsewhere nothing is read, and nothing tells whether a file exists */
+  expect(h,
+         "local saved = package.path; package.path = '/tmp/?.lua'; "
+         "local ok, e = pcall(require, 'lvs_fence_probe_secret'); package.path = saved; error(e)",
+         1, "no file in this host's folders");
+  expect(h, "assert(package.searchpath('lvs_fence_probe_secret', '/tmp/?.lua') == nil)", 0, NULL);
+  expect(h, "assert(package.searchpath('passwd', '/etc/?') == nil)", 0, NULL);
+  expect(h, "local t, e = ls._recipe_files('/tmp'); assert(t == nil and e:find('not a folder this host reads'))", 0,
+         NULL);
+  expect(h, "ls.recipes.add_dir('/tmp'); ls.recipe('lvs_fence_probe_secret')", 1, NULL);
+  expect(h, "assert(secret_token == nil)", 0, NULL);
+  remove("/tmp/lvs_fence_mods/lvs_fence_bc.lua");
+  remove("/tmp/lvs_fence_mods");
+  remove("/tmp/lvs_fence_probe_secret.lua");
   expect(h, "ls._write_file('/tmp/lvs_fence_probe.csv', 'x')", 1, "write: writing files is disabled");
   /* the library's own writers stay shut in a sandbox (the script has no io
    * or os, so it must not reach the file system through ls either); none of
@@ -83,7 +100,7 @@ int main(void) {
    * workspace (1 + 6n + 2n^2 doubles, LAPACK's documentation of dsyevd),
    * above 64 MiB together; the workspace used to be malloc'd by LAPACKE */
   {
-    lvs_host_opts oc = {LVS_HOST_GLOBAL | LVS_HOST_SANDBOX, 64u << 20, 0};
+    lvs_host_opts oc = {LVS_HOST_GLOBAL | LVS_HOST_SANDBOX, 64u << 20, 0, NULL, 0};
     lvs_host *hc = lvs_host_new_ex(&oc);
     if (!hc) return 1;
     expect(hc, "local Q = ls.random_orthogonal(1500); local H = Q + Q:adj(); Q = nil; collectgarbage(); ls.eigen(H)",

@@ -25,7 +25,7 @@ static const char *const code =
 int main(void) {
   int fail = 0;
   size_t cap = 3u << 20;
-  lvs_host_opts o = {LVS_HOST_GLOBAL, cap, 0};
+  lvs_host_opts o = {LVS_HOST_GLOBAL, cap, 0, NULL, 0};
   lvs_host *h = lvs_host_new_ex(&o);
   if (!h) return 1;
   size_t base = 0;
