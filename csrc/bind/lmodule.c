@@ -282,6 +282,7 @@ static int l_config(lua_State *L) {
     if (!lua_isnil(L, -1)) {
       lua_Number v = lua_tonumber(L, -1);
       luaL_argcheck(L, lua_isnumber(L, -1) && v > 0, 1, "dense_cap must be a positive number of bytes");
+      luaL_argcheck(L, v <= 0x1p62, 1, "dense_cap must be finite and at most 2^62 bytes");
       lvs_ctx_set_dense_cap(ctx, (size_t)v);
     }
     lua_pop(L, 1);

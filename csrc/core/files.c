@@ -2,6 +2,7 @@
  * and fsync'd, then renamed over PATH, so a reader (or a crash, or a full
  * disk) sees either the old file or the whole new one, never a part. */
 #include <errno.h>
+#include <fcntl.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -16,7 +17,13 @@ int lvs_write_file(lvs_ctx *ctx, const char *path, const void *data, size_t len)
   char *tmpname = lvsi_malloc(ctx, tlen);
   if (!tmpname) return lvsi_fail(ctx, LVS_ENOMEM, "write: out of memory");
   snprintf(tmpname, tlen, "%s.tmp.%ld", path, (long)getpid());
-  FILE *f = fopen(tmpname, "w");
+  /* a new regular file only: never through a link planted at the name,
+   * never over a file someone else made there */
+  int fd = open(tmpname, O_WRONLY | O_CREAT | O_EXCL | O_NOFOLLOW | O_CLOEXEC, 0644);
+  if (fd < 0 && errno == EEXIST && unlink(tmpname) == 0) /* our own leftover of a crash */
+    fd = open(tmpname, O_WRONLY | O_CREAT | O_EXCL | O_NOFOLLOW | O_CLOEXEC, 0644);
+  FILE *f = fd >= 0 ? fdopen(fd, "w") : NULL;
+  if (!f && fd >= 0) close(fd);
   if (!f) {
     int e = errno;
     int st = lvsi_fail(ctx, LVS_EINVAL, "cannot write '%s' (opening a temporary file beside it: %s)", path, strerror(e));

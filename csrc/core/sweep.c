@@ -902,10 +902,16 @@ static int journal_open(lvs_ctx *ctx, journal *j, const char *base, size_t shard
   for (size_t k = 0; k < j->npts; k++) j->rec_file[k] = -1;
   if (shards) snprintf(j->own, bl + 64, "%s.part.%zu-of-%zu", base, shard, shards);
   else snprintf(j->own, bl + 64, "%s.part", base);
-  int fd = open(j->own, O_RDWR | O_CLOEXEC | (merge_only ? 0 : O_CREAT), 0644);
+  int fd = open(j->own, O_RDWR | O_CLOEXEC | O_NOFOLLOW | (merge_only ? 0 : O_CREAT), 0644); /* no links */
   if (fd < 0 && merge_only && errno == ENOENT) goto parts; /* a merge reads, never starts a journal */
   if (fd < 0) {
     st = lvsi_fail(ctx, LVS_EINVAL, "cannot open journal '%s': %s", j->own, strerror(errno));
+    goto out;
+  }
+  struct stat jsb;
+  if (fstat(fd, &jsb) != 0 || !S_ISREG(jsb.st_mode)) {
+    close(fd);
+    st = lvsi_fail(ctx, LVS_EINVAL, "journal '%s' is not a regular file", j->own);
     goto out;
   }
   if ((st = journal_add_file(ctx, j, j->own, fd))) goto out;
@@ -931,7 +937,7 @@ static int journal_open(lvs_ctx *ctx, journal *j, const char *base, size_t shard
 parts:
   if (gl) {
     for (size_t i = 0; i < g.gl_pathc; i++) {
-      int pf = open(g.gl_pathv[i], O_RDONLY | O_CLOEXEC);
+      int pf = open(g.gl_pathv[i], O_RDONLY | O_CLOEXEC | O_NOFOLLOW);
       if (pf < 0) {
         st = lvsi_fail(ctx, LVS_EINVAL, "cannot read part file '%s': %s", g.gl_pathv[i], strerror(errno));
         goto out;

@@ -261,6 +261,84 @@ static int searchpath_sandbox(lua_State *L) {
 
 static int run_chunk(lua_State *L, const char *code, const char *name, int nargs);
 
+/* Each run of a sandbox starts from the library and the standard tables as
+ * the host set them up: the snapshot (made after set-up) and the function
+ * that puts it back before every run (registry "levelshift.restore"). A
+ * script's changes to ls, to its modules and method tables, to the
+ * library's metatables, to string/table/math/coroutine/utf8/package and to
+ * the globals that existed at set-up do not reach the next run; globals it
+ * adds stay (a host may run a set-up script first). */
+static const char *const snapshot_lua =
+    "local tabs, forcemt, cap = ...\n"
+    "local next, rawset = next, rawset\n"
+    "local snaps, mts = {}, {}\n"
+    "for i, t in ipairs(tabs) do\n"
+    "  local s = {}\n"
+    "  for k, v in next, t do s[k] = v end\n"
+    "  snaps[i], mts[i] = s, getmetatable(t)\n"
+    "end\n"
+    "local G = {}\n"
+    "for k, v in next, _G do G[k] = v end\n"
+    "local config = G.ls and G.ls.config\n"
+    "return function()\n"
+    "  for i, t in ipairs(tabs) do\n"
+    "    local s = snaps[i]\n"
+    "    forcemt(t, mts[i])\n"
+    "    for k in next, t do if s[k] == nil then rawset(t, k, nil) end end\n"
+    "    for k, v in next, s do rawset(t, k, v) end\n"
+    "  end\n"
+    "  forcemt(_G, nil)\n"
+    "  for k, v in next, G do rawset(_G, k, v) end\n"
+    "  if config and cap then config{dense_cap = cap} end\n"
+    "end\n";
+
+static int force_setmetatable(lua_State *L) {
+  luaL_checktype(L, 1, LUA_TTABLE);
+  lua_settop(L, 2);
+  lua_setmetatable(L, 1);
+  return 0;
+}
+
+/* the tables the snapshot keeps, as a list on the stack */
+static void snapshot_tables(lua_State *L) {
+  lua_newtable(L);
+  int list = lua_gettop(L);
+  lua_Integer n = 0;
+  static const char *const std[] = {LUA_STRLIBNAME, LUA_TABLIBNAME, LUA_MATHLIBNAME, LUA_COLIBNAME,
+                                    LUA_UTF8LIBNAME, LUA_LOADLIBNAME, NULL};
+  for (const char *const *k = std; *k; k++)
+    if (lua_getglobal(L, *k) == LUA_TTABLE) lua_rawseti(L, list, ++n);
+    else lua_pop(L, 1);
+  lua_getglobal(L, LUA_LOADLIBNAME);
+  if (lua_getfield(L, -1, "searchers") == LUA_TTABLE) lua_rawseti(L, list, ++n);
+  else lua_pop(L, 1);
+  if (lua_getfield(L, -1, "loaded") == LUA_TTABLE) {
+    lua_pushvalue(L, -1);
+    lua_rawseti(L, list, ++n);
+    for (lua_pushnil(L); lua_next(L, -2);) { /* the library's modules and their method tables */
+      if (lua_type(L, -2) == LUA_TSTRING && !strncmp(lua_tostring(L, -2), "levelshift", 10) &&
+          lua_type(L, -1) == LUA_TTABLE) {
+        lua_pushvalue(L, -1);
+        lua_rawseti(L, list, ++n);
+        static const char *const sub[] = {"_matrix_methods", "_basis_methods", NULL};
+        for (const char *const *k = sub; *k; k++)
+          if (lua_getfield(L, -1, *k) == LUA_TTABLE) lua_rawseti(L, list, ++n);
+          else lua_pop(L, 1);
+      }
+      lua_pop(L, 1);
+    }
+  }
+  lua_pop(L, 2);
+  for (lua_pushnil(L); lua_next(L, LUA_REGISTRYINDEX);) { /* the library's metatables */
+    if (lua_type(L, -2) == LUA_TSTRING && !strncmp(lua_tostring(L, -2), "levelshift.", 11) &&
+        lua_type(L, -1) == LUA_TTABLE && strcmp(lua_tostring(L, -2), "levelshift.read_roots") != 0) {
+      lua_pushvalue(L, -1);
+      lua_rawseti(L, list, ++n);
+    }
+    lua_pop(L, 1);
+  }
+}
+
 /* everything that can raise (out of memory under a small cap), run
  * protected by lvs_host_new_ex: a failure frees the host */
 static int host_setup(lua_State *L) {
@@ -335,6 +413,26 @@ static int host_setup(lua_State *L) {
     if (run_chunk(L, budget_lua, "=budget", 1)) return lua_error(L);
   }
   if ((flags & LVS_HOST_GLOBAL) && run_chunk(L, "ls = require 'levelshift'", "=init", 0)) return lua_error(L);
+  if (flags & LVS_HOST_SANDBOX) {
+    /* the sugar modules load on first use: load them all now, so that the
+     * snapshot holds the whole library */
+    if (run_chunk(L, "if ls then for _ in pairs(ls) do end end", "=load", 0)) return lua_error(L);
+    if (luaL_loadbuffer(L, snapshot_lua, strlen(snapshot_lua), "=snapshot")) return lua_error(L);
+    snapshot_tables(L);
+    lua_pushcfunction(L, force_setmetatable);
+    if (flags & LVS_HOST_GLOBAL) {
+      lua_getglobal(L, "ls");
+      lua_getfield(L, -1, "config");
+      lua_call(L, 0, 1);
+      lua_getfield(L, -1, "dense_cap");
+      lua_replace(L, -3);
+      lua_pop(L, 1);
+    } else {
+      lua_pushnil(L);
+    }
+    lua_call(L, 3, 1);
+    lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.restore");
+  }
   return 0;
 }
 
@@ -397,6 +495,12 @@ static int run(lvs_host *h, int status) {
   h->fence.seconds = h->deadline;
   h->fence.deadline = h->deadline > 0 ? lvs_monotonic() + h->deadline : 0;
   lua_sethook(L, count_hook, LUA_MASKCOUNT, HOOK_STEP); /* budget, deadline, interrupt */
+  if (status == LUA_OK && lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.restore") == LUA_TFUNCTION) {
+    status = lua_pcall(L, 0, 0, 0); /* the sandbox as the host set it up */
+    if (status != LUA_OK) lua_remove(L, -2); /* the chunk; the message stays */
+  } else if (status == LUA_OK) {
+    lua_pop(L, 1);
+  }
   if (status == LUA_OK) {
     lua_pushcfunction(L, traceback);
     lua_insert(L, -2);

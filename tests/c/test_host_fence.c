@@ -220,6 +220,25 @@ static void budget_and_setup(void) {
   lvs_host_free(hd);
 }
 
+static void runs_start_afresh(void) {
+  /* a script's changes to the library and the shared tables stay in its run */
+  lvs_host_opts o = {LVS_HOST_GLOBAL | LVS_HOST_SANDBOX, 64u << 20, 0, NULL, 0};
+  lvs_host *h = lvs_host_new_ex(&o);
+  check(h != NULL, "sandbox");
+  if (!h) return;
+  expect(h,
+         "ls.eigen = nil; string.format = nil; table.concat = nil; getmetatable(ls.spin(1).Sz).__add = nil; "
+         "ls.config{dense_cap = 1000}; package.path = '/tmp/?.lua'; kept = 7; print = nil; "
+         "setmetatable(ls, {__index = function() error('poisoned') end}); ls = nil",
+         0, NULL);
+  expect(h,
+         "assert(ls and ls.eigen and string.format and table.concat and print and kept == 7); "
+         "assert(#ls.eigen(ls.spin(1).Sz + ls.spin(1).Sz) == 3); assert(ls.config().dense_cap > 1e6); "
+         "assert(ls.nothing == nil and package.path ~= '/tmp/?.lua')",
+         0, NULL);
+  lvs_host_free(h);
+}
+
 static void module_reload(void) {
   /* the module loaded a second time keeps the state's one context: objects
    * of the first load stay usable after its table is gone, and closing an
@@ -249,6 +268,7 @@ int main(void) {
   writable_directory();
   deadline_and_interrupt();
   budget_and_setup();
+  runs_start_afresh();
   module_reload();
   if (!fail) printf("test_host_fence: all checks passed\n");
   return fail ? 1 : 0;
