@@ -130,6 +130,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/file.h>
 #include <sys/stat.h>
 #include <unistd.h>
 #include "internal.h"
@@ -919,6 +920,15 @@ static int journal_open(lvs_ctx *ctx, journal *j, const char *base, size_t shard
   if (fstat(fd, &jsb) != 0 || !S_ISREG(jsb.st_mode)) {
     close(fd);
     st = lvsi_fail(ctx, LVS_EINVAL, "journal '%s' is not a regular file", j->own);
+    goto out;
+  }
+  /* one writer per journal: a second run on the same out= (and shard) stops
+   * here instead of appending to, or removing, the first one's file */
+  if (!merge_only && flock(fd, LOCK_EX | LOCK_NB) != 0) {
+    int e = errno;
+    close(fd);
+    st = lvsi_fail(ctx, LVS_EINVAL, "journal '%s' is in use by another run (%s); wait for it or use another out=",
+                   j->own, e == EWOULDBLOCK ? "locked" : strerror(e));
     goto out;
   }
   if ((st = journal_add_file(ctx, j, j->own, fd))) goto out;

@@ -137,4 +137,25 @@ describe("journal trust", function()
     assert.are.equal(slurp(ref), slurp(out))
     os.remove(out); os.remove(ref)
   end)
+  it("lets one run at a time write a journal (a lock on the file)", function()
+    local bin = os.getenv("LVS_BIN") or "build/levelshift"
+    local out = ftmp(".csv")
+    local code = "local o = ls.oscillator(200); ls.sweep{H0 = o.number, V = o.x ^ 2, from = 0, to = 1, "
+      .. "steps = 20000, count = 4, progress = false, out = '" .. out .. "'}"
+    local f = io.popen(bin .. " -e \"" .. code .. "\" >/dev/null 2>&1 & echo $!")
+    local pid = f:read("l")
+    f:close()
+    for _ = 1, 400 do -- until the first run holds its journal
+      local part = slurp(out .. ".part")
+      if part and #part > 48 then break end
+      os.execute("sleep 0.01")
+    end
+    local o = ls.oscillator(200)
+    local ok, e = pcall(ls.sweep, {H0 = o.number, V = o.x ^ 2, from = 0, to = 1, steps = 20000, count = 4,
+      progress = false, out = out})
+    os.execute("kill -9 " .. pid .. " 2>/dev/null")
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("is in use by another run", 1, true), e)
+    os.remove(out .. ".part"); os.remove(out)
+  end)
 end)
