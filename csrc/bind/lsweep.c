@@ -161,7 +161,10 @@ static int sweep_model(lua_State *L, lvs_matrix **ph0, lvs_matrix **pv, family_u
     if (!lua_isnil(L, -1) || !lua_isnil(L, -2))
       luaL_argerror(L, 1, "give either H (a function p -> op) or H0 and V, not both");
     lua_pop(L, 2);
-    /* H(from) and H(to): size, kind and the journal's fingerprint */
+    /* H(from) and H(to): size, kind and the journal's fingerprint; both
+     * stay on this call's stack (a sweep inside the family function, or
+     * one in another coroutine, has its own) */
+    int ends[2];
     for (int end = 0; end < 2; end++) {
       double pe = field_num(L, end ? "to" : "from");
       lua_getfield(L, 1, "H");
@@ -171,12 +174,10 @@ static int sweep_model(lua_State *L, lvs_matrix **ph0, lvs_matrix **pv, family_u
         lua_pushfstring(L, "H(%f) must return an op, got %s", pe, luaL_typename(L, -1));
         luaL_argerror(L, 1, lua_tostring(L, -1));
       }
-      lua_setfield(L, LUA_REGISTRYINDEX, end ? "levelshift.sweep.Hto" : "levelshift.sweep.Hfrom");
+      ends[end] = lua_gettop(L);
     }
-    lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.sweep.Hfrom");
-    h0 = lvsL_testmatrix(L, -1);
-    lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.sweep.Hto");
-    v = lvsL_testmatrix(L, -1);
+    h0 = lvsL_testmatrix(L, ends[0]);
+    v = lvsL_testmatrix(L, ends[1]);
     /* keep both on the stack (below the userdata pushed later) */
     lua_getfield(L, 1, "H");
     fu->fidx = lua_gettop(L);
@@ -307,12 +308,6 @@ static int l_sweep(lua_State *L) {
     spec.family_ud = &fu;
   }
   int st = lvs_sweep_new(ctx, &spec, &u->s);
-  if (family) {
-    lua_pushnil(L);
-    lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.sweep.Hfrom");
-    lua_pushnil(L);
-    lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.sweep.Hto");
-  }
   if (ps.shown) fputc('\n', stderr);
   if (!st && (pname || punit || eunit)) st = lvs_sweep_set_labels(u->s, pname, punit, eunit);
   if (st == LVS_ENOTHERM || st == LVS_EDIM) {
