@@ -74,6 +74,12 @@ local SEEDS = {
   function(ls) local s = ls.spin(0.5) return s, s.Sz end,
   function(ls) local p = ls.product(ls.spin(0.5), 2) local st = p:site(1) return p, st, st.Sz end,
   function(ls) return ls.product(ls.spin(0.5), ls.oscillator(2)) end,
+  -- 1024 states: its site operators are site sums (localsum.c) until written out
+  function(ls)
+    local p = ls.product(ls.spin(0.5), 10)
+    local a, b = p:site(1), p:site(2)
+    return p, a.Sz * b.Sz + 0.5 * (a.Sp * b.Sm), a.Sx, b.Sy
+  end,
   function(ls) return ls.basis(3), ls.basis { "g", "e" } end,
   function(ls) local E, U = ls.eigen(ls.spin(1).Sx) return E, U end,
   function(ls)
