@@ -131,10 +131,19 @@ static int own_lua_dir(char *out, size_t len) {
 
 static void add_root(lua_State *L, const char *dir);
 
+/* the module path as the host set it (put back before each sandboxed run) */
+static void keep_host_path(lua_State *L) {
+  lua_getglobal(L, LUA_LOADLIBNAME);
+  lua_getfield(L, -1, "path");
+  lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.host_path");
+  lua_pop(L, 1);
+}
+
 static int add_path_protected(lua_State *L) {
   const char *dir = lua_touserdata(L, 1);
   prepend_path(L, dir);
   add_root(L, dir); /* a sandbox reads from it too */
+  keep_host_path(L);
   return 0;
 }
 
@@ -432,7 +441,18 @@ static int host_setup(lua_State *L) {
     }
     lua_call(L, 3, 1);
     lua_setfield(L, LUA_REGISTRYINDEX, "levelshift.restore");
+    keep_host_path(L);
   }
+  return 0;
+}
+
+/* registry "levelshift.restore", then package.path as the host set it */
+static int restore_sandbox(lua_State *L) {
+  lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.restore");
+  lua_call(L, 0, 0);
+  lua_getglobal(L, LUA_LOADLIBNAME);
+  lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.host_path");
+  lua_setfield(L, -2, "path");
   return 0;
 }
 
@@ -495,11 +515,10 @@ static int run(lvs_host *h, int status) {
   h->fence.seconds = h->deadline;
   h->fence.deadline = h->deadline > 0 ? lvs_monotonic() + h->deadline : 0;
   lua_sethook(L, count_hook, LUA_MASKCOUNT, HOOK_STEP); /* budget, deadline, interrupt */
-  if (status == LUA_OK && lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.restore") == LUA_TFUNCTION) {
-    status = lua_pcall(L, 0, 0, 0); /* the sandbox as the host set it up */
+  if (status == LUA_OK && (h->flags & LVS_HOST_SANDBOX)) {
+    lua_pushcfunction(L, restore_sandbox); /* the sandbox as the host set it up */
+    status = lua_pcall(L, 0, 0, 0);
     if (status != LUA_OK) lua_remove(L, -2); /* the chunk; the message stays */
-  } else if (status == LUA_OK) {
-    lua_pop(L, 1);
   }
   if (status == LUA_OK) {
     lua_pushcfunction(L, traceback);

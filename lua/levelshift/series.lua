@@ -170,7 +170,9 @@ return function(ls, core)
     elseif L == nil or M == nil then
       error("bad argument to 'pade' (give both L and M, or neither)", 2)
     end
-    if math.type(L) ~= "integer" or math.type(M) ~= "integer" or L < 0 or M < 0 or L + M > K then
+    -- (L > K and M > K first: L + M wraps around for math.maxinteger)
+    if math.type(L) ~= "integer" or math.type(M) ~= "integer" or L < 0 or M < 0 or L > K or M > K
+      or L + M > K then
       error(string.format("bad argument #3 to 'pade' (need integers L, M >= 0 with L + M <= %d)", K), 2)
     end
     local a = coeffs(s, level)

@@ -598,12 +598,14 @@ function H.new(ls, opts)
   end
 
   function F.run(n)
-    local p, w = print, io.write
-    print, io.write = function() end, function() return io.stdout end
+    local p, w = print, io and io.write -- (a sandboxed host has no io)
+    print = function() end
+    if io then io.write = function() return io.stdout end end
     local ok, e = pcall(function()
       for _ = 1, n do F.step() end
     end)
-    print, io.write = p, w
+    print = p
+    if io then io.write = w end
     if not ok then error(e, 0) end
     return F
   end

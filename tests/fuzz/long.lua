@@ -24,8 +24,14 @@ while done < calls do
   local n = math.min(every, calls - done)
   F.run(n)
   done = done + n
-  io.write(string.format("fuzz: %d calls, %d returned, %d raised, %.1f s\n", F.calls, F.ok, F.errors,
-    ls.clock() - t0))
+  local rss = "?"
+  local st = io.open("/proc/self/status")
+  if st then
+    rss = (st:read("a"):match("VmRSS:%s*(%d+ kB)")) or "?"
+    st:close()
+  end
+  io.write(string.format("fuzz: %d calls, %d returned, %d raised, %.1f s, resident %s\n", F.calls, F.ok, F.errors,
+    ls.clock() - t0, rss))
   io.flush()
 end
 local lines = F.report()

@@ -26,6 +26,18 @@ describe("documented errors", function()
     errs("option 'blocks': entry (2, 1) = 0.1 couples two blocks", function() return ls.eigen(ls.matrix { { 1, 0.1, 0 }, { 0.1, 1, 0 }, { 0, 0, 2 } }, { blocks = { { 1 }, { 2, 3 } } }) end)
   end)
 
+  it("s:pade refuses orders past the series, also math.maxinteger (L + M wraps around)", function()
+    -- (found by the long fuzz run: M = math.maxinteger passed the check and looped for ever)
+    local o = ls.oscillator(6)
+    local s = ls.perturb(o.number, o.x ^ 2, {order = 4})
+    for _, LM in ipairs{{1, math.maxinteger}, {math.maxinteger, 1}, {3, 2}, {-1, 2}} do
+      local ok, e = pcall(s.pade, s, 1, 0.1, LM[1], LM[2])
+      assert.is_false(ok)
+      assert.truthy(tostring(e):find("need integers L, M >= 0 with L + M <= 4", 1, true), e)
+    end
+    assert.is_true(math.abs(s:pade(1, 0.1, 2, 2) - s:at(1, 0.1)) < 1e-3)
+  end)
+
   it("one allocation above the dense cap is refused and says so", function()
     errs("above the dense cap", function() return ls.basis(2 ^ 31) end)
     errs("raise it with ls.config{dense_cap = bytes}", function() return ls.basis(2 ^ 31) end)
