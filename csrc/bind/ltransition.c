@@ -304,7 +304,7 @@ static int l_transition(lua_State *L) {
   int given = !lua_isnil(L, -1);
   lua_pop(L, 1);
   if (given && (steps < 8 || steps > 100000000))
-    return luaL_error(L, "bad argument #1 to 'transition' (steps must be from 8 to 1e8, got %d)", (int)steps);
+    return luaL_error(L, "bad argument #1 to 'transition' (steps must be from 8 to 1e8, got %I)", (lua_Integer)steps);
   sp.steps = (size_t)steps;
   lvs_transition **out = newtr(L); /* 5 */
   if (kind) {

@@ -57,6 +57,8 @@ static int eigen_tridiag(const lvs_matrix *a, size_t count, int want, double *w,
       else if (a->ri[k] == j + 1) e[j] = a->a[k];
     }
   if (want && (st = lvsi_mat_alloc(ctx, n, count, 0, 0, 0, &z))) goto done;
+  /* MRRR / root-free QR: O(n) flops per eigenvalue, a few tens each */
+  if ((st = lvsi_fence_cost(ctx, 30.0 * (double)n * (double)count, "eigen (a tridiagonal solve)"))) goto done;
   lapack_int found = 0;
   double dummy = 0.0;
   lapack_int info = LAPACKE_dstevr(LAPACK_COL_MAJOR, want ? 'V' : 'N', count == n ? 'A' : 'I',
