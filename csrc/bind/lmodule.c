@@ -94,6 +94,13 @@ int lvsL_may_read(lua_State *L, const char *path) {
   if (stat(path, &sb) == 0 && S_ISDIR(sb.st_mode)) snprintf(dir, sizeof dir, "%s", path);
   if (!realpath(dir, real)) return 0;
   int ok = 0, top = lua_gettop(L);
+  /* never code from the folder scripts write to, even when the host put it
+   * on the module path too: a script would plant a module for later runs */
+  if (lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.write_dir") == LUA_TSTRING && inside(real, lua_tostring(L, -1))) {
+    lua_settop(L, top);
+    return 0;
+  }
+  lua_settop(L, top);
   if (lua_getfield(L, LUA_REGISTRYINDEX, "levelshift.read_roots") == LUA_TTABLE) {
     lua_Integer n = (lua_Integer)lua_rawlen(L, -1);
     for (lua_Integer k = 1; !ok && k <= n; k++) {

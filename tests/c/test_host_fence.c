@@ -119,6 +119,18 @@ static void writable_directory(void) {
     expect(h, c2, 1, "write");
   }
   check(count_entries(outside) == 0, "an escape wrote into the other folder");
+  /* the writable directory is never read as code, even on the module path:
+   * a file written there (the writer's text is partly the script's, through
+   * labels) cannot be required by a later run */
+  lvs_host_add_path(h, wdir);
+  snprintf(code, sizeof code, "%s/planted.lua", wdir);
+  FILE *pf = fopen(code, "w"); /* as if a script had managed to write it */
+  if (pf) {
+    fputs("planted = true", pf);
+    fclose(pf);
+  }
+  expect(h, "require 'planted'", 1, "no file in this host's folders");
+  expect(h, "assert(planted == nil)", 0, NULL);
   check(access("/tmp/lvs_fence_escape.csv", F_OK) != 0, "an escape wrote /tmp/lvs_fence_escape.csv");
   lvs_host_free(h);
   snprintf(code, sizeof code, "rm -rf '%s'", base);
