@@ -186,7 +186,8 @@ typedef enum {
   LVS_BASIS_PRODUCT = 3,
   LVS_BASIS_CUSTOM = 4, /* made by a recipe from its own matrices */
   LVS_BASIS_BOX = 5,    /* particle in a box (box.c) */
-  LVS_BASIS_ROTOR = 6   /* rigid rotor |J M> (rotor.c) */
+  LVS_BASIS_ROTOR = 6,  /* rigid rotor |J M> (rotor.c) */
+  LVS_BASIS_CHARGE = 7  /* charge states |n>, n = -N..N (charge.c) */
 } lvs_basis_kind;
 
 #define LVS_DEFAULT_PAD 16 /* extra oscillator levels kept for exact products */
@@ -671,6 +672,11 @@ LVS_API int lvs_box_potential(const lvs_basis *b, lvs_real_fn f, void *ud, const
  * with every M: "Jp", "Jm", "Jx", "Jy" (Condon-Shortley phases), "identity".
  * LVS_EINVAL for jmax < 0 or |m| > jmax; LVS_ECAP for jmax > 2000. */
 LVS_API int lvs_basis_rotor(lvs_ctx *ctx, int jmax, int all_m, int m, lvs_basis **out);
+/* Charge basis (charge.c): states |n>, n = -N..N (1 <= N <= 1e6), label n,
+ * ordered by n; operators "n", "n2" (n^2), "cos" (cos phi), "sin" (sin
+ * phi, complex), "cos2" (cos 2 phi, exact up to the edge), "raise"
+ * (e^{i phi}: |n> -> |n + 1>), "lower" (e^{-i phi}), "identity". */
+LVS_API int lvs_basis_charge(lvs_ctx *ctx, long N, lvs_basis **out);
 /* Clebsch-Gordan coefficient <j1 m1 j2 m2 | J M> (Condon-Shortley phase)
  * with every argument doubled (two_j1 = 2 j1, ...), by Racah's formula in
  * long double with log-gamma; 0 when M != m1 + m2 or the triangle rule

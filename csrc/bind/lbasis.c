@@ -152,7 +152,7 @@ static int b_sites(lua_State *L) {
 }
 
 static int b_kind(lua_State *L) {
-  static const char *names[] = {"plain", "oscillator", "spin", "product", "custom", "box", "rotor"};
+  static const char *names[] = {"plain", "oscillator", "spin", "product", "custom", "box", "rotor", "charge"};
   lua_pushstring(L, names[lvs_basis_kind_of(lvsL_checkbasis(L, 1))]);
   return 1;
 }

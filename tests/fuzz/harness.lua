@@ -124,6 +124,7 @@ local SEEDS = {
     local bx, rt = ls.box(3), ls.rotor(1)
     return bx, rt, bx.x, rt.cos
   end,
+  function(ls) local c = ls.charge(3) return c, c.cos, c.sin end,
   -- @@FEATURE-FUZZ-SEEDS@@ (one constructor per new object type, above this line)
 }
 H.SEEDS = SEEDS
@@ -167,6 +168,7 @@ local TEMPLATES = {
   ["ls.blocks"] = function(ls) return { ls.matrix { { 1, 0 }, { 0, 2 } } } end,
   ["ls.box"] = function() return { 4, { width = 1.5 } } end,
   ["ls.rotor"] = function() return { 2 } end,
+  ["ls.charge"] = function() return { 3 } end,
   ["ls.oscillator"] = function() return { 4, { pad = 4 } } end,
   ["ls.product"] = function(ls) return { ls.spin(0.5), 2 } end,
   -- @@FEATURE-FUZZ-TEMPLATES@@ (a valid call per new constructor, above this line)

@@ -373,3 +373,100 @@ describe("recipes under hostile parameters", function()
     assert.are.same({}, bad)
   end)
 end)
+
+describe("charge basis and recipe charge_qubit", function()
+  it("has the Mathieu characteristic values as exact levels (n_g = 0)", function()
+    -- H/E_C = 4 n^2 - (E_J/E_C) cos(phi) is Mathieu's equation with q = E_J/(2 E_C)
+    -- (Koch et al., Phys. Rev. A 76, 042319 (2007), eq. (2.4)): E_0 = a_0(q),
+    -- E_1 = b_2(q), E_2 = a_2(q). a_0(1) = -0.45513860, a_0(5) = -5.80004602
+    -- (Abramowitz & Stegun, Handbook, 1964, Table 20.1); all values below from
+    -- scipy.special.mathieu_a / mathieu_b (SciPy 1.10.1, Debian 12), which
+    -- agree with the table to its 8 digits.
+    local ref = {
+      [1] = { -0.45513860410741364, 3.917024772998471, 4.371300982735086 },
+      [5] = { -5.800046020851508, 2.0994604454866654, 7.449109739529177 },
+      [25] = { -40.25677954656679, -21.314860622249853, -3.5221647271582945 },
+    }
+    for q, want in pairs(ref) do
+      local m = ls.recipe("charge_qubit", { E_C = 1, E_J = 2 * q, n_g = 0, N = 30 })
+      local E = m.exact(3)
+      for k = 1, 3 do near(want[k], E[k], 1e-9, "q = " .. q .. ", level " .. k) end
+    end
+  end)
+
+  it("splits the sweet spot n_g = 1/2 by E_J at first order, with the second order of the far charges", function()
+    -- at n_g = 1/2 the charge states 0 and 1 are degenerate (4 E_C (1/2)^2 = E_C); V = -E_J cos(phi)
+    -- couples them by -E_J/2: first order -+E_J/2 (Bouchiat et al., Phys. Scr. T76, 165 (1998));
+    -- second order: each couples to its far neighbour (n = -1 or 2, at 9 E_C) by -E_J/2:
+    -- (E_J/2)^2 / (E_C - 9 E_C) (the nondegenerate formula, common practice)
+    local EC, EJ = 0.3, 0.02
+    local m = ls.recipe("charge_qubit", { E_C = EC, E_J = EJ, n_g = 0.5, N = 8 })
+    local s = ls.perturb(m.H0, m.V, { order = 3, levels = { 1, 2 } })
+    near(EC, s:energy(1, 0), 1e-14, "E(0)")
+    near(-EJ / 2, s:energy(1, 1), 1e-14, "lower, first order")
+    near(EJ / 2, s:energy(2, 1), 1e-14, "upper, first order")
+    near((EJ / 2) ^ 2 / (EC - 9 * EC), s:energy(1, 2), 1e-15, "second order")
+    near(m.sweet_spot_gap(), s:energy(2, 1) - s:energy(1, 1), 1e-14, "gap")
+    local E = m.exact(2)
+    near(EJ, E[2] - E[1], 1e-3 * EJ, "exact gap") -- the far charges move both levels alike
+  end)
+
+  it("gives the transmon's plasma line and anharmonicity at first order", function()
+    -- E_01 = sqrt(8 E_J E_C) - E_C and E_12 - E_01 = -E_C at first order in the quartic term
+    -- (Koch et al. 2007, eqs. (2.11), (2.12)); the exact charge-basis values at E_J/E_C = 50
+    -- are within a few percent (the higher terms of cos(phi) and of the series)
+    local EC, EJ = 0.25, 12.5
+    local m = ls.recipe("charge_qubit", { E_C = EC, E_J = EJ, regime = "transmon", levels = 40, N = 30 })
+    local s = ls.perturb(m.H0, m.V, { order = 1, levels = { 1, 2, 3 } })
+    local wp = math.sqrt(8 * EJ * EC)
+    local E = {}
+    for k = 1, 3 do E[k] = s:energy(k, 0) + s:energy(k, 1) end
+    near(wp - EC, E[2] - E[1], 1e-12, "E_01")
+    near(-EC, (E[3] - E[2]) - (E[2] - E[1]), 1e-12, "anharmonicity")
+    local X = m.exact(3)
+    rel(wp - EC, X[2] - X[1], 0.01, "exact E_01")
+    rel(-EC, (X[3] - X[2]) - (X[2] - X[1]), 0.2, "exact anharmonicity")
+  end)
+
+  it("adds a resonator: uncoupled levels are sums, coupled ones stay Hermitian and real", function()
+    -- coupling 0: the levels are qubit levels plus k omega_r (common practice)
+    local m0 = ls.recipe("charge_qubit", { E_C = 0.3, E_J = 6, n_g = 0.2, N = 12, photons = 4, omega_r = 5,
+      coupling = 0 })
+    local q = ls.recipe("charge_qubit", { E_C = 0.3, E_J = 6, n_g = 0.2, N = 12 }).exact(3)
+    local sums = {}
+    for a = 1, 3 do for k = 0, 3 do sums[#sums + 1] = q[a] + 5 * k end end
+    table.sort(sums)
+    local E = m0.exact(4)
+    for k = 1, 4 do near(sums[k], E[k], 1e-10, "level " .. k) end
+    local m = ls.recipe("charge_qubit", { E_C = 0.3, E_J = 6, n_g = 0.2, N = 12, photons = 4, omega_r = 5,
+      coupling = 0.05 })
+    assert.is_true((m.H0 + m.V):is_hermitian())
+  end)
+
+  it("has charge-basis operators with the commutator of conjugate variables", function()
+    -- [n, e^{i phi}] = e^{i phi} exactly, also truncated; cos^2 + sin^2 = 1 away from the edge
+    -- (common practice); sin is Hermitian
+    local C = ls.charge(5)
+    local comm = C.n * C.raise - C.raise * C.n - C.raise
+    local worst = 0
+    for i = 1, 11 do for j = 1, 11 do
+      local re, im = comm:get(i, j)
+      worst = math.max(worst, math.abs(re), math.abs(im))
+    end end
+    assert.are.equal(0, worst)
+    local one = C.cos * C.cos + C.sin * C.sin
+    for i = 2, 10 do
+      local re, im = one:get(i, i)
+      near(1, re, 1e-15, "cos^2 + sin^2 at " .. i)
+      near(0, im, 1e-15)
+    end
+    assert.is_true((C.sin):is_hermitian())
+    assert.are.equal(-5, C:labels(1).n)
+    local ok, e = pcall(function() return C.tan end)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("charge basis has no operator 'tan'", 1, true), e)
+    ok, e = pcall(ls.charge, 0)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("N must be at least 1", 1, true), e)
+  end)
+end)
