@@ -646,6 +646,14 @@ LVS_API int lvs_box_params(const lvs_basis *b, double *width, double *mass, doub
  * values to fx[]; returns 0 on success, nonzero to abort (the caller keeps
  * its own reason). */
 typedef int (*lvs_real_fn)(void *ud, size_t n, const double *x, double *fx);
+/* f(A) = U f(Lambda) U^H of a Hermitian op (opfun.c): f is called once with
+ * A's eigenvalues (all of them, ascending). A padded op (oscillator
+ * operators) is taken on its whole stored space, so f(A) inside the kept
+ * levels is that of the larger matrix; the result keeps the padding with
+ * no exact padded level left (a product with it is refused). Dense result.
+ * LVS_ENOTHERM, LVS_ECAP (dense cap), LVS_EINVAL when f fails or returns
+ * NaN or inf. */
+LVS_API int lvs_matrix_function(const lvs_matrix *a, lvs_real_fn f, void *ud, lvs_matrix **out);
 #define LVS_DEFAULT_BOX_TOL 1e-12       /* relative to max|V| on the grid */
 #define LVS_BOX_MAX_POINTS ((size_t)1 << 20) /* quadrature points per grid */
 typedef struct {

@@ -55,6 +55,7 @@ void lvsL_open_coulomb(lua_State *L, int ctxidx);
 void lvsL_open_box(lua_State *L, int ctxidx);
 void lvsL_open_rotor(lua_State *L, int ctxidx);
 void lvsL_open_charge(lua_State *L, int ctxidx);
+void lvsL_open_opfun(lua_State *L, int ctxidx);
 void lvsL_open_radial(lua_State *L, int ctxidx);
 void lvsL_open_solve_series(lua_State *L, int ctxidx);
 void lvsL_open_units(lua_State *L, int ctxidx);
@@ -86,6 +87,17 @@ int lvsL_gc_by_hand(lua_State *L);
 /* in a __gc: raise when a script calls it by hand while a binding below may
  * hold the object (the collector itself never gets here with one in use) */
 void lvsL_gc_guard(lua_State *L, const char *what);
+
+/* a Lua function of a real number as an lvs_real_fn: ud is an lvsL_realcb
+ * with the function at stack index fidx; on failure err says why (the
+ * point, the Lua error, a non-number or a NaN/inf result) */
+typedef struct {
+  lua_State *L;
+  int fidx;
+  int failed;
+  char err[400];
+} lvsL_realcb;
+int lvsL_real_fn(void *ud, size_t n, const double *x, double *fx);
 
 /* register funcs with the ctx userdata as upvalue into table at -1 */
 void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx);

@@ -41,51 +41,6 @@ static int l_box(lua_State *L) {
   return 1;
 }
 
-typedef struct {
-  lua_State *L;
-  int fidx;
-  int failed;
-  char err[400];
-} potcb;
-
-static int pot_fn(void *ud, size_t n, const double *x, double *fx) {
-  potcb *cb = ud;
-  lua_State *L = cb->L;
-  if (!lua_checkstack(L, 4)) {
-    snprintf(cb->err, sizeof cb->err, "Lua stack overflow");
-    cb->failed = 1;
-    return 1;
-  }
-  for (size_t i = 0; i < n; i++) {
-    lua_pushvalue(L, cb->fidx);
-    lua_pushnumber(L, x[i]);
-    if (lua_pcall(L, 1, 1, 0) != LUA_OK) {
-      /* no conversions here: lua_tostring of a number could allocate */
-      snprintf(cb->err, sizeof cb->err, "the function failed at x = %.17g: %s", x[i],
-               lua_type(L, -1) == LUA_TSTRING ? lua_tostring(L, -1) : luaL_typename(L, -1));
-      lua_pop(L, 1);
-      cb->failed = 1;
-      return 1;
-    }
-    if (lua_type(L, -1) != LUA_TNUMBER) {
-      snprintf(cb->err, sizeof cb->err, "the function returned a %s at x = %.17g (number expected)",
-               luaL_typename(L, -1), x[i]);
-      lua_pop(L, 1);
-      cb->failed = 1;
-      return 1;
-    }
-    fx[i] = lua_tonumber(L, -1);
-    lua_pop(L, 1);
-    if (!isfinite(fx[i])) {
-      snprintf(cb->err, sizeof cb->err, "the function returned %s at x = %.17g", isnan(fx[i]) ? "NaN" : "inf",
-               x[i]);
-      cb->failed = 1;
-      return 1;
-    }
-  }
-  return 0;
-}
-
 /* B:potential(f [, {tol=, breaks=}]) -> op, error estimate */
 static int b_potential(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
@@ -122,14 +77,14 @@ static int b_potential(lua_State *L) {
       q.nbreaks = (size_t)nb;
     }
   }
-  potcb cb;
+  lvsL_realcb cb;
   cb.L = L;
   cb.fidx = 2;
   cb.failed = 0;
   cb.err[0] = 0;
   lvs_matrix **out = lvsL_newmatrix(L);
   double err = 0;
-  int st = lvs_box_potential(b, pot_fn, &cb, &q, out, &err);
+  int st = lvs_box_potential(b, lvsL_real_fn, &cb, &q, out, &err);
   if (st != LVS_OK && cb.failed) {
     lvs_clear_error(ctx);
     return luaL_error(L, "potential: %s", cb.err);

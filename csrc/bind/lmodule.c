@@ -2,6 +2,8 @@
  * functions. The context uses the Lua state's own allocator, so a memory cap
  * set on the state (embedding hosts) also bounds the core's allocations. */
 #include <errno.h>
+#include <stdio.h>
+#include <math.h>
 #include <limits.h>
 #include <stdlib.h>
 #include <string.h>
@@ -179,6 +181,46 @@ void lvsL_gc_guard(lua_State *L, const char *what) {
     luaL_error(L, "__gc: the %s may be in use by a running levelshift function; drop it instead", what);
 }
 
+/* (the callback of B:potential and A:fn) */
+int lvsL_real_fn(void *ud, size_t n, const double *x, double *fx) {
+  lvsL_realcb *cb = ud;
+  lua_State *L = cb->L;
+  if (!lua_checkstack(L, 4)) {
+    snprintf(cb->err, sizeof cb->err, "Lua stack overflow");
+    cb->failed = 1;
+    return 1;
+  }
+  for (size_t i = 0; i < n; i++) {
+    lua_pushvalue(L, cb->fidx);
+    lua_pushnumber(L, x[i]);
+    if (lua_pcall(L, 1, 1, 0) != LUA_OK) {
+      /* no conversions here: lua_tostring of a number could allocate */
+      snprintf(cb->err, sizeof cb->err, "the function failed at x = %.17g: %s", x[i],
+               lua_type(L, -1) == LUA_TSTRING ? lua_tostring(L, -1) : luaL_typename(L, -1));
+      lua_pop(L, 1);
+      cb->failed = 1;
+      return 1;
+    }
+    if (lua_type(L, -1) != LUA_TNUMBER) {
+      snprintf(cb->err, sizeof cb->err, "the function returned a %s at x = %.17g (number expected)",
+               luaL_typename(L, -1), x[i]);
+      lua_pop(L, 1);
+      cb->failed = 1;
+      return 1;
+    }
+    fx[i] = lua_tonumber(L, -1);
+    lua_pop(L, 1);
+    if (!isfinite(fx[i])) {
+      snprintf(cb->err, sizeof cb->err, "the function returned %s at x = %.17g", isnan(fx[i]) ? "NaN" : "inf",
+               x[i]);
+      cb->failed = 1;
+      return 1;
+    }
+  }
+  return 0;
+}
+
+
 void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx) {
   for (; l->name; l++) {
     lua_pushvalue(L, ctxidx);
@@ -351,6 +393,7 @@ __attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L)
   lvsL_open_box(L, ctxidx);
   lvsL_open_rotor(L, ctxidx);
   lvsL_open_charge(L, ctxidx);
+  lvsL_open_opfun(L, ctxidx);
   lvsL_open_radial(L, ctxidx);
   lvsL_open_solve_series(L, ctxidx);
   lvsL_open_units(L, ctxidx);

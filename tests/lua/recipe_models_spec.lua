@@ -470,3 +470,53 @@ describe("charge basis and recipe charge_qubit", function()
     assert.truthy(tostring(e):find("N must be at least 1", 1, true), e)
   end)
 end)
+
+describe("functions of an operator and recipe morse", function()
+  it("gives exp(-alpha x) with the ground-state value exp(alpha^2/4)", function()
+    -- <0|exp(-alpha x)|0> = exp(alpha^2/4) for x = (a + a^+)/sqrt(2) (the Gaussian ground
+    -- state's moment generating function; common practice); <1|..|1> = (1 + alpha^2/2) exp(alpha^2/4)
+    local o = ls.oscillator(30, { pad = 60 })
+    for _, al in ipairs { 0.3, 1.0 } do
+      local E = o.x:fn(function(x) return math.exp(-al * x) end)
+      rel(math.exp(al * al / 4), E:get(1, 1), 1e-12, "<0|exp|0>, alpha " .. al)
+      rel((1 + al * al / 2) * math.exp(al * al / 4), E:get(2, 2), 1e-12, "<1|exp|1>, alpha " .. al)
+    end
+    -- a polynomial of x equals the op's own power inside the kept levels
+    local X2 = o.x:fn(function(x) return x * x end)
+    local ref = o.x ^ 2
+    for i = 1, 30 do near(ref:get(i, i), X2:get(i, i), 1e-11, "x^2 at " .. i) end
+    -- a product with f(x) would reach past the padding: refused
+    local ok, e = pcall(function() return X2 * o.x end)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("beyond the padding", 1, true), e)
+    ok, e = pcall(function() return ls.matrix { { 1, 2 }, { 3, 4 } }:fn(math.exp) end)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("fn: matrix is not Hermitian", 1, true), e)
+    ok, e = pcall(function() return o.x:fn(function() return 0 / 0 end) end)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("fn: the function returned NaN", 1, true), e)
+  end)
+
+  it("has the exact Morse levels in a large enough basis", function()
+    -- E_n = omega (n + 1/2) - omega^2 (n + 1/2)^2 / (4 D), omega = a sqrt(2 D)
+    -- (Morse, Phys. Rev. 34, 57 (1929))
+    local m = ls.recipe("morse", { D = 10, a = 0.5, levels = 150, pad = 100 })
+    assert.are.equal(9, m.bound)
+    local E = m.exact(6)
+    for n = 0, 5 do near(m.level_exact(n), E[n + 1], 1e-8, "level " .. n) end
+  end)
+
+  it("gets the anharmonic constant at second order, the error falling like a^3", function()
+    -- E_1 - E_0 = omega - a^2 (Morse 1929); the order-2 series holds the cubic (second
+    -- order) and quartic (first order) terms, so its error is of the next order: with
+    -- omega ~ a it falls by 8 when a halves (Dunham, Phys. Rev. 41, 721 (1932))
+    local err = {}
+    for k, a in ipairs { 0.05, 0.025 } do
+      local m = ls.recipe("morse", { D = 10, a = a, levels = 40 })
+      local s = ls.perturb(m.H0, m.V, { order = 2, levels = { 1, 2 } })
+      err[k] = (s:at(2, 1) - s:at(1, 1)) - (m.level_exact(1) - m.level_exact(0))
+    end
+    local ratio = err[1] / err[2]
+    assert.is_true(ratio > 7.5 and ratio < 8.5, "error ratio " .. ratio)
+  end)
+end)
