@@ -307,6 +307,28 @@ typedef struct lvs_eigen_stats {
 LVS_API int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want_vectors,
                          const lvs_eigen_opts *opts, double *w, lvs_matrix **vecs);
 
+/* ---- dynamic polarizability (polar.c) ---------------------------------
+ * alpha(omega) of level `level` (0-based, ascending energies) of H0 in a
+ * field coupled by the Hermitian D:
+ *   sum_m |D_mn|^2 [1/(E_m - E_n - omega - i width/2) + 1/(E_m - E_n + omega + i width/2)]
+ * over the states outside the level, at nw frequencies (re, im: nw each).
+ * path 0: automatic (the spectral sum over every eigenpair up to 4000
+ * states or for a dense H0; above, for a sparse H0, Dalgarno-Lewis solves
+ * with the reduced resolvent, real omega and a single level only), 1: the
+ * spectral sum, 2: the solves. info: the level's energy, the first
+ * resonance |E_m - E_n| that D reaches (spectral; the solves path gives the
+ * nearest other level found, a lower bound) and the number of poles.
+ * LVS_EINVAL for omega on a pole without width, a degenerate level on the
+ * solves path, a width on the solves path. */
+typedef struct {
+  double energy, first_pole;
+  size_t poles;
+  int path; /* 0 spectral, 1 solves */
+} lvs_polar_info;
+LVS_API int lvs_polarizability(const lvs_matrix *h0, const lvs_matrix *d, size_t level, size_t nw,
+                               const double *omegas, double width, int path, double *re, double *im,
+                               lvs_polar_info *info);
+
 /* ---- sweeps of a coupling or a field (sweep.c) ------------------------
  * Lowest count levels of H(p) = H0 + p V on p_k = from + (to-from) k/steps,
  * k = 0..steps (1 <= steps <= 1e6), computed by `threads` threads (0 = 2;

@@ -56,6 +56,7 @@ void lvsL_open_box(lua_State *L, int ctxidx);
 void lvsL_open_rotor(lua_State *L, int ctxidx);
 void lvsL_open_charge(lua_State *L, int ctxidx);
 void lvsL_open_opfun(lua_State *L, int ctxidx);
+void lvsL_open_polar(lua_State *L, int ctxidx);
 void lvsL_open_radial(lua_State *L, int ctxidx);
 void lvsL_open_solve_series(lua_State *L, int ctxidx);
 void lvsL_open_units(lua_State *L, int ctxidx);

@@ -394,6 +394,7 @@ __attribute__((visibility("default"))) int luaopen_levelshift_core(lua_State *L)
   lvsL_open_rotor(L, ctxidx);
   lvsL_open_charge(L, ctxidx);
   lvsL_open_opfun(L, ctxidx);
+  lvsL_open_polar(L, ctxidx);
   lvsL_open_radial(L, ctxidx);
   lvsL_open_solve_series(L, ctxidx);
   lvsL_open_units(L, ctxidx);

@@ -473,6 +473,16 @@ int lvs_eigen_ex(const lvs_matrix *h, const size_t *comp, size_t count, int want
     }
     return lvs_eigen_dense(h, count, want_vectors, w, vecs);
   }
+  if (o && o->has_near && a->sparse) {
+    double glo, ghi;
+    lvsi_gershgorin(a, &glo, &ghi);
+    if (!(o->near >= glo && o->near <= ghi)) {
+      lvs_matrix_free(p);
+      return lvsi_fail(ctx, LVS_EINVAL,
+                       "eigen: near = %.6g lies outside the spectrum's range [%.6g, %.6g] (Gershgorin bounds)",
+                       o->near, glo, ghi);
+    }
+  }
   size_t *cc = NULL;
   splan pl = {0};
   if (!(o && o->hermitian) && (st = lvsi_check_hermitian(a, LVS_DEFAULT_HERM_TOL, "matrix"))) goto done;
