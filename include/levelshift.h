@@ -218,6 +218,10 @@ LVS_API int lvs_basis_find(const lvs_basis *b, const double *want, size_t *idx);
  * single basis, or 1..sites for a site of a product. */
 LVS_API int lvs_basis_op(const lvs_basis *b, size_t site, const char *name,
                          lvs_matrix **out);
+/* A user's matrix m (plain, the size of site `site`, 1-based) on that site
+ * of a product: I (x) m (x) I. The site may not be padded (an oscillator:
+ * use its own operators). LVS_EINVAL, LVS_ERANGE, LVS_EDIM. */
+LVS_API int lvs_basis_place(const lvs_basis *b, size_t site, const lvs_matrix *m, lvs_matrix **out);
 /* An op on the basis from a plain visible-size matrix (embedded, padded
  * space zero). */
 LVS_API int lvs_basis_embed(const lvs_basis *b, const lvs_matrix *plain,
@@ -244,6 +248,8 @@ LVS_API int lvs_localsum_sum(lvs_ctx *ctx, size_t count, const double (*coef)[2]
                              const lvs_localsum *const *terms, lvs_localsum **out);
 LVS_API int lvs_localsum_mul(const lvs_localsum *a, const lvs_localsum *b, lvs_localsum **out);
 LVS_API int lvs_localsum_compatible(const lvs_localsum *a, const lvs_localsum *b);
+/* the plain matrix m (the site's size) on site `site` (1-based) */
+LVS_API int lvs_localsum_place(const lvs_basis *b, size_t site, const lvs_matrix *m, lvs_localsum **out);
 LVS_API size_t lvs_localsum_terms(const lvs_localsum *s);
 LVS_API size_t lvs_localsum_dim(const lvs_localsum *s);
 LVS_API int lvs_localsum_is_complex(const lvs_localsum *s);

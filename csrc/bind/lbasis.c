@@ -387,6 +387,31 @@ static int push_op(lua_State *L, lvs_basis *b, size_t site, const char *name) {
   return 1;
 }
 
+/* P:place(i, M): the user's matrix M (the site's size) on site i of a
+ * product, identity elsewhere; a site sum on a large unpadded product */
+static int b_place(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_basis *b = lvsL_checkbasis(L, 1);
+  int ok;
+  lua_Integer i = lua_tointegerx(L, 2, &ok);
+  size_t ns = lvs_basis_kind_of(b) == LVS_BASIS_PRODUCT ? lvs_basis_sites(b) : 0;
+  if (!ns) return luaL_argerror(L, 1, "place needs a product basis (ls.product)");
+  if (!ok || i < 1 || (size_t)i > ns) {
+    lua_pushfstring(L, "site index must be an integer from 1 to %d", (int)ns);
+    return luaL_argerror(L, 2, lua_tostring(L, -1));
+  }
+  lvs_matrix *m = lvsL_checkmatrix(L, 3);
+  lvs_matrix **out = lvsL_newmatrix(L);
+  if (lvs_localsum_pays(b)) {
+    lvs_localsum *s;
+    lvsL_check(L, ctx, lvs_localsum_place(b, (size_t)i, m, &s), "place");
+    out[2] = (lvs_matrix *)(void *)s;
+    return 1;
+  }
+  lvsL_check(L, ctx, lvs_basis_place(b, (size_t)i, m, out), "place");
+  return 1;
+}
+
 /* ls._site_sum(P, i, name): the op of site i as a site sum whatever the
  * basis size (for the specs: the same op both ways) */
 static int l_site_sum(lua_State *L) {
@@ -459,7 +484,7 @@ void lvsL_open_basis(lua_State *L, int ctxidx) {
   static const luaL_Reg methods[] = {
       {"dim", b_dim}, {"sites", b_sites}, {"kind", b_kind}, {"labels", b_labels},
       {"label_names", b_label_names}, {"diag", b_diag}, {"matrix", b_matrix},
-      {"identity", b_identity}, {"state", b_state}, {"find", b_find}, {"site", b_site},
+      {"identity", b_identity}, {"state", b_state}, {"find", b_find}, {"site", b_site}, {"place", b_place},
       {"close", b_close}, {NULL, NULL}};
   luaL_newmetatable(L, LVS_BASIS_MT);
   lua_pushcfunction(L, b_gc);

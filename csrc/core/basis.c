@@ -432,6 +432,34 @@ static int single_op(const lvs_basis *b, const char *name, lvs_matrix **out, lon
   return lvsi_fail(ctx, LVS_EINVAL, "a plain basis has no operator '%s' (it has identity)", name);
 }
 
+/* I_left (x) op (x) I_right on the stored product space, op a CSC
+ * matrix of site `site`'s stored size (1-based), written in place */
+static int place_csc(const lvs_basis *b, size_t site, const lvs_matrix *op, lvs_matrix **out) {
+  lvs_ctx *ctx = b->ctx;
+  const lvs_basis *f = b->sites[site - 1];
+  size_t left = 1, right = 1;
+  for (size_t i = 0; i < site - 1; i++) left *= b->sites[i]->m;
+  for (size_t i = site; i < b->nsites; i++) right *= b->sites[i]->m;
+  size_t fm = f->m, mm = b->m;
+  lvs_matrix *c;
+  int st = lvsi_mat_alloc(ctx, mm, mm, op->cplx, 1, left * right * (op->nnz ? op->nnz : 1), &c);
+  if (st) return st;
+  size_t col = 0, nnz = 0, w = op->cplx ? 2 : 1; /* the capacity is exact: entries written in place */
+  for (size_t l = 0; l < left; l++)
+    for (size_t j = 0; j < fm; j++)
+      for (size_t r = 0; r < right; r++, col++) {
+        c->cp[col] = nnz;
+        for (size_t k = op->cp[j]; k < op->cp[j + 1]; k++, nnz++) {
+          c->ri[nnz] = (l * fm + op->ri[k]) * right + r;
+          c->a[w * nnz] = op->a[w * k];
+          if (w == 2) c->a[2 * nnz + 1] = op->a[2 * k + 1];
+        }
+      }
+  c->cp[mm] = c->nnz = nnz;
+  *out = c;
+  return LVS_OK;
+}
+
 int lvs_basis_op(const lvs_basis *b, size_t site, const char *name, lvs_matrix **out) {
   lvs_ctx *ctx = b->ctx;
   int st;
@@ -458,37 +486,64 @@ int lvs_basis_op(const lvs_basis *b, size_t site, const char *name, lvs_matrix *
       return lvsi_fail(ctx, LVS_ERANGE, "site %zu out of range (the product has %zu sites)", site,
                        b->nsites);
     const lvs_basis *f = b->sites[site - 1];
-    size_t left = 1, right = 1;
-    for (size_t i = 0; i < site - 1; i++) left *= b->sites[i]->m;
-    for (size_t i = site; i < b->nsites; i++) right *= b->sites[i]->m;
-    lvs_matrix *op, *idl = NULL, *idr = NULL, *t = NULL;
+    lvs_matrix *op;
     if ((st = single_op(f, name, &op, &band))) return st;
-    /* I_left (x) op (x) I_right, built directly in CSC */
-    size_t fm = f->m, mm = b->m;
-    st = lvsi_mat_alloc(ctx, mm, mm, op->cplx, 1, left * right * (op->nnz ? op->nnz : 1), &c);
-    if (!st) { /* the capacity is exact: entries written in place */
-      size_t col = 0, nnz = 0, w = op->cplx ? 2 : 1;
-      for (size_t l = 0; l < left; l++)
-        for (size_t j = 0; j < fm; j++)
-          for (size_t r = 0; r < right; r++, col++) {
-            c->cp[col] = nnz;
-            for (size_t k = op->cp[j]; k < op->cp[j + 1]; k++, nnz++) {
-              c->ri[nnz] = (l * fm + op->ri[k]) * right + r;
-              c->a[w * nnz] = op->a[w * k];
-              if (w == 2) c->a[2 * nnz + 1] = op->a[2 * k + 1];
-            }
-          }
-      c->cp[mm] = c->nnz = nnz;
-    }
+    st = place_csc(b, site, op, &c);
     lvs_matrix_free(op);
-    (void)idl; (void)idr; (void)t;
-    if (st) {
-      lvs_matrix_free(c);
-      return st;
-    }
+    if (st) return st;
     c->slack = f->pad ? (long)f->pad : LVS_INF_SLACK;
   }
   c->band = band;
+  if (b->vis && (st = lvsi_set_vis(c, b->n, b->vis))) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  *out = c;
+  return LVS_OK;
+}
+
+/* checks of lvs_basis_place / lvs_localsum_place: a product, the site, no
+ * padding there, a plain square matrix of the site's size */
+int lvsi_place_check(const lvs_basis *b, size_t site, const lvs_matrix *m) {
+  lvs_ctx *ctx = b->ctx;
+  if (b->kind != LVS_BASIS_PRODUCT) return lvsi_fail(ctx, LVS_EINVAL, "place needs a product basis");
+  if (site < 1 || site > b->nsites)
+    return lvsi_fail(ctx, LVS_ERANGE, "site %zu out of range (the product has %zu sites)", site, b->nsites);
+  const lvs_basis *f = b->sites[site - 1];
+  if (f->vis)
+    return lvsi_fail(ctx, LVS_EINVAL,
+                     "site %zu keeps padded levels (an oscillator): a matrix of its %zu visible states cannot stand "
+                     "for the padded ones; build the site's operators from its own (B.x, B.number, ...)",
+                     site, f->n);
+  if (m->vis || m->rows != f->n || m->cols != f->n)
+    return lvsi_fail(ctx, LVS_EDIM, "place: site %zu has %zu states, the matrix is %zux%zu", site, f->n,
+                     lvs_matrix_rows(m), lvs_matrix_cols(m));
+  return LVS_OK;
+}
+
+int lvs_basis_place(const lvs_basis *b, size_t site, const lvs_matrix *m, lvs_matrix **out) {
+  *out = NULL;
+  int st = lvsi_place_check(b, site, m);
+  if (st) return st;
+  lvs_ctx *ctx = b->ctx;
+  size_t d = m->rows;
+  lvs_matrix *op = NULL, *c = NULL;
+  if ((st = lvsi_mat_alloc(ctx, d, d, m->cplx, 1, m->sparse ? m->nnz + 1 : d * d + 1, &op))) return st;
+  for (size_t j = 0; j < d && !st; j++) { /* m as CSC (exact zeros left out) */
+    op->cp[j] = op->nnz;
+    for (size_t i = 0; i < d && !st; i++) {
+      double complex v = lvsi_mat_at(m, i, j);
+      if (v != 0.0) st = lvsi_csc_push(op, i, v);
+    }
+  }
+  if (!st) {
+    op->cp[d] = op->nnz;
+    st = place_csc(b, site, op, &c);
+  }
+  lvs_matrix_free(op);
+  if (st) return st;
+  c->slack = LVS_INF_SLACK;
+  c->band = (long)b->m;
   if (b->vis && (st = lvsi_set_vis(c, b->n, b->vis))) {
     lvs_matrix_free(c);
     return st;

@@ -132,6 +132,7 @@ LVSI void lvsi_basis_set_label(lvs_basis *b, size_t s, size_t k, double v);
 LVSI const double *lvsi_basis_par(const lvs_basis *b);
 LVSI lvs_ctx *lvsi_basis_ctx(const lvs_basis *b);
 LVSI int lvsi_basis_padded(const lvs_basis *b); /* a product with a padded site */
+LVSI int lvsi_place_check(const lvs_basis *b, size_t site, const lvs_matrix *m);
 
 
 /* mspace.c: model spaces of nearly degenerate levels for the series (see

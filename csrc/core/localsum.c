@@ -312,6 +312,33 @@ int lvs_localsum_site(const lvs_basis *b, size_t site, const char *name, lvs_loc
   return LVS_OK;
 }
 
+int lvs_localsum_place(const lvs_basis *b, size_t site, const lvs_matrix *m, lvs_localsum **out) {
+  lvs_ctx *ctx = lvsi_basis_ctx(b);
+  *out = NULL;
+  int st = lvsi_place_check(b, site, m);
+  if (st) return st;
+  if (lvsi_basis_padded(b)) return lvsi_fail(ctx, LVS_EINVAL, "site sums need a product basis without padded sites");
+  size_t ns = lvs_basis_sites(b), dims[64];
+  if (ns > 64) return lvsi_fail(ctx, LVS_EINVAL, "a product of %zu sites is above 64", ns);
+  for (size_t i = 0; i < ns; i++) dims[i] = lvs_basis_dim(lvs_basis_site(b, i));
+  lvs_localsum *s;
+  if ((st = ls_alloc(ctx, ns, dims, lvs_basis_dim(b), 1, &s))) return st;
+  if (!(st = term_alloc(ctx, 1, &s->t[0]))) {
+    s->t[0].site[0] = site - 1;
+    if (!(st = fac_from_matrix(ctx, m, &s->t[0].f[0]))) s->t[0].nf = 1;
+  }
+  if (st) {
+    lvs_localsum_free(s);
+    return st;
+  }
+  s->t[0].c = 1.0;
+  s->nt = 1;
+  s->cplx = m->cplx;
+  s->band = (long)m->rows;
+  *out = s;
+  return LVS_OK;
+}
+
 int lvs_localsum_compatible(const lvs_localsum *a, const lvs_localsum *b) {
   return a->ns == b->ns && !memcmp(a->dims, b->dims, a->ns * sizeof *a->dims);
 }

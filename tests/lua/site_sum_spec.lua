@@ -247,4 +247,34 @@ describe("site sums", function()
     assert.is_false(ok)
     assert.is_truthy(tostring(e):find("NaN", 1, true), e)
   end)
+  it("place a user's matrix on one site: the Kronecker product, kept as a site sum when large", function()
+    -- I (x) M (x) I by definition (common practice), M complex Hermitian on a spin-1 site
+    local P = mixed() -- 72 states: built directly
+    local M = ls.matrix { { 1, 2, 0 }, { 2, 0, 3 * ls.I }, { 0, -3 * ls.I, 5 } }
+    local Mt = { { { 1, 0 }, { 2, 0 }, { 0, 0 } }, { { 2, 0 }, { 0, 0 }, { 0, 3 } }, { { 0, 0 }, { 0, -3 }, { 5, 0 } } }
+    local dims = {}
+    for k, S in ipairs(spins) do dims[k] = math.floor(2 * S + 0.5) + 1 end
+    local A = P:place(4, M)
+    assert.is_false(ls._is_site_sum(A))
+    local worst = worst_against(A, function(i, j) return kron_entry(dims, { [4] = Mt }, i, j) end)
+    assert.are.equal(0, worst)
+    -- 1024 states: a site sum, equal to the same matrix made from the site's own operators
+    local Q = ls.product(ls.spin(0.5), 10)
+    local X = ls.matrix { { 0, 0.5 }, { 0.5, 0 } } -- Sx of spin 1/2
+    local B = Q:place(7, X) * Q:site(2).Sz
+    assert.is_true(ls._is_site_sum(B))
+    local C = Q:site(7).Sx * Q:site(2).Sz
+    local _, nb = B:storage()
+    local _, nc = C:storage()
+    assert.are.equal(nc, nb)
+    for i = 1, 1024, 37 do
+      for j = 1, 1024, 29 do assert.are.equal(C:get(i, j), B:get(i, j)) end
+    end
+    local ok, e = pcall(function() return P:place(2, M) end)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("site 2 has 2 states, the matrix is 3x3", 1, true), e)
+    ok, e = pcall(function() return ls.product(ls.oscillator(3), ls.spin(0.5)):place(1, ls.matrix { { 1, 0, 0 }, { 0, 1, 0 }, { 0, 0, 1 } }) end)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("keeps padded levels", 1, true), e)
+  end)
 end)
