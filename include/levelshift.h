@@ -334,6 +334,13 @@ typedef struct {
 LVS_API int lvs_polarizability(const lvs_matrix *h0, const lvs_matrix *d, size_t level, size_t nw,
                                const double *omegas, double width, int path, double *re, double *im,
                                lvs_polar_info *info);
+/* The frequencies in [from, to] where levels la and lb (0-based) have equal
+ * polarizabilities (alpha_a - alpha_b sampled on `steps` intervals cut at
+ * every pole of either level, each sign change refined by bisection to the
+ * last bit), ascending, at most cap of them into out, their count in *nout.
+ * Every eigenpair of H0 (dense cap). */
+LVS_API int lvs_polar_magic(const lvs_matrix *h0, const lvs_matrix *d, size_t la, size_t lb, double from, double to,
+                            size_t steps, double *out, size_t cap, size_t *nout);
 
 /* ---- sweeps of a coupling or a field (sweep.c) ------------------------
  * Lowest count levels of H(p) = H0 + p V on p_k = from + (to-from) k/steps,

@@ -94,7 +94,48 @@ static int l_polarizability(lua_State *L) {
   return 2;
 }
 
+/* ls.magic_frequencies(H0, D, {levels = {a, b}, from =, to =, steps = 400})
+ * -> ascending list of the omegas with alpha_a(omega) = alpha_b(omega) */
+static int l_magic(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_matrix *h0 = lvsL_checkmatrix(L, 1);
+  lvs_matrix *d = lvsL_checkmatrix(L, 2);
+  luaL_checktype(L, 3, LUA_TTABLE);
+  static const char *const known[] = {"levels", "from", "to", "steps", NULL};
+  lvsL_checkoptions(L, 3, known, "magic_frequencies", 3);
+  size_t n = lvs_matrix_rows(h0);
+  lua_Integer lv[2];
+  if (lua_getfield(L, 3, "levels") != LUA_TTABLE || lua_rawlen(L, -1) != 2)
+    return luaL_argerror(L, 3, "option 'levels' must be a list of two levels {a, b}");
+  for (int q = 0; q < 2; q++) {
+    int ok;
+    lua_rawgeti(L, -1, q + 1);
+    lv[q] = lua_tointegerx(L, -1, &ok);
+    lua_pop(L, 1);
+    if (!ok || lv[q] < 1 || (size_t)lv[q] > n) {
+      lua_pushfstring(L, "option 'levels' must hold two levels from 1 to %d", (int)n);
+      return luaL_argerror(L, 3, lua_tostring(L, -1));
+    }
+  }
+  lua_pop(L, 1);
+  double from = lvsL_optfield_num(L, 3, "from", 0.0, "magic_frequencies", 3);
+  double to = lvsL_optfield_num(L, 3, "to", NAN, "magic_frequencies", 3);
+  if (!isfinite(to)) return luaL_argerror(L, 3, "option 'to' (the highest frequency) is needed");
+  lua_Integer steps = lvsL_optfield_int(L, 3, "steps", 400, "magic_frequencies", 3);
+  if (steps < 1 || steps > 10000000) return luaL_argerror(L, 3, "option 'steps' must be from 1 to 1e7");
+  size_t cap = 4096, found = 0;
+  double *out = lua_newuserdatauv(L, cap * sizeof(double), 0);
+  lvsL_check(L, ctx, lvs_polar_magic(h0, d, (size_t)lv[0] - 1, (size_t)lv[1] - 1, from, to, (size_t)steps, out,
+                                     cap, &found), "magic_frequencies");
+  lua_createtable(L, (int)found, 0);
+  for (size_t k = 0; k < found; k++) {
+    lua_pushnumber(L, out[k]);
+    lua_rawseti(L, -2, (lua_Integer)k + 1);
+  }
+  return 1;
+}
+
 void lvsL_open_polar(lua_State *L, int ctxidx) {
-  static const luaL_Reg fns[] = {{"polarizability", l_polarizability}, {NULL, NULL}};
+  static const luaL_Reg fns[] = {{"polarizability", l_polarizability}, {"magic_frequencies", l_magic}, {NULL, NULL}};
   lvsL_setfuncs(L, fns, ctxidx);
 }

@@ -270,3 +270,137 @@ int lvs_polarizability(const lvs_matrix *h0, const lvs_matrix *d, size_t level, 
   if (path == 1) return spectral(h0, d, level, nw, omegas, width, re, im, info);
   return solves(h0, d, level, nw, omegas, re, im, info);
 }
+
+/* ---- frequencies where two levels have the same polarizability --------
+ * ("magic" frequencies of an optical trap: the light shift of the two
+ * levels is equal, so their transition does not move). alpha_a - alpha_b is
+ * continuous between the poles of either level; it is sampled on `steps`
+ * intervals of [from, to] cut at every pole, and each sign change inside a
+ * pole-free piece is refined by bisection to the last bit. Zeros that
+ * touch without a sign change, or two inside one piece, are missed: more
+ * steps find them. Spectral data only (every eigenpair). */
+
+typedef struct {
+  size_t n;
+  const double *E;
+  const double *s2; /* |D_ma|^2 */
+  double Ea, tol;
+} pol_level;
+
+static double alpha_at(const pol_level *p, double w) {
+  double a = 0;
+  for (size_t m = 0; m < p->n; m++) {
+    double wm = p->E[m] - p->Ea;
+    if (fabs(wm) <= p->tol || p->s2[m] == 0.0) continue;
+    a += p->s2[m] * (1.0 / (wm - w) + 1.0 / (wm + w));
+  }
+  return a;
+}
+
+static double diff_at(const pol_level *a, const pol_level *b, double w) { return alpha_at(a, w) - alpha_at(b, w); }
+
+static int cmp_dbl_pol(const void *x, const void *y) {
+  double a = *(const double *)x, b = *(const double *)y;
+  return (a > b) - (a < b);
+}
+
+int lvs_polar_magic(const lvs_matrix *h0, const lvs_matrix *d, size_t la, size_t lb, double from, double to,
+                    size_t steps, double *out, size_t cap, size_t *nout) {
+  lvs_ctx *ctx = h0->ctx;
+  *nout = 0;
+  size_t n = lvs_matrix_rows(h0);
+  if (n != lvs_matrix_cols(h0) || lvs_matrix_rows(d) != n || lvs_matrix_cols(d) != n)
+    return lvsi_fail(ctx, LVS_EDIM, "magic_frequencies: H0 and D must be square ops of one size");
+  if (la >= n || lb >= n || la == lb)
+    return lvsi_fail(ctx, LVS_ERANGE, "magic_frequencies: levels must be two different levels from 1 to %zu", n);
+  if (!(isfinite(from) && isfinite(to) && from >= 0 && to > from))
+    return lvsi_fail(ctx, LVS_EINVAL, "magic_frequencies: need 0 <= from < to, both finite");
+  if (steps < 1 || steps > 10000000)
+    return lvsi_fail(ctx, LVS_EINVAL, "magic_frequencies: steps must be from 1 to 1e7");
+  int st = lvsi_dense_ok(ctx, n, n, 16, "magic_frequencies (every eigenpair)");
+  if (st) return st;
+  if ((st = lvsi_check_hermitian(h0, LVS_DEFAULT_HERM_TOL, "H0")) || (st = lvsi_check_hermitian(d, LVS_DEFAULT_HERM_TOL, "D")))
+    return st;
+  double *E = lvsi_malloc(ctx, n * sizeof *E), *s2 = lvsi_malloc(ctx, 2 * n * sizeof *s2), *poles = NULL;
+  dc *col = lvsi_malloc(ctx, 2 * n * sizeof *col), *y = col + n;
+  lvs_matrix *U = NULL, *dv = NULL;
+  if (!E || !s2 || !col) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "magic_frequencies: out of memory");
+    goto done;
+  }
+  if ((st = lvs_matrix_visible(d, 0, &dv)) || (st = lvs_eigen(h0, 0, 1, E, &U))) goto done;
+  double scale = fmax(fmax(fabs(E[0]), fabs(E[n - 1])), 1.0), tol = 1e-10 * scale;
+  const double *ua = lvs_matrix_data(U);
+  int uc = lvs_matrix_is_complex(U);
+  size_t lev[2] = {la, lb};
+  for (int q = 0; q < 2; q++) {
+    for (size_t i = 0; i < n; i++)
+      col[i] = uc ? CMPLX(ua[2 * (i + lev[q] * n)], ua[2 * (i + lev[q] * n) + 1]) : ua[i + lev[q] * n];
+    if ((st = lvs_matrix_apply(dv, 1, (const double *)col, (double *)y))) goto done;
+    for (size_t m = 0; m < n; m++) {
+      dc s = 0;
+      for (size_t i = 0; i < n; i++)
+        s += conj(uc ? CMPLX(ua[2 * (i + m * n)], ua[2 * (i + m * n) + 1]) : ua[i + m * n]) * y[i];
+      s2[q * n + m] = creal(s) * creal(s) + cimag(s) * cimag(s);
+    }
+  }
+  pol_level A = {n, E, s2, E[la], tol}, B = {n, E, s2 + n, E[lb], tol};
+  /* the poles of both levels inside (from, to), sorted */
+  if (!(poles = lvsi_malloc(ctx, (2 * n + 1) * sizeof *poles))) {
+    st = lvsi_fail(ctx, LVS_ENOMEM, "magic_frequencies: out of memory");
+    goto done;
+  }
+  size_t np = 0;
+  for (int q = 0; q < 2; q++) {
+    const pol_level *p = q ? &B : &A;
+    for (size_t m = 0; m < n; m++) {
+      double wm = fabs(E[m] - p->Ea);
+      if (wm > tol && p->s2[m] > 0 && wm > from && wm < to) poles[np++] = wm;
+    }
+  }
+  qsort(poles, np, sizeof *poles, cmp_dbl_pol);
+  size_t pi = 0;
+  double h = (to - from) / (double)steps, eps = 1e-9 * scale;
+  for (size_t k = 0; k < steps && *nout < cap; k++) {
+    double x0 = from + h * (double)k, x1 = k + 1 == steps ? to : from + h * (double)(k + 1);
+    /* pieces of [x0, x1] between the poles inside it */
+    double lo = x0;
+    for (;;) {
+      while (pi < np && poles[pi] <= lo) pi++;
+      double hi = (pi < np && poles[pi] < x1) ? poles[pi] : x1;
+      double a = lo, b = hi;
+      if (a > x0 || (pi > 0 && fabs(a - poles[pi - 1]) < eps)) a += eps; /* off the poles */
+      if (hi < x1) b -= eps;
+      if (b > a) {
+        double fa = diff_at(&A, &B, a), fb = diff_at(&A, &B, b);
+        if (fa == 0.0) {
+          if (*nout < cap) out[(*nout)++] = a;
+        } else if (fa * fb < 0) {
+          for (int it = 0; it < 200; it++) { /* bisection to the last bit */
+            double c = 0.5 * (a + b);
+            if (c <= a || c >= b) break;
+            double fc = diff_at(&A, &B, c);
+            if (fc == 0.0) {
+              a = b = c;
+              break;
+            }
+            if ((fc < 0) == (fa < 0)) a = c, fa = fc;
+            else b = c;
+          }
+          if (*nout < cap) out[(*nout)++] = 0.5 * (a + b);
+        }
+      }
+      if (hi >= x1) break;
+      lo = hi;
+      pi++;
+    }
+  }
+done:
+  lvsi_free(ctx, E);
+  lvsi_free(ctx, s2);
+  lvsi_free(ctx, col);
+  lvsi_free(ctx, poles);
+  lvs_matrix_free(U);
+  lvs_matrix_free(dv);
+  return st;
+}

@@ -170,6 +170,10 @@ local TEMPLATES = {
   ["ls.rotor"] = function() return { 2 } end,
   ["ls.charge"] = function() return { 3 } end,
   ["ls.polarizability"] = function(ls) local o = ls.oscillator(6) return { o.number, o.x, { level = 1, omega = 0.3 } } end,
+  ["ls.magic_frequencies"] = function(ls)
+    local o = ls.oscillator(6)
+    return { o.number + 0.1 * o.x ^ 4, o.x, { levels = { 1, 2 }, to = 3, steps = 20 } }
+  end,
   ["ls.oscillator"] = function() return { 4, { pad = 4 } } end,
   ["ls.product"] = function(ls) return { ls.spin(0.5), 2 } end,
   -- @@FEATURE-FUZZ-TEMPLATES@@ (a valid call per new constructor, above this line)

@@ -72,4 +72,25 @@ describe("polarizability", function()
     local b = ls.polarizability(H0, D, { level = 1, omegas = { 0.1, 0.2, 0.3 } })
     assert.is_true(b[1] > a and b[2] > b[1] and b[3] > b[2])
   end)
+  it("finds the magic frequency of two two-level systems (closed form)", function()
+    -- level a (E = 0) coupled by d1 to a state w1 above, level b (E = 0.2) by d2 to one w2 above:
+    -- alpha_a = 2 d1^2 w1/(w1^2 - w^2), alpha_b = 2 d2^2 w2/(w2^2 - w^2); equal at
+    -- w^2 = (d2^2 w2 w1^2 - d1^2 w1 w2^2)/(d2^2 w2 - d1^2 w1) (algebra, common practice)
+    local w1, w2, d1, d2 = 1.0, 1.5, 1.0, 1.3
+    local H0 = ls.matrix { { 0, 0, 0, 0 }, { 0, 0.2, 0, 0 }, { 0, 0, w1, 0 }, { 0, 0, 0, 0.2 + w2 } }
+    local D = ls.matrix { { 0, 0, d1, 0 }, { 0, 0, 0, d2 }, { d1, 0, 0, 0 }, { 0, d2, 0, 0 } }
+    local want = math.sqrt((d2 ^ 2 * w2 * w1 ^ 2 - d1 ^ 2 * w1 * w2 ^ 2) / (d2 ^ 2 * w2 - d1 ^ 2 * w1))
+    local m = ls.magic_frequencies(H0, D, { levels = { 1, 2 }, from = 0, to = 3 })
+    assert.are.equal(1, #m)
+    near(want, m[1], 1e-14, "magic frequency")
+    local a = ls.polarizability(H0, D, { level = 1, omega = m[1] })
+    local b = ls.polarizability(H0, D, { level = 2, omega = m[1] })
+    near(a, b, 1e-12 * math.abs(a), "equal polarizabilities")
+    local ok, e = pcall(ls.magic_frequencies, H0, D, { levels = { 1, 1 }, to = 3 })
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("two different levels", 1, true), e)
+    ok, e = pcall(ls.magic_frequencies, H0, D, { levels = { 1, 2 } })
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("option 'to'", 1, true), e)
+  end)
 end)
