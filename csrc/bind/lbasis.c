@@ -270,6 +270,44 @@ static int b_diag(lua_State *L) {
   return 1;
 }
 
+/* B:sparse(f): f(col_state) -> {[row] = value, ...} (rows 1-based; nil or
+ * an empty table: an empty column). One call per state, not per pair: the
+ * way to build a large op by index. */
+static int b_sparse(lua_State *L) {
+  lvs_ctx *ctx = lvsL_ctx(L);
+  lvs_basis *b = lvsL_checkbasis(L, 1);
+  luaL_checktype(L, 2, LUA_TFUNCTION);
+  size_t n = lvs_basis_dim(b);
+  lua_settop(L, 2);
+  lua_pushnil(L); /* 3: buffer */
+  trip t = {0};
+  for (size_t j = 0; j < n; j++) {
+    lua_pushvalue(L, 2);
+    push_state(L, 1, b, j);
+    lua_call(L, 1, 1);
+    if (lua_isnil(L, -1)) {
+      lua_pop(L, 1);
+      continue;
+    }
+    if (!lua_istable(L, -1))
+      return luaL_error(L, "sparse: the function returned a %s for column %d; expected a table {[row] = value}",
+                        luaL_typename(L, -1), (int)j + 1);
+    for (lua_pushnil(L); lua_next(L, -2);) {
+      int ok;
+      lua_Integer i = lua_tointegerx(L, -2, &ok);
+      if (lua_type(L, -2) != LUA_TNUMBER || !ok || i < 1 || (size_t)i > n)
+        return luaL_error(L, "sparse: column %d has a key that is not a row from 1 to %d", (int)j + 1, (int)n);
+      double z[2];
+      value_of(L, -1, z, "sparse", (size_t)i - 1, j);
+      if (z[0] != 0.0 || z[1] != 0.0) trip_add(L, &t, 3, (size_t)i - 1, j, z);
+      lua_pop(L, 1);
+    }
+    lua_pop(L, 1);
+  }
+  finish_op(L, ctx, b, &t, "sparse");
+  return 1;
+}
+
 /* B:matrix(f): f(row_state, col_state) -> number or complex (nil = 0) */
 static int b_matrix(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
@@ -483,7 +521,7 @@ static int s_index(lua_State *L) {
 void lvsL_open_basis(lua_State *L, int ctxidx) {
   static const luaL_Reg methods[] = {
       {"dim", b_dim}, {"sites", b_sites}, {"kind", b_kind}, {"labels", b_labels},
-      {"label_names", b_label_names}, {"diag", b_diag}, {"matrix", b_matrix},
+      {"label_names", b_label_names}, {"diag", b_diag}, {"matrix", b_matrix}, {"sparse", b_sparse},
       {"identity", b_identity}, {"state", b_state}, {"find", b_find}, {"site", b_site}, {"place", b_place},
       {"close", b_close}, {NULL, NULL}};
   luaL_newmetatable(L, LVS_BASIS_MT);

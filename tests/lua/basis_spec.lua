@@ -163,4 +163,36 @@ describe("products and builders", function()
     assert.is_false(ok)
     assert.matches("closed basis", msg)
   end)
+  it("builds a large op column by column with B:sparse (one call per state)", function()
+    -- <n-1|x|n> = sqrt(n/2), <n+1|x|n> = sqrt((n+1)/2) (hbar = m = omega = 1; Sakurai, Modern
+    -- Quantum Mechanics, 1994, eq. 2.3.25): the same entries as the oscillator's own x
+    local N = 5000
+    local seen = {}
+    local X = ls.basis(N):sparse(function(s)
+      seen[#seen + 1] = s.index
+      local n, c = s.index - 1, {}
+      if n > 0 then c[s.index - 1] = math.sqrt(n / 2) end
+      if s.index < N then c[s.index + 1] = math.sqrt((n + 1) / 2) end
+      return c
+    end)
+    assert.are.equal(N, #seen) -- once per state
+    local kind, nnz = X:storage()
+    assert.are.equal("sparse", kind)
+    assert.are.equal(2 * (N - 1), nnz)
+    local ref = ls.oscillator(N).x
+    for _, ij in ipairs { { 2, 1 }, { 1, 2 }, { 4000, 4001 }, { 5000, 4999 } } do
+      assert.is_true(math.abs(ref:get(ij[1], ij[2]) - X:get(ij[1], ij[2])) <= 1e-13)
+    end
+    -- labels arrive in the state table; complex values and nil columns are fine
+    local P = ls.product(ls.spin(0.5), 2)
+    local Y = P:sparse(function(s) if s.m1 == 0.5 then return { [s.index] = ls.I } end end)
+    local re, im = Y:get(1, 1)
+    assert.are.equal(0, re); assert.are.equal(1, im)
+    local ok, e = pcall(function() return ls.basis(3):sparse(function() return { [4] = 1 } end) end)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("not a row from 1 to 3", 1, true), e)
+    ok, e = pcall(function() return ls.basis(3):sparse(function() return 5 end) end)
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("expected a table {[row] = value}", 1, true), e)
+  end)
 end)
