@@ -192,6 +192,7 @@ local lazy = {
   perturb = function() require("levelshift.series")(ls, core) end,
   recipe = function() require("levelshift.recipes").attach(ls) end,
   units = function() rawset(ls, "units", require("levelshift.units")) end,
+  spin_model = function() require("levelshift.spinterms")(ls) end,
 }
 lazy.have_gnuplot, lazy.recipes = lazy.sweep, lazy.recipe
 local loaded = {}
