@@ -6,6 +6,7 @@ return {
   doc = [[
 H0 = zfs_d (Sz^2 - S(S+1)/3) + zfs_e (Sx^2 - Sy^2)
      + hyperfine_par Sz Iz + hyperfine_perp (Sx Ix + Sy Iy)
+     + quadrupole (3 Iz^2 - I(I+1)) / (4 I (2I - 1))       (I >= 1)
 V  = gfactor mu_B B.S - nuclear_g mu_N B.I,
      B = field (sin(theta) cos(phi), sin(theta) sin(phi), cos(theta))
 
@@ -13,7 +14,11 @@ The zero-field part is the usual spin Hamiltonian of a defect or ion with an
 axial (zfs_d) and rhombic (zfs_e) term (Abragam & Bleaney, Electron
 Paramagnetic Resonance of Transition Ions, 1970); for S = 1 and no nucleus its
 levels are -2D/3 and D/3 -/+ E, i.e. 0 and D -/+ E above the lowest.
-The hyperfine tensor is axial about z. The field term is the perturbation, so
+The hyperfine tensor is axial about z. The nuclear quadrupole coupling is
+axial about z too, quadrupole = e^2 q Q: for I = 1 it moves m_I = 0 by
+-e^2qQ/2 and m_I = +-1 by +e^2qQ/4 (Abragam, The Principles of Nuclear
+Magnetism, 1961, chapter VI). Tilted or rhombic tensors: build the model
+with ls.spin_model (docs/models.md). The field term is the perturbation, so
 ls.perturb / ls.effective give weak-field shifts and ls.sweep a field scan.
 nuclear_spin = 0 means no nucleus (basis ls.spin(spin) alone); otherwise the
 basis is ls.product(ls.spin(spin), ls.spin(nuclear_spin)), labels m1, m2.
@@ -27,6 +32,7 @@ field_unit. The defaults are invented (a spin-1 centre, not a real one).]],
       half_integer = true, nonnegative = true, max = 20 },
     { name = "hyperfine_par", default = 3.1, invented = true, unit = "energy_unit", about = "hyperfine A along z" },
     { name = "hyperfine_perp", default = 2.6, invented = true, unit = "energy_unit", about = "hyperfine A in the xy plane" },
+    { name = "quadrupole", default = 0, unit = "energy_unit", about = "nuclear quadrupole coupling e^2qQ (I >= 1)" },
     { name = "field", default = 0.9, invented = true, unit = "field_unit", about = "field magnitude B" },
     { name = "field_unit", default = "mT", about = "unit of field", choices = FIELD },
     { name = "theta", default = 25, invented = true, unit = "degree", about = "polar angle of the field from z" },
@@ -52,6 +58,13 @@ field_unit. The defaults are invented (a spin-1 centre, not a real one).]],
       if p.hyperfine_perp ~= 0 then
         H0 = H0 + (p.hyperfine_perp / 2) * (S.Sp * I.Sm + S.Sm * I.Sp) -- Sx Ix + Sy Iy
       end
+      if p.quadrupole ~= 0 then
+        local Ival = p.nuclear_spin
+        if Ival < 1 then error("quadrupole needs a nuclear spin of 1 or more (nuclear_spin = " .. Ival .. ")", 2) end
+        H0 = H0 + (p.quadrupole / (4 * Ival * (2 * Ival - 1))) * (3 * (I.Sz * I.Sz) - Ival * (Ival + 1))
+      end
+    elseif p.quadrupole ~= 0 then
+      error("quadrupole needs a nucleus (nuclear_spin >= 1)", 2)
     end
     local u = ls.units
     local muB = u.convert(p.field, p.field_unit, p.energy_unit)

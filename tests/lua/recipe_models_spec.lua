@@ -186,6 +186,35 @@ describe("recipe hyperfine", function()
 end)
 
 describe("recipe spin_defect", function()
+  it("adds the nuclear quadrupole: I = 1 at -e^2qQ/2 and +e^2qQ/4 (twice)", function()
+    -- axial quadrupole coupling (Abragam, The Principles of Nuclear Magnetism, 1961, chapter VI)
+    local q = 4.945
+    local m = ls.recipe("spin_defect", { spin = 0.5, zfs_d = 0, zfs_e = 0, nuclear_spin = 1, hyperfine_par = 0,
+      hyperfine_perp = 0, quadrupole = q, field = 0 })
+    local E = ls.eigen(m.H0, { vectors = false })
+    near(-q / 2, E[1], 1e-12, "m_I = 0"); near(-q / 2, E[2], 1e-12)
+    for k = 3, 6 do near(q / 4, E[k], 1e-12, "m_I = +-1") end
+  end)
+
+  it("equals the same model built term by term with ls.spin_model", function()
+    -- S = 1 with D, E, an axial hyperfine and a quadrupole to a spin-1 nucleus, and the field
+    -- tilted: both builders give the same levels (two constructions of one Hamiltonian)
+    local p = { spin = 1, zfs_d = 2870, zfs_e = 5, nuclear_spin = 1, hyperfine_par = -2.14, hyperfine_perp = -2.7,
+      quadrupole = -4.945, field = 3, field_unit = "mT", theta = 25, phi = 40, gfactor = 2.0028, nuclear_g = 0 }
+    local r = ls.recipe("spin_defect", p)
+    local m = ls.spin_model()
+    local e, n = m:add_spin(1), m:add_spin(1)
+    m:zero_field(e, { axial = p.zfs_d, rhombic = p.zfs_e })
+    m:hyperfine(e, n, { principal = { p.hyperfine_perp, p.hyperfine_perp, p.hyperfine_par } })
+    m:quadrupole(n, { coupling = p.quadrupole })
+    local muB = ls.units.convert(p.field, "mT", "MHz")
+    local th, ph = math.rad(p.theta), math.rad(p.phi)
+    m:zeeman(e, p.gfactor, { muB * math.sin(th) * math.cos(ph), muB * math.sin(th) * math.sin(ph), muB * math.cos(th) })
+    local a = ls.eigen(r.H0 + r.V, { vectors = false })
+    local b = ls.eigen(m:hamiltonian(), { vectors = false })
+    for k = 1, 9 do near(a[k], b[k], 1e-9, "level " .. k) end
+  end)
+
   it("has zero-field levels 0, D - E, D + E for S = 1", function()
     local D, E = 2.3917, 0.1385
     local m = ls.recipe("spin_defect", { zfs_d = D, zfs_e = E, nuclear_spin = 0, field = 0, energy_unit = "GHz" })
