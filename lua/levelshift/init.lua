@@ -193,6 +193,7 @@ local lazy = {
   recipe = function() require("levelshift.recipes").attach(ls) end,
   units = function() rawset(ls, "units", require("levelshift.units")) end,
   spin_model = function() require("levelshift.spinterms")(ls) end,
+  force_field = function() require("levelshift.modes")(ls) end,
 }
 lazy.have_gnuplot, lazy.recipes = lazy.sweep, lazy.recipe
 local loaded = {}

@@ -549,3 +549,37 @@ describe("functions of an operator and recipe morse", function()
     assert.is_true(ratio > 7.5 and ratio < 8.5, "error ratio " .. ratio)
   end)
 end)
+
+describe("force fields (ls.force_field)", function()
+  it("takes a Fermi resonance together: the first order is the 2x2 of the pair", function()
+    -- omega_1 ~ 2 omega_2 with the cubic term phi q1 q2^2: |1,0> and |0,2> are coupled by
+    -- W = phi <1|q|0><0|q^2|2> = phi/2 (q = (a + a^+)/sqrt 2), and degenerate perturbation theory
+    -- gives mean -+ sqrt((E10 - E02)^2/4 + W^2) at first order (Fermi, Z. Phys. 71, 250 (1931);
+    -- Herzberg, Infrared and Raman Spectra, 1945)
+    local w1, w2, phi = 2.0, 1.01, 0.02
+    local ff = ls.force_field { omegas = { w1, w2 }, levels = 8, cubic = { { 1, 2, 2, phi } } }
+    local s = ls.perturb(ff.H0, ff.V3, { order = 1, levels = { 3, 4 } })
+    local E10, E02 = 1.5 * w1 + 0.5 * w2, 0.5 * w1 + 2.5 * w2
+    local mean, half, W = (E10 + E02) / 2, (E10 - E02) / 2, phi / 2
+    near(mean - math.sqrt(half ^ 2 + W ^ 2), s:at(3, 1), 1e-13, "lower")
+    near(mean + math.sqrt(half ^ 2 + W ^ 2), s:at(4, 1), 1e-13, "upper")
+    -- to order 4 the pair meets the exact levels of H0 + V3 (common practice: the check)
+    local s4 = ls.perturb(ff.H0, ff.V3, { order = 4, levels = { 3, 4 } })
+    local E = ls.eigen(ff.H0 + ff.V3, { count = 4, vectors = false })
+    near(E[3], s4:at(3, 1), 1e-8, "order 4, lower")
+    near(E[4], s4:at(4, 1), 1e-8, "order 4, upper")
+  end)
+
+  it("gives the quartic first order of one mode and refuses bad terms", function()
+    -- <n|q^4|n> = (6 n^2 + 6 n + 3)/4 (common practice)
+    local ff = ls.force_field { omegas = { 1.3 }, levels = 12, quartic = { { 1, 1, 1, 1, 0.01 } } }
+    local s = ls.perturb(ff.H0, ff.V4, { order = 1, levels = { 1, 2, 3 } })
+    for n = 0, 2 do near(0.01 * (6 * n * n + 6 * n + 3) / 4, s:energy(n + 1, 1), 1e-15, "n = " .. n) end
+    local ok, e = pcall(ls.force_field, { omegas = { 1 }, cubic = { { 1, 2, 2, 0.1 } } })
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("mode 2 is not from 1 to 1", 1, true), e)
+    ok, e = pcall(ls.force_field, { omegas = { -1 } })
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("omegas[1] must be positive", 1, true), e)
+  end)
+end)
