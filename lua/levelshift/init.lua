@@ -194,6 +194,7 @@ local lazy = {
   units = function() rawset(ls, "units", require("levelshift.units")) end,
   spin_model = function() require("levelshift.spinterms")(ls) end,
   force_field = function() require("levelshift.modes")(ls) end,
+  floquet = function() require("levelshift.floquet")(ls) end,
 }
 lazy.have_gnuplot, lazy.recipes = lazy.sweep, lazy.recipe
 local loaded = {}

@@ -1,0 +1,127 @@
+--- levelshift.floquet (ls.floquet): a periodic drive H(t) = H0 + V cos(omega t)
+-- in the extended (Floquet-Sambe) space: blocks m = -M..M, H0 + m omega on
+-- block m and V/2 between neighbouring blocks (Shirley, Phys. Rev. 138, B979
+-- (1965); Sambe, Phys. Rev. A 7, 2203 (1973)). The quasienergies are the
+-- eigenvalues of that operator modulo omega; M truncates the photon number.
+--   local F = ls.floquet{H0 = H0, V = V, omega = w, harmonics = M}
+--   F.H, F.H0, F.V        the extended operator, its diagonal part and the drive part
+--   F:quasienergies([count])  -> list of {value =, level =, block =, weight =}
+--                           folded into [-omega/2, omega/2), each with its
+--                           dominant unperturbed level and block
+--   F:shift(level [, order]) -> the series of `level` (block 0) in the drive
+--                           amplitude: ls.perturb on H0 + m omega and the
+--                           couplings V/2 (nearly degenerate blocks, a
+--                           resonance, are taken together as model spaces)
+--   F:convergence([count])  -> the largest change of the lowest quasienergies
+--                           of block 0 when M grows by one
+-- The second order of F:shift is the ac Stark shift -alpha(omega) F^2/4 of the
+-- level for a drive V = F D (the dynamic polarizability of ls.polarizability).
+return function(ls)
+  local function fail(msg, lvl) error("floquet: " .. msg, lvl or 3) end
+
+  local function extended(H0, V, w, M)
+    local n = H0:dim()
+    local rows = {}
+    local id = ls.basis(n):identity()
+    for a = -M, M do
+      local row = {}
+      for b = -M, M do
+        if a == b then
+          row[#row + 1] = (a ~= 0) and (H0 + (a * w) * id) or H0
+        elseif math.abs(a - b) == 1 then
+          row[#row + 1] = 0.5 * V
+        else
+          row[#row + 1] = 0
+        end
+      end
+      rows[#rows + 1] = row
+    end
+    local diag = {}
+    for a = -M, M do
+      local row = {}
+      for b = -M, M do row[#row + 1] = (a == b) and ((a ~= 0) and (H0 + (a * w) * id) or H0) or 0 end
+      diag[#diag + 1] = row
+    end
+    local off = {}
+    for a = -M, M do
+      local row = {}
+      for b = -M, M do row[#row + 1] = (math.abs(a - b) == 1) and (0.5 * V) or 0 end
+      off[#off + 1] = row
+    end
+    return ls.blocks(rows), ls.blocks(diag), ls.blocks(off)
+  end
+
+  local F = {}
+  F.__index = F
+
+  function ls.floquet(spec)
+    if type(spec) ~= "table" then fail("give a table {H0 =, V =, omega =, harmonics =}") end
+    local H0, V, w, M = spec.H0, spec.V, spec.omega, spec.harmonics or 8
+    local ok, r, c = pcall(function() return H0:dim() end)
+    if not ok or r ~= c then fail("H0 must be a square op") end
+    local ok2, vr, vc = pcall(function() return V:dim() end)
+    if not ok2 or vr ~= r or vc ~= c then fail("V must be an op of H0's size") end
+    if type(w) ~= "number" or not (w > 0) or w == math.huge then fail("omega must be a positive number") end
+    if math.type(M) ~= "integer" or M < 1 or M > 200 then fail("harmonics must be an integer from 1 to 200") end
+    local H, D, O = extended(H0, V, w, M)
+    return setmetatable({ H = H, H0 = D, V = O, omega = w, harmonics = M, n = r, base = { H0 = H0, V = V } }, F)
+  end
+
+  local function fold(e, w) return e - w * math.floor(e / w + 0.5) end
+
+  function F:quasienergies(count)
+    local N = self.n * (2 * self.harmonics + 1)
+    count = count or self.n
+    if math.type(count) ~= "integer" or count < 1 or count > self.n then
+      fail("quasienergies: count must be an integer from 1 to " .. self.n)
+    end
+    local E, U = ls.eigen(self.H)
+    local n, M, out, taken = self.n, self.harmonics, {}, {}
+    -- for each unperturbed level of block 0, the eigenvector with the most weight there
+    for k = 1, n do
+      local best, bw = nil, -1
+      for j = 1, N do
+        if not taken[j] then
+          local re, im = U:get((M) * n + k, j)
+          local wgt = re * re + im * im
+          if wgt > bw then best, bw = j, wgt end
+        end
+      end
+      taken[best] = true
+      out[#out + 1] = { value = fold(E[best], self.omega), level = k, block = 0, weight = bw, raw = E[best] }
+    end
+    table.sort(out, function(a, b) return a.level < b.level end)
+    local res = {}
+    for i = 1, count do res[i] = out[i] end
+    return res
+  end
+
+  function F:shift(level, order)
+    if math.type(level) ~= "integer" or level < 1 or level > self.n then
+      fail("shift: level must be an integer from 1 to " .. self.n)
+    end
+    order = order or 2
+    -- block 0's levels sit in the middle of the extended space: H0's sorted
+    -- levels shifted by the blocks below (ls.perturb numbers levels by
+    -- ascending H0 of the extended space)
+    local E0 = ls.eigen(self.base.H0, { vectors = false })
+    local target = E0[level]
+    local Eall = ls.eigen(self.H0, { vectors = false })
+    local idx
+    for i, e in ipairs(Eall) do
+      if math.abs(e - target) <= 1e-12 * math.max(1, math.abs(target)) and not idx then idx = i end
+    end
+    return ls.perturb(self.H0, self.V, { order = order, levels = { idx } }), idx
+  end
+
+  function F:convergence(count)
+    local G = ls.floquet { H0 = self.base.H0, V = self.base.V, omega = self.omega, harmonics = self.harmonics + 1 }
+    local a, b = self:quasienergies(count), G:quasienergies(count)
+    local worst = 0
+    for i = 1, #a do
+      local d = math.abs(fold(a[i].value - b[i].value, self.omega))
+      if d > worst then worst = d end
+    end
+    return worst
+  end
+end
