@@ -51,6 +51,31 @@ return function(ls)
     return ls.blocks(rows), ls.blocks(diag), ls.blocks(off)
   end
 
+  --- ls.light_shift(alpha, {intensity = I [, intensity_unit = "W/cm^2"], alpha_unit = "au"|"SI",
+  -- energy_unit = "MHz"}) -> the shift -alpha I / (2 c eps_0) of a level in a
+  -- linearly polarized field of intensity I (I = c eps_0 F^2 / 2, shift -alpha F^2/4),
+  -- alpha in atomic units (e^2 a0^2 / E_h = 4 pi eps_0 a0^3) or SI (C m^2 / V);
+  -- constants from ls.units (CODATA 2018)
+  function ls.light_shift(alpha, o)
+    if type(alpha) ~= "number" or alpha ~= alpha or math.abs(alpha) == math.huge then
+      error("light_shift: alpha must be a finite number", 2)
+    end
+    if type(o) ~= "table" or type(o.intensity) ~= "number" or not (o.intensity >= 0) then
+      error("light_shift: give {intensity = I >= 0, ...}", 2)
+    end
+    local u = ls.units
+    local iu = o.intensity_unit or "W/cm^2"
+    local I = o.intensity * (iu == "W/cm^2" and 1e4 or iu == "W/m^2" and 1 or iu == "mW/cm^2" and 10 or
+      error("light_shift: intensity_unit must be W/cm^2, mW/cm^2 or W/m^2", 2))
+    local au = o.alpha_unit or "au"
+    local aSI
+    if au == "au" then aSI = alpha * 4 * math.pi * u.eps_0 * u.a0 ^ 3
+    elseif au == "SI" then aSI = alpha
+    else error("light_shift: alpha_unit must be \"au\" or \"SI\"", 2) end
+    local J = -aSI * I / (2 * u.c * u.eps_0)
+    return u.convert(J, "J", o.energy_unit or "MHz")
+  end
+
   local F = {}
   F.__index = F
 

@@ -197,6 +197,7 @@ local lazy = {
   floquet = function() require("levelshift.floquet")(ls) end,
 }
 lazy.have_gnuplot, lazy.recipes = lazy.sweep, lazy.recipe
+lazy.light_shift = lazy.floquet
 local loaded = {}
 local function load(k)
   local f = lazy[k]

@@ -48,4 +48,18 @@ describe("floquet", function()
     assert.is_false(ok)
     assert.truthy(tostring(e):find("V must be an op of H0's size", 1, true), e)
   end)
+  it("turns a polarizability into a light shift in laboratory units", function()
+    -- shift = -alpha I / (2 c eps0); the atomic unit of polarizability is 1.64877727436e-41
+    -- C^2 m^2 J^-1 (CODATA 2018, Tiesinga et al., Rev. Mod. Phys. 93, 025010 (2021))
+    local u = ls.units
+    local want = -1.64877727436e-41 * 1 / (2 * u.c * u.eps_0) / u.h
+    local got = ls.light_shift(1, { intensity = 1, intensity_unit = "W/m^2", energy_unit = "Hz" })
+    assert.is_true(math.abs(got - want) <= 1e-9 * math.abs(want), got .. " vs " .. want)
+    -- SI in, the same number; W/cm^2 is 1e4 W/m^2
+    local si = ls.light_shift(1.64877727436e-41, { intensity = 1e-4, alpha_unit = "SI", energy_unit = "Hz" })
+    assert.is_true(math.abs(si - want) <= 1e-9 * math.abs(want))
+    local ok, e = pcall(ls.light_shift, 1, { intensity = 1, intensity_unit = "lux" })
+    assert.is_false(ok)
+    assert.truthy(tostring(e):find("intensity_unit must be", 1, true), e)
+  end)
 end)
