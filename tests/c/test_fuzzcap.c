@@ -11,8 +11,8 @@
 
 static const char *const code =
     "local H = dofile('tests/fuzz/harness.lua')\n"
-    "local F = H.new(ls, {seed = 5, dense_cap = 4 << 20})\n"
-    "local ok, e = pcall(F.run, 1500)\n"
+    "local F = H.new(ls, {seed = 6, dense_cap = 4 << 20})\n"
+    "local ok, e = pcall(F.run, 2500)\n"
     "F.finish()\n"
     "collectgarbage('collect') collectgarbage('collect')\n"
     "local rep = F.report()\n"
