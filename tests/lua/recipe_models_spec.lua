@@ -570,6 +570,20 @@ describe("force fields (ls.force_field)", function()
     near(E[4], s4:at(4, 1), 1e-8, "order 4, upper")
   end)
 
+  it("takes a Darling-Dennison pair together: |2,0> and |0,2> split by the q1^2 q2^2 term", function()
+    -- omega1 ~ omega2 and K q1^2 q2^2: |2,0>, |0,2> coupled by W = K <2|q^2|0><0|q^2|2> = K/2, both
+    -- moved by K <2|q^2|2><0|q^2|0> = 5K/4 at first order, while |1,1> (between them) is not coupled
+    -- to either (Darling & Dennison, Phys. Rev. 57, 128 (1940))
+    local w1, w2, K = 1.0, 1.004, 0.01
+    local ff = ls.force_field { omegas = { w1, w2 }, levels = 10, quartic = { { 1, 1, 2, 2, K } } }
+    local s = ls.perturb(ff.H0, ff.V4, { order = 1, levels = { 4, 5, 6 } })
+    local E20, E02 = 2.5 * w1 + 0.5 * w2, 0.5 * w1 + 2.5 * w2
+    local mean, half, W = (E20 + E02) / 2 + 5 * K / 4, (E20 - E02) / 2, K / 2
+    near(mean - math.sqrt(half ^ 2 + W ^ 2), s:at(4, 1), 1e-13, "lower of the pair")
+    near(mean + math.sqrt(half ^ 2 + W ^ 2), s:at(6, 1), 1e-13, "upper of the pair")
+    near(1.5 * w1 + 1.5 * w2 + K * 1.5 * 1.5, s:at(5, 1), 1e-13, "|1,1>")
+  end)
+
   it("gives the quartic first order of one mode and refuses bad terms", function()
     -- <n|q^4|n> = (6 n^2 + 6 n + 3)/4 (common practice)
     local ff = ls.force_field { omegas = { 1.3 }, levels = 12, quartic = { { 1, 1, 1, 1, 0.01 } } }
