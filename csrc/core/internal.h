@@ -73,6 +73,13 @@ LVSI int lvsi_set_vis(lvs_matrix *m, size_t n, const size_t *vis);
  * column being built (caller closes columns) */
 LVSI int lvsi_csc_push(lvs_matrix *m, size_t row, double complex v);
 LVSI int lvsi_mat_compact(lvs_matrix *m); /* dense if fill is high */
+/* a sparse column's entries sorted by row, stable (matrix.c: runs merged,
+ * insertion sort when short; tmp holds cnt entries) */
+typedef struct {
+  size_t row;
+  double re, im;
+} lvsi_ent;
+LVSI void lvsi_sort_entries(lvsi_ent *e, size_t cnt, lvsi_ent *tmp);
 LVSI int lvsi_to_dense(const lvs_matrix *a, lvs_matrix **out);
 
 /* structure (blocks.c): true bandwidth of a plain matrix; connected

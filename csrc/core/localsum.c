@@ -22,7 +22,8 @@
  * Both passes run on two threads for large bases (columns split in two).
  * Memory: the result plus two candidate buffers; no intermediate operator.
  * Groups in lexicographic site order give candidates almost in row order
- * for nearest-neighbour models (the insertion sort then does little).
+ * for nearest-neighbour models (the shared sort of matrix.c, lvsi_sort_entries,
+ * then only checks the one run).
  * Product of two sums: every pair of terms (at most LVS_LOCALSUM_MAX_TERMS
  * terms in the result), factors on a shared site multiplied in order. */
 #include <complex.h>
@@ -598,14 +599,10 @@ static int plan_make(const lvs_localsum *s, lplan *p) {
   return st;
 }
 
-typedef struct {
-  uint32_t row;
-  double complex v;
-} lcand;
-
 /* the merged entries of column j (digits dig) into out, sorted; returns
- * their count. neg/pos: scratch of p->maxc each. */
-static size_t col_gather(const lplan *p, size_t j, const size_t *dig, lcand *out, lcand *pos) {
+ * their count. out: 2 maxc + 2 entries (candidates, then the sort's
+ * scratch), pos: maxc. */
+static size_t col_gather(const lplan *p, size_t j, const size_t *dig, lvsi_ent *out, lvsi_ent *pos) {
   size_t nn = 0, np = 0;
   double complex dg = 0;
   int hasdiag = 0;
@@ -615,43 +612,28 @@ static size_t col_gather(const lplan *p, size_t j, const size_t *dig, lcand *out
     for (size_t k = 0; k < G->nsite; k++) lc += dig[G->site[k]] * G->lw[k];
     for (size_t e = G->cp[lc]; e < G->cp[lc + 1]; e++) {
       long dl = G->delta[e];
-      if (dl < 0) {
-        out[nn].row = (uint32_t)((long)j + dl);
-        out[nn++].v = G->val[e];
-      } else if (dl > 0) {
-        pos[np].row = (uint32_t)((long)j + dl);
-        pos[np++].v = G->val[e];
-      } else {
+      if (dl == 0) {
         dg += G->val[e];
         hasdiag = 1;
+        continue;
       }
+      lvsi_ent *c = dl < 0 ? &out[nn++] : &pos[np++];
+      c->row = (size_t)((long)j + dl);
+      c->re = creal(G->val[e]);
+      c->im = cimag(G->val[e]);
     }
   }
-  /* negatives in group order, the diagonal, positives reversed: sorted for
-   * chains with nearest-neighbour terms; the insertion sort fixes the rest */
-  if (hasdiag) {
-    out[nn].row = (uint32_t)j;
-    out[nn++].v = dg;
-  }
+  /* negatives in group order, the diagonal, positives reversed: one sorted
+   * run for chains with nearest-neighbour terms (the sort then only checks) */
+  if (hasdiag) out[nn++] = (lvsi_ent){j, creal(dg), cimag(dg)};
   while (np > 0) out[nn++] = pos[--np];
-  for (size_t a = 1; a < nn; a++) {
-    lcand x = out[a];
-    size_t b = a;
-    while (b > 0 && out[b - 1].row > x.row) {
-      out[b] = out[b - 1];
-      b--;
-    }
-    out[b] = x;
-  }
+  lvsi_sort_entries(out, nn, out + nn);
   size_t m = 0;
-  for (size_t a = 0; a < nn;) {
+  for (size_t a = 0; a < nn;) { /* equal rows summed, exact zeros dropped */
     size_t b = a + 1;
-    double complex v = out[a].v;
-    while (b < nn && out[b].row == out[a].row) v += out[b++].v;
-    if (v != 0.0) {
-      out[m].row = out[a].row;
-      out[m++].v = v;
-    }
+    double re = out[a].re, im = out[a].im;
+    while (b < nn && out[b].row == out[a].row) re += out[b].re, im += out[b++].im;
+    if (re != 0.0 || im != 0.0) out[m++] = (lvsi_ent){out[a].row, re, im};
     a = b;
   }
   return m;
@@ -662,7 +644,7 @@ typedef struct {
   lvs_matrix *c;
   size_t j0, j1;
   int write;
-  lcand *buf; /* 2 * maxc + 1 */
+  lvsi_ent *buf; /* 3 maxc + 3: candidates and the sort's scratch, then pos */
 } lwork;
 
 static void *col_pass(void *arg) {
@@ -675,7 +657,7 @@ static void *col_pass(void *arg) {
     rem %= p->stride[i];
   }
   lvs_matrix *c = w->c;
-  lcand *out = w->buf, *pos = w->buf + p->maxc + 1;
+  lvsi_ent *out = w->buf, *pos = w->buf + 2 * p->maxc + 2;
   for (size_t j = w->j0; j < w->j1; j++) {
     size_t m = col_gather(p, j, dig, out, pos);
     if (!w->write) {
@@ -683,12 +665,12 @@ static void *col_pass(void *arg) {
     } else {
       size_t at = c->cp[j];
       for (size_t k = 0; k < m; k++) {
-        c->ri[at + k] = out[k].row;
+        c->ri[at + k] = (uint32_t)out[k].row;
         if (c->cplx) {
-          c->a[2 * (at + k)] = creal(out[k].v);
-          c->a[2 * (at + k) + 1] = cimag(out[k].v);
+          c->a[2 * (at + k)] = out[k].re;
+          c->a[2 * (at + k) + 1] = out[k].im;
         } else {
-          c->a[at + k] = creal(out[k].v);
+          c->a[at + k] = out[k].re;
         }
       }
     }
@@ -701,7 +683,7 @@ static void *col_pass(void *arg) {
 }
 
 /* one pass over all columns, on two threads when large */
-static void run_pass(const lplan *p, lvs_matrix *c, int write, lcand *buf0, lcand *buf1) {
+static void run_pass(const lplan *p, lvs_matrix *c, int write, lvsi_ent *buf0, lvsi_ent *buf1) {
   size_t n = p->s->n;
   lwork w0 = {p, c, 0, n, write, buf0}, w1 = w0;
   pthread_t th;
@@ -725,8 +707,8 @@ int lvs_localsum_matrix(const lvs_localsum *s, lvs_matrix **out) {
   int st = plan_make(s, &p);
   if (st) return st;
   lvs_matrix *c = NULL;
-  size_t nb = 2 * p.maxc + 2;
-  lcand *b0 = lvsi_malloc(ctx, nb * sizeof *b0), *b1 = lvsi_malloc(ctx, nb * sizeof *b1);
+  size_t nb = 3 * p.maxc + 3;
+  lvsi_ent *b0 = lvsi_malloc(ctx, nb * sizeof *b0), *b1 = lvsi_malloc(ctx, nb * sizeof *b1);
   if (!b0) {
     st = lvsi_fail(ctx, LVS_ENOMEM, "out of memory assembling an operator");
     goto done;

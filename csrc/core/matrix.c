@@ -617,11 +617,8 @@ static int sum_plan_make(lvs_ctx *ctx, size_t count, const double (*coef)[2],
  * the column lengths (off[c + 1] - off[c]: entries of column j0 + c over
  * all terms), then each term's entries appended to their column's segment
  * of e (so a segment is the terms' sorted runs one after another), then
- * each segment sorted by row (sort_segment). vals = 0 gathers rows only. */
-typedef struct {
-  size_t row;
-  double re, im;
-} sum_ent;
+ * each segment sorted by row (lvsi_sort_entries). vals = 0 gathers rows only. */
+typedef lvsi_ent sum_ent; /* (internal.h) */
 
 /* entries of term k in stored column j: [*lo, *hi), rows through *map when
  * set (an embedded plain term); the identity (NULL term) has one */
@@ -713,7 +710,7 @@ static void natural_sort(sum_ent *e, size_t cnt, sum_ent *tmp) {
  * copied once, not once per merge pass; O(c log runs), stable (equal rows
  * keep the terms' order). qsort here cost 90 ns an entry on the 120-entry
  * columns of an all-to-all spin sum. tmp holds cnt entries. */
-static void sort_segment(sum_ent *e, size_t cnt, sum_ent *tmp) {
+void lvsi_sort_entries(sum_ent *e, size_t cnt, sum_ent *tmp) {
   if (cnt <= 32) {
     insertion_sort(e, cnt);
     return;
@@ -753,7 +750,7 @@ static void sum_chunk_gather(const sum_plan *p, size_t j0, size_t j1, const size
       }
     }
   }
-  for (size_t c = 0; c < w; c++) sort_segment(e + off[c], off[c + 1] - off[c], tmp);
+  for (size_t c = 0; c < w; c++) lvsi_sort_entries(e + off[c], off[c + 1] - off[c], tmp);
 }
 
 static int sum_sparse(lvs_ctx *ctx, const sum_plan *p, lvs_matrix **out) {
