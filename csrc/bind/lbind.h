@@ -99,6 +99,11 @@ typedef struct {
   char err[400];
 } lvsL_realcb;
 int lvsL_real_fn(void *ud, size_t n, const double *x, double *fx);
+/* cb for the Lua function at stack index fidx */
+void lvsL_realcb_init(lvsL_realcb *cb, lua_State *L, int fidx);
+/* after a core call with cb: when the function itself failed (st != 0 and
+ * cb->failed), clear the core's error and raise "FNAME: <its reason>" */
+void lvsL_realcb_raise(lua_State *L, lvs_ctx *ctx, int st, const lvsL_realcb *cb, const char *fname);
 
 /* register funcs with the ctx userdata as upvalue into table at -1 */
 void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx);

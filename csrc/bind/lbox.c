@@ -78,17 +78,11 @@ static int b_potential(lua_State *L) {
     }
   }
   lvsL_realcb cb;
-  cb.L = L;
-  cb.fidx = 2;
-  cb.failed = 0;
-  cb.err[0] = 0;
+  lvsL_realcb_init(&cb, L, 2);
   lvs_matrix **out = lvsL_newmatrix(L);
   double err = 0;
   int st = lvs_box_potential(b, lvsL_real_fn, &cb, &q, out, &err);
-  if (st != LVS_OK && cb.failed) {
-    lvs_clear_error(ctx);
-    return luaL_error(L, "potential: %s", cb.err);
-  }
+  lvsL_realcb_raise(L, ctx, st, &cb, "potential");
   if (st == LVS_ENOCONV) {
     luaL_pushfail(L);
     lua_pushfstring(L, "potential: %s", lvs_errmsg(ctx));

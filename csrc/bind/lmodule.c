@@ -221,6 +221,19 @@ int lvsL_real_fn(void *ud, size_t n, const double *x, double *fx) {
 }
 
 
+void lvsL_realcb_init(lvsL_realcb *cb, lua_State *L, int fidx) {
+  cb->L = L;
+  cb->fidx = fidx;
+  cb->failed = 0;
+  cb->err[0] = 0;
+}
+
+void lvsL_realcb_raise(lua_State *L, lvs_ctx *ctx, int st, const lvsL_realcb *cb, const char *fname) {
+  if (st == LVS_OK || !cb->failed) return;
+  lvs_clear_error(ctx);
+  luaL_error(L, "%s: %s", fname, cb->err);
+}
+
 void lvsL_setfuncs(lua_State *L, const luaL_Reg *l, int ctxidx) {
   for (; l->name; l++) {
     lua_pushvalue(L, ctxidx);

@@ -7,16 +7,10 @@ static int m_fn(lua_State *L) {
   lvs_matrix *a = lvsL_checkmatrix(L, 1);
   luaL_checktype(L, 2, LUA_TFUNCTION);
   lvsL_realcb cb;
-  cb.L = L;
-  cb.fidx = 2;
-  cb.failed = 0;
-  cb.err[0] = 0;
+  lvsL_realcb_init(&cb, L, 2);
   lvs_matrix **out = lvsL_newmatrix(L);
   int st = lvs_matrix_function(a, lvsL_real_fn, &cb, out);
-  if (st && cb.failed) {
-    lvs_clear_error(ctx);
-    return luaL_error(L, "fn: %s", cb.err);
-  }
+  lvsL_realcb_raise(L, ctx, st, &cb, "fn");
   lvsL_check(L, ctx, st, "fn");
   return 1;
 }
