@@ -24,6 +24,25 @@
 
 typedef double complex dc;
 
+/* s2[m] = |<m|D|level>|^2 for every eigenvector m of H0 (U: dense n x n
+ * from lvs_eigen, dv: D's visible block); col, y: scratch of n each */
+static int couplings(lvs_matrix *U, const lvs_matrix *dv, size_t n, size_t level, dc *col, dc *y,
+                     double *s2) {
+  const double *ua = lvs_matrix_data(U); /* dense, column-major */
+  int uc = lvs_matrix_is_complex(U);
+#define UAT(i, m) (uc ? CMPLX(ua[2 * ((i) + (m) * n)], ua[2 * ((i) + (m) * n) + 1]) : ua[(i) + (m) * n])
+  for (size_t i = 0; i < n; i++) col[i] = UAT(i, level);
+  int st = lvs_matrix_apply(dv, 1, (const double *)col, (double *)y);
+  if (st) return st;
+  for (size_t m = 0; m < n; m++) {
+    dc s = 0;
+    for (size_t i = 0; i < n; i++) s += conj(UAT(i, m)) * y[i];
+    s2[m] = creal(s) * creal(s) + cimag(s) * cimag(s);
+  }
+#undef UAT
+  return LVS_OK;
+}
+
 static int spectral(const lvs_matrix *h0, const lvs_matrix *d, size_t level, size_t nw, const double *om, double g,
                     double *re, double *im, lvs_polar_info *info) {
   lvs_ctx *ctx = h0->ctx;
@@ -42,19 +61,9 @@ static int spectral(const lvs_matrix *h0, const lvs_matrix *d, size_t level, siz
   double scale = fmax(fabs(E[0]), fabs(E[n - 1]));
   double tol = 1e-10 * (scale > 0 ? scale : 1.0);
   double En = E[level];
-  /* |D_mn|^2 for every m: D applied to column n of U, then <m|D n> */
-  const double *ua = lvs_matrix_data(U); /* dense n x n, column-major */
-  int uc = lvs_matrix_is_complex(U);
-#define UAT(i, m) (uc ? CMPLX(ua[2 * ((i) + (m) * n)], ua[2 * ((i) + (m) * n) + 1]) : ua[(i) + (m) * n])
-  for (size_t i = 0; i < n; i++) col[i] = UAT(i, level);
-  if ((st = lvs_matrix_apply(dv, 1, (const double *)col, (double *)y))) goto done;
+  if ((st = couplings(U, dv, n, level, col, y, s2))) goto done;
   double dmax = 0;
-  for (size_t m = 0; m < n; m++) {
-    dc s = 0;
-    for (size_t i = 0; i < n; i++) s += conj(UAT(i, m)) * y[i];
-    s2[m] = creal(s) * creal(s) + cimag(s) * cimag(s);
-    dmax = fmax(dmax, s2[m]);
-  }
+  for (size_t m = 0; m < n; m++) dmax = fmax(dmax, s2[m]);
   /* the poles: |w_mn| of the states D reaches outside the level */
   info->first_pole = INFINITY;
   info->poles = 0;
@@ -84,7 +93,6 @@ static int spectral(const lvs_matrix *h0, const lvs_matrix *d, size_t level, siz
     im[k] = cimag(a);
   }
   info->path = 0;
-#undef UAT
 done:
   lvsi_free(ctx, E);
   lvsi_free(ctx, col);
@@ -330,20 +338,7 @@ int lvs_polar_magic(const lvs_matrix *h0, const lvs_matrix *d, size_t la, size_t
   }
   if ((st = lvs_matrix_visible(d, 0, &dv)) || (st = lvs_eigen(h0, 0, 1, E, &U))) goto done;
   double scale = fmax(fmax(fabs(E[0]), fabs(E[n - 1])), 1.0), tol = 1e-10 * scale;
-  const double *ua = lvs_matrix_data(U);
-  int uc = lvs_matrix_is_complex(U);
-  size_t lev[2] = {la, lb};
-  for (int q = 0; q < 2; q++) {
-    for (size_t i = 0; i < n; i++)
-      col[i] = uc ? CMPLX(ua[2 * (i + lev[q] * n)], ua[2 * (i + lev[q] * n) + 1]) : ua[i + lev[q] * n];
-    if ((st = lvs_matrix_apply(dv, 1, (const double *)col, (double *)y))) goto done;
-    for (size_t m = 0; m < n; m++) {
-      dc s = 0;
-      for (size_t i = 0; i < n; i++)
-        s += conj(uc ? CMPLX(ua[2 * (i + m * n)], ua[2 * (i + m * n) + 1]) : ua[i + m * n]) * y[i];
-      s2[q * n + m] = creal(s) * creal(s) + cimag(s) * cimag(s);
-    }
-  }
+  if ((st = couplings(U, dv, n, la, col, y, s2)) || (st = couplings(U, dv, n, lb, col, y, s2 + n))) goto done;
   pol_level A = {n, E, s2, E[la], tol}, B = {n, E, s2 + n, E[lb], tol};
   /* the poles of both levels inside (from, to), sorted */
   if (!(poles = lvsi_malloc(ctx, (2 * n + 1) * sizeof *poles))) {
