@@ -19,36 +19,20 @@
 return function(ls)
   local function fail(msg, lvl) error("floquet: " .. msg, lvl or 3) end
 
+  -- the extended operator, its diagonal (photon blocks) and its drive part
   local function extended(H0, V, w, M)
-    local n = H0:dim()
-    local rows = {}
-    local id = ls.basis(n):identity()
+    local id = ls.basis(H0:dim()):identity()
+    local full, diag, off = {}, {}, {}
     for a = -M, M do
-      local row = {}
+      local rf, rd, ro = {}, {}, {}
       for b = -M, M do
-        if a == b then
-          row[#row + 1] = (a ~= 0) and (H0 + (a * w) * id) or H0
-        elseif math.abs(a - b) == 1 then
-          row[#row + 1] = 0.5 * V
-        else
-          row[#row + 1] = 0
-        end
+        local d = (a == b) and ((a ~= 0) and (H0 + (a * w) * id) or H0) or 0
+        local o = (math.abs(a - b) == 1) and (0.5 * V) or 0
+        rf[#rf + 1], rd[#rd + 1], ro[#ro + 1] = (a == b) and d or o, d, o
       end
-      rows[#rows + 1] = row
+      full[#full + 1], diag[#diag + 1], off[#off + 1] = rf, rd, ro
     end
-    local diag = {}
-    for a = -M, M do
-      local row = {}
-      for b = -M, M do row[#row + 1] = (a == b) and ((a ~= 0) and (H0 + (a * w) * id) or H0) or 0 end
-      diag[#diag + 1] = row
-    end
-    local off = {}
-    for a = -M, M do
-      local row = {}
-      for b = -M, M do row[#row + 1] = (math.abs(a - b) == 1) and (0.5 * V) or 0 end
-      off[#off + 1] = row
-    end
-    return ls.blocks(rows), ls.blocks(diag), ls.blocks(off)
+    return ls.blocks(full), ls.blocks(diag), ls.blocks(off)
   end
 
   --- ls.light_shift(alpha, {intensity = I [, intensity_unit = "W/cm^2"], alpha_unit = "au"|"SI",
@@ -126,15 +110,18 @@ return function(ls)
       fail("shift: level must be an integer from 1 to " .. self.n)
     end
     order = order or 2
-    -- block 0's levels sit in the middle of the extended space: H0's sorted
-    -- levels shifted by the blocks below (ls.perturb numbers levels by
-    -- ascending H0 of the extended space)
+    -- the level's index among the extended space's levels as ls.perturb
+    -- numbers them (ascending; found from F.H0's own eigenvalues, not from
+    -- E0 + m omega recomputed here, which can round a near-tie the other way)
     local E0 = ls.eigen(self.base.H0, { vectors = false })
     local target = E0[level]
     local Eall = ls.eigen(self.H0, { vectors = false })
     local idx
     for i, e in ipairs(Eall) do
-      if math.abs(e - target) <= 1e-12 * math.max(1, math.abs(target)) and not idx then idx = i end
+      if math.abs(e - target) <= 1e-12 * math.max(1, math.abs(target)) then
+        idx = i
+        break
+      end
     end
     return ls.perturb(self.H0, self.V, { order = order, levels = { idx } }), idx
   end

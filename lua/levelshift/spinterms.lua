@@ -49,8 +49,9 @@ return function(ls)
     return mul(mul(rz(a), ry(b)), rz(c))
   end
 
-  -- a tensor argument as a 3x3 table
-  local function tensor(t, fname)
+  -- a coupling argument (number, principal values + Euler angles, or a
+  -- matrix) as a 3x3 table
+  local function coupling_matrix(t, fname)
     if type(t) == "number" then
       if t ~= t or math.abs(t) == math.huge then fail(fname, "the tensor is NaN or infinite") end
       return { { t, 0, 0 }, { 0, t, 0 }, { 0, 0, t } }
@@ -150,7 +151,7 @@ return function(ls)
   -- (energy per unit g) in the molecular frame
   function M:zeeman(site, g, field, group)
     local S = ops(self, site, "zeeman")
-    local G, B = tensor(g, "zeeman"), vector(field, "zeeman", "field")
+    local G, B = coupling_matrix(g, "zeeman"), vector(field, "zeeman", "field")
     local H
     for i = 1, 3 do
       for j = 1, 3 do
@@ -168,9 +169,9 @@ return function(ls)
     local T
     if type(t) == "table" and (t.axial or t.rhombic) then
       local D, E = t.axial or 0, t.rhombic or 0
-      T = tensor({ principal = { -D / 3 + E, -D / 3 - E, 2 * D / 3 }, euler = t.euler }, "zero_field")
+      T = coupling_matrix({ principal = { -D / 3 + E, -D / 3 - E, 2 * D / 3 }, euler = t.euler }, "zero_field")
     else
-      T = tensor(t, "zero_field")
+      T = coupling_matrix(t, "zero_field")
       local tr = (T[1][1] + T[2][2] + T[3][3]) / 3 -- only the traceless part splits levels
       T = { { T[1][1] - tr, T[1][2], T[1][3] }, { T[2][1], T[2][2] - tr, T[2][3] }, { T[3][1], T[3][2], T[3][3] - tr } }
     end
@@ -181,7 +182,7 @@ return function(ls)
   function M:hyperfine(a, b, t, group)
     local S, I = ops(self, a, "hyperfine"), ops(self, b, "hyperfine")
     if a == b then fail("hyperfine", "the electron and the nucleus must be two different sites") end
-    return add(self, group or "hyperfine", bilinear(S, tensor(t, "hyperfine"), I) or 0 * S[3])
+    return add(self, group or "hyperfine", bilinear(S, coupling_matrix(t, "hyperfine"), I) or 0 * S[3])
   end
 
   --- m:quadrupole(nucleus, {coupling = e^2 q Q, asymmetry = eta, euler = {..}} or a tensor [, group]):
@@ -194,9 +195,9 @@ return function(ls)
     local T
     if type(t) == "table" and t.coupling then
       local eta, q = t.asymmetry or 0, t.coupling / (4 * spin * (2 * spin - 1))
-      T = tensor({ principal = { -q * (1 - eta), -q * (1 + eta), 2 * q }, euler = t.euler }, "quadrupole")
+      T = coupling_matrix({ principal = { -q * (1 - eta), -q * (1 + eta), 2 * q }, euler = t.euler }, "quadrupole")
     else
-      T = tensor(t, "quadrupole")
+      T = coupling_matrix(t, "quadrupole")
     end
     return add(self, group or "quadrupole", bilinear(I, T, I) or 0 * I[3])
   end
@@ -205,7 +206,7 @@ return function(ls)
   function M:exchange(a, b, t, group)
     if a == b then fail("exchange", "two different sites are needed") end
     local Sa, Sb = ops(self, a, "exchange"), ops(self, b, "exchange")
-    return add(self, group or "exchange", bilinear(Sa, tensor(t, "exchange"), Sb) or 0 * Sa[3])
+    return add(self, group or "exchange", bilinear(Sa, coupling_matrix(t, "exchange"), Sb) or 0 * Sa[3])
   end
 
   --- m:dipolar(a, b, {strength = d, direction = {x, y, z}} [, group]): the point-dipole
