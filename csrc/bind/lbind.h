@@ -70,9 +70,6 @@ void lvsL_open_random(lua_State *L, int ctxidx);
 int lvsL_inside_binding(lua_State *L);
 /* let the collector know about memory the core allocated (called before a
  * new matrix is made): a step worth the net growth since the last one */
-/* raises "FNAME: writing files is disabled in this sandboxed host" when the
- * host that made this state asked for LVS_HOST_SANDBOX; returns 0 otherwise */
-int lvsL_no_files(lua_State *L, const char *fname);
 /* in a sandboxed host: raise "FNAME: ..." unless the host granted a
  * writable directory and path (NULL: only the grant is asked) names a
  * regular file or a new one inside it (no '..', no link as the final

@@ -111,6 +111,10 @@ static void checkfinite(lua_State *L, const double z[2], int arg) {
   if (!isfinite(z[0]) || !isfinite(z[1])) luaL_argerror(L, arg, "scalar is NaN or infinite");
 }
 
+/* a product of two site sums past this many terms is written out and
+ * multiplied as ops (docs/api.md) */
+#define SITE_SUM_PRODUCT_MAX 4096
+
 /* Arithmetic of site sums (ops of a product basis not yet written out):
  * sums, differences, scalar multiples and products of two sums stay sums;
  * 1 with the result pushed, 0 when the operands need the general path
@@ -122,7 +126,7 @@ static int site_sum_arith(lua_State *L, char op, const char *name, int sa, const
   if ((!a && !sa) || (!b && !sb) || (sa && sb)) return 0;
   if (a && b && !lvs_localsum_compatible(a, b)) return 0;
   if (op == '/' && (!sb || (zb[0] == 0.0 && zb[1] == 0.0))) return 0; /* the general path's errors */
-  if (op == '*' && a && b && lvs_localsum_terms(a) * lvs_localsum_terms(b) > 4096) return 0;
+  if (op == '*' && a && b && lvs_localsum_terms(a) * lvs_localsum_terms(b) > SITE_SUM_PRODUCT_MAX) return 0;
   lvs_ctx *ctx = lvs_localsum_ctx(a ? a : b);
   lvs_matrix **out = lvsL_newmatrix(L); /* first: nothing leaks if it raises */
   const lvs_localsum *t[2] = {a, b};
@@ -294,7 +298,7 @@ static int site_sum_pow(lua_State *L, lvs_localsum *s, lua_Integer k) {
   lvs_localsum *r = NULL, *t;
   int st = lvs_localsum_sum(ctx, 1, one, self, &r);
   for (lua_Integer q = 1; !st && q < k; q++) {
-    if (lvs_localsum_terms(r) * lvs_localsum_terms(s) > 4096) {
+    if (lvs_localsum_terms(r) * lvs_localsum_terms(s) > SITE_SUM_PRODUCT_MAX) {
       st = LVS_ECAP;
       break;
     }
@@ -575,8 +579,9 @@ static int sum_site_terms(lua_State *L, lua_Integer n) {
   for (lua_Integer k = 1; k <= n; k++) {
     lua_rawgeti(L, 1, k);
     double z[2];
-    const lvs_localsum *s = lvsL_toscalar(L, -1, z) ? NULL : lvsL_testlocalsum(L, -1);
-    int scalar = lvsL_toscalar(L, -1, z) && isfinite(z[0]) && isfinite(z[1]);
+    int isnum = lvsL_toscalar(L, -1, z);
+    const lvs_localsum *s = isnum ? NULL : lvsL_testlocalsum(L, -1);
+    int scalar = isnum && isfinite(z[0]) && isfinite(z[1]);
     lua_pop(L, 1);
     if (!s && !scalar) return 0;
     if (s && first && !lvs_localsum_compatible(first, s)) return 0;

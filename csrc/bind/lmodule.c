@@ -40,7 +40,6 @@ static int sandboxed(lua_State *L) {
   return s;
 }
 
-int lvsL_no_files(lua_State *L, const char *fname) { return lvsL_may_write(L, fname, NULL); }
 
 /* 1 when dir (a resolved path) is root or inside it */
 static int inside(const char *dir, const char *root) {
