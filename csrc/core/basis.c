@@ -309,6 +309,129 @@ const double *lvsi_basis_par(const lvs_basis *b) { return b->kpar; }
 lvs_ctx *lvsi_basis_ctx(const lvs_basis *b) { return b->ctx; }
 
 /* The stored (unpadded, plain) operator of a single basis. */
+/* the ladder operators, x, p and n of an oscillator (stored levels) */
+static int oscillator_op(const lvs_basis *b, const char *name, lvs_matrix **out, long *band) {
+  lvs_ctx *ctx = b->ctx;
+  size_t m = b->m;
+  lvs_matrix *c = NULL;
+  int st;
+  int which = !strcmp(name, "lower") ? 0 : !strcmp(name, "raise") ? 1 : !strcmp(name, "x") ? 2
+            : !strcmp(name, "p") ? 3 : !strcmp(name, "number") ? 4 : -1;
+  if (which < 0)
+    return lvsi_fail(ctx, LVS_EINVAL,
+                     "oscillator has no operator '%s' (it has x, p, number, lower, raise, identity)", name);
+  if ((st = lvsi_mat_alloc(ctx, m, m, which == 3, 1, 2 * m, &c))) return st;
+  for (size_t j = 0; j < m; j++) {
+    c->cp[j] = c->nnz;
+    double up = j > 0 ? sqrt((double)j) : 0.0;  /* <j-1|a|j> */
+    double dn = sqrt((double)(j + 1));           /* <j+1|a^+|j> */
+    int has_dn = j + 1 < m;
+    switch (which) {
+      case 0: if (j > 0) st = lvsi_csc_push(c, j - 1, up); break;
+      case 1: if (has_dn) st = lvsi_csc_push(c, j + 1, dn); break;
+      case 2:
+        if (j > 0) st = lvsi_csc_push(c, j - 1, up / sqrt(2.0));
+        if (!st && has_dn) st = lvsi_csc_push(c, j + 1, dn / sqrt(2.0));
+        break;
+      case 3: /* p = i (a^+ - a)/sqrt 2 */
+        if (j > 0) st = lvsi_csc_push(c, j - 1, -I * up / sqrt(2.0));
+        if (!st && has_dn) st = lvsi_csc_push(c, j + 1, I * dn / sqrt(2.0));
+        break;
+      case 4: if (j > 0) st = lvsi_csc_push(c, j, (double)j); break;
+    }
+    if (st) {
+      lvs_matrix_free(c);
+      return st;
+    }
+  }
+  c->cp[m] = c->nnz;
+  *band = which == 4 ? 0 : 1;
+  *out = c;
+  return LVS_OK;
+
+}
+
+/* Sz, S+, S-, Sx, Sy of a spin, states m = S .. -S */
+static int spin_op(const lvs_basis *b, const char *name, lvs_matrix **out, long *band) {
+  lvs_ctx *ctx = b->ctx;
+  size_t m = b->m;
+  lvs_matrix *c = NULL;
+  int st;
+  int which = !strcmp(name, "Sz") ? 0 : !strcmp(name, "Sp") ? 1 : !strcmp(name, "Sm") ? 2
+            : !strcmp(name, "Sx") ? 3 : !strcmp(name, "Sy") ? 4 : -1;
+  if (which < 0)
+    return lvsi_fail(ctx, LVS_EINVAL,
+                     "spin has no operator '%s' (it has Sx, Sy, Sz, Sp, Sm, identity)", name);
+  double S = b->twoS / 2.0;
+  if ((st = lvsi_mat_alloc(ctx, m, m, which == 4, 1, 2 * m, &c))) return st;
+  for (size_t j = 0; j < m; j++) {
+    double mj = S - (double)j;
+    /* S+ |m> = c+ |m+1>: stored row j-1; S- |m> = c- |m-1>: row j+1 */
+    double cp = j > 0 ? sqrt(S * (S + 1) - mj * (mj + 1)) : 0.0;
+    double cm = j + 1 < m ? sqrt(S * (S + 1) - mj * (mj - 1)) : 0.0;
+    c->cp[j] = c->nnz;
+    switch (which) {
+      case 0: if (mj != 0.0) st = lvsi_csc_push(c, j, mj); break;
+      case 1: if (j > 0) st = lvsi_csc_push(c, j - 1, cp); break;
+      case 2: if (j + 1 < m) st = lvsi_csc_push(c, j + 1, cm); break;
+      case 3:
+        if (j > 0) st = lvsi_csc_push(c, j - 1, cp / 2);
+        if (!st && j + 1 < m) st = lvsi_csc_push(c, j + 1, cm / 2);
+        break;
+      case 4: /* Sy = (S+ - S-)/2i */
+        if (j > 0) st = lvsi_csc_push(c, j - 1, cp / (2.0 * I));
+        if (!st && j + 1 < m) st = lvsi_csc_push(c, j + 1, -cm / (2.0 * I));
+        break;
+    }
+    if (st) {
+      lvs_matrix_free(c);
+      return st;
+    }
+  }
+  c->cp[m] = c->nnz;
+  *band = 1;
+  *out = c;
+  return LVS_OK;
+
+}
+
+/* a named operator attached to a custom basis, as CSC */
+static int custom_op(const lvs_basis *b, const char *name, lvs_matrix **out, long *band) {
+  lvs_ctx *ctx = b->ctx;
+  size_t m = b->m;
+  lvs_matrix *c = NULL;
+  int st;
+  size_t k = 0;
+  while (k < b->nops && strcmp(b->opnames[k], name) != 0) k++;
+  if (k == b->nops) {
+    char list[256] = "";
+    for (size_t i = 0; i < b->nops && strlen(list) < 200; i++) {
+      strcat(list, b->opnames[i]);
+      strcat(list, ", ");
+    }
+    return lvsi_fail(ctx, LVS_EINVAL, "this basis has no operator '%s' (it has %sidentity)", name, list);
+  }
+  /* stored ops are plain n x n; hand out a CSC copy (products need CSC) */
+  const lvs_matrix *src = b->ops[k];
+  if ((st = lvsi_mat_alloc(ctx, m, m, src->cplx, 1, 4 * m, &c))) return st;
+  for (size_t j = 0; j < m && !st; j++) {
+    c->cp[j] = c->nnz;
+    for (size_t i = 0; i < m && !st; i++) {
+      double complex v = lvsi_mat_at(src, i, j);
+      if (v != 0.0) st = lvsi_csc_push(c, i, v);
+    }
+  }
+  if (st) {
+    lvs_matrix_free(c);
+    return st;
+  }
+  c->cp[m] = c->nnz;
+  *band = (long)m;
+  *out = c;
+  return LVS_OK;
+
+}
+
 static int single_op(const lvs_basis *b, const char *name, lvs_matrix **out, long *band) {
   lvs_ctx *ctx = b->ctx;
   size_t m = b->m;
@@ -327,108 +450,9 @@ static int single_op(const lvs_basis *b, const char *name, lvs_matrix **out, lon
     return LVS_OK;
   }
   if (b->kop) return b->kop(b, name, out, band);
-  if (b->kind == LVS_BASIS_OSCILLATOR) {
-    int which = !strcmp(name, "lower") ? 0 : !strcmp(name, "raise") ? 1 : !strcmp(name, "x") ? 2
-              : !strcmp(name, "p") ? 3 : !strcmp(name, "number") ? 4 : -1;
-    if (which < 0)
-      return lvsi_fail(ctx, LVS_EINVAL,
-                       "oscillator has no operator '%s' (it has x, p, number, lower, raise, identity)", name);
-    if ((st = lvsi_mat_alloc(ctx, m, m, which == 3, 1, 2 * m, &c))) return st;
-    for (size_t j = 0; j < m; j++) {
-      c->cp[j] = c->nnz;
-      double up = j > 0 ? sqrt((double)j) : 0.0;  /* <j-1|a|j> */
-      double dn = sqrt((double)(j + 1));           /* <j+1|a^+|j> */
-      int has_dn = j + 1 < m;
-      switch (which) {
-        case 0: if (j > 0) st = lvsi_csc_push(c, j - 1, up); break;
-        case 1: if (has_dn) st = lvsi_csc_push(c, j + 1, dn); break;
-        case 2:
-          if (j > 0) st = lvsi_csc_push(c, j - 1, up / sqrt(2.0));
-          if (!st && has_dn) st = lvsi_csc_push(c, j + 1, dn / sqrt(2.0));
-          break;
-        case 3: /* p = i (a^+ - a)/sqrt 2 */
-          if (j > 0) st = lvsi_csc_push(c, j - 1, -I * up / sqrt(2.0));
-          if (!st && has_dn) st = lvsi_csc_push(c, j + 1, I * dn / sqrt(2.0));
-          break;
-        case 4: if (j > 0) st = lvsi_csc_push(c, j, (double)j); break;
-      }
-      if (st) {
-        lvs_matrix_free(c);
-        return st;
-      }
-    }
-    c->cp[m] = c->nnz;
-    *band = which == 4 ? 0 : 1;
-    *out = c;
-    return LVS_OK;
-  }
-  if (b->kind == LVS_BASIS_SPIN) {
-    int which = !strcmp(name, "Sz") ? 0 : !strcmp(name, "Sp") ? 1 : !strcmp(name, "Sm") ? 2
-              : !strcmp(name, "Sx") ? 3 : !strcmp(name, "Sy") ? 4 : -1;
-    if (which < 0)
-      return lvsi_fail(ctx, LVS_EINVAL,
-                       "spin has no operator '%s' (it has Sx, Sy, Sz, Sp, Sm, identity)", name);
-    double S = b->twoS / 2.0;
-    if ((st = lvsi_mat_alloc(ctx, m, m, which == 4, 1, 2 * m, &c))) return st;
-    for (size_t j = 0; j < m; j++) {
-      double mj = S - (double)j;
-      /* S+ |m> = c+ |m+1>: stored row j-1; S- |m> = c- |m-1>: row j+1 */
-      double cp = j > 0 ? sqrt(S * (S + 1) - mj * (mj + 1)) : 0.0;
-      double cm = j + 1 < m ? sqrt(S * (S + 1) - mj * (mj - 1)) : 0.0;
-      c->cp[j] = c->nnz;
-      switch (which) {
-        case 0: if (mj != 0.0) st = lvsi_csc_push(c, j, mj); break;
-        case 1: if (j > 0) st = lvsi_csc_push(c, j - 1, cp); break;
-        case 2: if (j + 1 < m) st = lvsi_csc_push(c, j + 1, cm); break;
-        case 3:
-          if (j > 0) st = lvsi_csc_push(c, j - 1, cp / 2);
-          if (!st && j + 1 < m) st = lvsi_csc_push(c, j + 1, cm / 2);
-          break;
-        case 4: /* Sy = (S+ - S-)/2i */
-          if (j > 0) st = lvsi_csc_push(c, j - 1, cp / (2.0 * I));
-          if (!st && j + 1 < m) st = lvsi_csc_push(c, j + 1, -cm / (2.0 * I));
-          break;
-      }
-      if (st) {
-        lvs_matrix_free(c);
-        return st;
-      }
-    }
-    c->cp[m] = c->nnz;
-    *band = 1;
-    *out = c;
-    return LVS_OK;
-  }
-  if (b->kind == LVS_BASIS_CUSTOM) {
-    size_t k = 0;
-    while (k < b->nops && strcmp(b->opnames[k], name) != 0) k++;
-    if (k == b->nops) {
-      char list[256] = "";
-      for (size_t i = 0; i < b->nops && strlen(list) < 200; i++) {
-        strcat(list, b->opnames[i]);
-        strcat(list, ", ");
-      }
-      return lvsi_fail(ctx, LVS_EINVAL, "this basis has no operator '%s' (it has %sidentity)", name, list);
-    }
-    /* stored ops are plain n x n; hand out a CSC copy (products need CSC) */
-    const lvs_matrix *src = b->ops[k];
-    if ((st = lvsi_mat_alloc(ctx, m, m, src->cplx, 1, 4 * m, &c))) return st;
-    for (size_t j = 0; j < m && !st; j++) {
-      c->cp[j] = c->nnz;
-      for (size_t i = 0; i < m && !st; i++) {
-        double complex v = lvsi_mat_at(src, i, j);
-        if (v != 0.0) st = lvsi_csc_push(c, i, v);
-      }
-    }
-    if (st) {
-      lvs_matrix_free(c);
-      return st;
-    }
-    c->cp[m] = c->nnz;
-    *band = (long)m;
-    *out = c;
-    return LVS_OK;
-  }
+  if (b->kind == LVS_BASIS_OSCILLATOR) return oscillator_op(b, name, out, band);
+  if (b->kind == LVS_BASIS_SPIN) return spin_op(b, name, out, band);
+  if (b->kind == LVS_BASIS_CUSTOM) return custom_op(b, name, out, band);
   return lvsi_fail(ctx, LVS_EINVAL, "a plain basis has no operator '%s' (it has identity)", name);
 }
 
