@@ -67,6 +67,16 @@ local function forge(part, r, f)
   spit(part, t:sub(1, off) .. new .. t:sub(off + REC + 1))
 end
 
+-- merge the parts of out, compare with the file of one uninterrupted run
+-- (a merge equals one run byte for byte: docs/sweeps.md), remove both
+local function merged_equals_single_run(out)
+  run{H0 = H0, V = V, out = out, merge = true}
+  local ref = ftmp(".csv")
+  run{H0 = H0, V = V, out = ref}
+  assert.are.equal(slurp(ref), slurp(out))
+  os.remove(out); os.remove(ref)
+end
+
 describe("journal trust", function()
   it("refuses the records of another family with the same end points", function()
     -- H(p) = H0 + p V and H0 + p^2 V agree at p = 0 and p = 1 only
@@ -110,11 +120,7 @@ describe("journal trust", function()
     assert.is_true(os.clock() - t0 < 5) -- refused, not a hang in the level matching
     -- the untouched parts still merge into the file of a single run
     spit(part, saved)
-    run{H0 = H0, V = V, out = out, merge = true}
-    local ref = ftmp(".csv")
-    run{H0 = H0, V = V, out = ref}
-    assert.are.equal(slurp(ref), slurp(out))
-    os.remove(out); os.remove(ref)
+    merged_equals_single_run(out)
   end)
 
   it("loses only a torn record, not the ones after it", function()
@@ -131,11 +137,7 @@ describe("journal trust", function()
     -- scan that stopped at the torn record would redo the seven after it)
     run{H0 = H0, V = V, out = out, shard = "1/1"}
     assert.are.equal(nrec + 1, (#slurp(part) - JHEAD) // REC)
-    run{H0 = H0, V = V, out = out, merge = true}
-    local ref = ftmp(".csv")
-    run{H0 = H0, V = V, out = ref}
-    assert.are.equal(slurp(ref), slurp(out))
-    os.remove(out); os.remove(ref)
+    merged_equals_single_run(out)
   end)
   it("lets one run at a time write a journal (a lock on the file)", function()
     local bin = os.getenv("LVS_BIN") or "build/levelshift"
