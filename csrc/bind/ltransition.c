@@ -567,6 +567,82 @@ static double *numarray(lua_State *L, const char *key, size_t *len) {
   return buf;
 }
 
+/* golden_rule's phase 1: the process (constant, absorption, emission) and omega */
+static void golden_process(lua_State *L, lvs_golden_spec *sp) {
+  lua_getfield(L, 1, "omega");
+  int have_omega = !lua_isnil(L, -1);
+  lua_pop(L, 1);
+  lua_getfield(L, 1, "process");
+  const char *proc = lua_isnil(L, -1) ? NULL : lua_tostring(L, -1);
+  if (!lua_isnil(L, -1) && lua_type(L, -1) != LUA_TSTRING)
+    luaL_error(L, "bad argument #1 to 'golden_rule' (field 'process' must be 'constant', 'absorption' or 'emission')");
+  lua_pop(L, 1);
+  if (!proc) sp->process = have_omega ? LVS_GOLDEN_ABSORPTION : LVS_GOLDEN_CONSTANT;
+  else if (strcmp(proc, "constant") == 0) sp->process = LVS_GOLDEN_CONSTANT;
+  else if (strcmp(proc, "absorption") == 0) sp->process = LVS_GOLDEN_ABSORPTION;
+  else if (strcmp(proc, "emission") == 0) sp->process = LVS_GOLDEN_EMISSION;
+  else
+    luaL_error(L, "bad argument #1 to 'golden_rule' (field 'process' must be 'constant', 'absorption' or 'emission', got '%s')",
+                      proc);
+  if (sp->process == LVS_GOLDEN_CONSTANT && have_omega)
+    luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' given with process 'constant')");
+  if (sp->process != LVS_GOLDEN_CONSTANT) {
+    if (!have_omega)
+      luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' is required for process '%s')", proc);
+    sp->omega = needfield(L, "golden_rule", "omega", 1, 0);
+    if (!(sp->omega > 0) || isinf(sp->omega))
+      luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' must be a finite number > 0, got %f)", sp->omega);
+  }
+}
+
+/* golden_rule's phase 3 for a band: the levels (stack 3), their couplings
+ * (stack 4, when given), the broadening and the line shape; stack 2 a
+ * placeholder */
+static void golden_band(lua_State *L, lvs_golden_spec *sp, int has_couplings) {
+  lua_pushnil(L); /* 2: placeholder */
+  size_t nb = 0, nc = 0;
+  sp->band = numarray(L, "band", &nb); /* 3 */
+  sp->nband = nb;
+  if (has_couplings) {
+    sp->band_coupling = numarray(L, "couplings", &nc); /* 4 */
+    if (nc != nb)
+      luaL_error(L, "bad argument #1 to 'golden_rule' (field 'couplings' has %d entries but 'band' has %d)", (int)nc,
+                        (int)nb);
+  }
+  sp->broadening = needfield(L, "golden_rule", "broadening", 1, 0);
+  if (!(sp->broadening > 0) || isinf(sp->broadening))
+    luaL_error(L, "bad argument #1 to 'golden_rule' (field 'broadening' must be a finite number > 0, got %f)",
+                      sp->broadening);
+  lua_getfield(L, 1, "shape");
+  const char *shape = lua_isnil(L, -1) ? "lorentzian" : lua_tostring(L, -1);
+  if (!shape || lua_type(L, -1) == LUA_TNUMBER ||
+      (strcmp(shape, "lorentzian") != 0 && strcmp(shape, "gaussian") != 0))
+    luaL_error(L, "bad argument #1 to 'golden_rule' (field 'shape' must be 'lorentzian' or 'gaussian')");
+  sp->shape = strcmp(shape, "gaussian") == 0 ? LVS_BAND_GAUSSIAN : LVS_BAND_LORENTZIAN;
+  lua_pop(L, 1);
+}
+
+/* golden_rule's result: the rate, then {rho, energy, spacing, bandwidth, warning} */
+static int golden_push(lua_State *L, const lvs_golden_spec *sp, const lvs_golden_result *r) {
+  lua_pushnumber(L, r->rate);
+  lua_createtable(L, 0, 6);
+  lua_pushnumber(L, r->rho);
+  lua_setfield(L, -2, "rho");
+  lua_pushnumber(L, r->final_energy);
+  lua_setfield(L, -2, "energy");
+  if (sp->band) {
+    lua_pushnumber(L, r->spacing);
+    lua_setfield(L, -2, "spacing");
+    lua_pushnumber(L, r->bandwidth);
+    lua_setfield(L, -2, "bandwidth");
+  }
+  if (r->warning[0]) {
+    lua_pushstring(L, r->warning);
+    lua_setfield(L, -2, "warning");
+  }
+  return 2;
+}
+
 static int l_golden(lua_State *L) {
   lvs_ctx *ctx = lvsL_ctx(L);
   static const char *const known[] = {"V", "rho", "band", "E", "omega", "process", "broadening", "shape", "couplings", NULL};
@@ -580,31 +656,7 @@ static int l_golden(lua_State *L) {
   cb.L = L;
   sp.energy = needfield(L, "golden_rule", "E", 0, 0.0);
   if (!isfinite(sp.energy)) return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'E' must be finite)");
-  /* process and omega */
-  lua_getfield(L, 1, "omega");
-  int have_omega = !lua_isnil(L, -1);
-  lua_pop(L, 1);
-  lua_getfield(L, 1, "process");
-  const char *proc = lua_isnil(L, -1) ? NULL : lua_tostring(L, -1);
-  if (!lua_isnil(L, -1) && lua_type(L, -1) != LUA_TSTRING)
-    return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'process' must be 'constant', 'absorption' or 'emission')");
-  lua_pop(L, 1);
-  if (!proc) sp.process = have_omega ? LVS_GOLDEN_ABSORPTION : LVS_GOLDEN_CONSTANT;
-  else if (strcmp(proc, "constant") == 0) sp.process = LVS_GOLDEN_CONSTANT;
-  else if (strcmp(proc, "absorption") == 0) sp.process = LVS_GOLDEN_ABSORPTION;
-  else if (strcmp(proc, "emission") == 0) sp.process = LVS_GOLDEN_EMISSION;
-  else
-    return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'process' must be 'constant', 'absorption' or 'emission', got '%s')",
-                      proc);
-  if (sp.process == LVS_GOLDEN_CONSTANT && have_omega)
-    return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' given with process 'constant')");
-  if (sp.process != LVS_GOLDEN_CONSTANT) {
-    if (!have_omega)
-      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' is required for process '%s')", proc);
-    sp.omega = needfield(L, "golden_rule", "omega", 1, 0);
-    if (!(sp.omega > 0) || isinf(sp.omega))
-      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'omega' must be a finite number > 0, got %f)", sp.omega);
-  }
+  golden_process(L, &sp);
   /* density of states */
   lua_getfield(L, 1, "rho");
   lua_getfield(L, 1, "band");
@@ -643,27 +695,7 @@ static int l_golden(lua_State *L) {
                         luaL_typename(L, 2));
     }
   } else {
-    lua_pushnil(L); /* 2: placeholder */
-    size_t nb = 0, nc = 0;
-    sp.band = numarray(L, "band", &nb); /* 3 */
-    sp.nband = nb;
-    if (has_couplings) {
-      sp.band_coupling = numarray(L, "couplings", &nc); /* 4 */
-      if (nc != nb)
-        return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'couplings' has %d entries but 'band' has %d)", (int)nc,
-                          (int)nb);
-    }
-    sp.broadening = needfield(L, "golden_rule", "broadening", 1, 0);
-    if (!(sp.broadening > 0) || isinf(sp.broadening))
-      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'broadening' must be a finite number > 0, got %f)",
-                        sp.broadening);
-    lua_getfield(L, 1, "shape");
-    const char *shape = lua_isnil(L, -1) ? "lorentzian" : lua_tostring(L, -1);
-    if (!shape || lua_type(L, -1) == LUA_TNUMBER ||
-        (strcmp(shape, "lorentzian") != 0 && strcmp(shape, "gaussian") != 0))
-      return luaL_error(L, "bad argument #1 to 'golden_rule' (field 'shape' must be 'lorentzian' or 'gaussian')");
-    sp.shape = strcmp(shape, "gaussian") == 0 ? LVS_BAND_GAUSSIAN : LVS_BAND_LORENTZIAN;
-    lua_pop(L, 1);
+    golden_band(L, &sp, has_couplings);
   }
   lvs_golden_result r;
   int st = lvs_golden_rate(ctx, &sp, &r);
@@ -672,23 +704,7 @@ static int l_golden(lua_State *L) {
     return luaL_error(L, "bad argument #1 to 'golden_rule' (%s)", cb.err);
   }
   lvsL_check(L, ctx, st, "golden_rule");
-  lua_pushnumber(L, r.rate);
-  lua_createtable(L, 0, 6);
-  lua_pushnumber(L, r.rho);
-  lua_setfield(L, -2, "rho");
-  lua_pushnumber(L, r.final_energy);
-  lua_setfield(L, -2, "energy");
-  if (sp.band) {
-    lua_pushnumber(L, r.spacing);
-    lua_setfield(L, -2, "spacing");
-    lua_pushnumber(L, r.bandwidth);
-    lua_setfield(L, -2, "bandwidth");
-  }
-  if (r.warning[0]) {
-    lua_pushstring(L, r.warning);
-    lua_setfield(L, -2, "warning");
-  }
-  return 2;
+  return golden_push(L, &sp, &r);
 }
 
 void lvsL_open_transition(lua_State *L, int ctxidx) {
